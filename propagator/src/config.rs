@@ -1,0 +1,507 @@
+//! The `forces.yaml` and `STATE.yaml` files.
+//!
+//! Unknown keys, wrong types and out-of-range values are errors that name the file,
+//! the key and the line (serde_yaml reports the position; range checks run inside
+//! deserialization so they get it too).
+
+use crate::atmosphere::{AltitudeModel, Atmosphere, Exponential, PiecewiseExponential, Ussa1976};
+use crate::body::CentralBody;
+use crate::elements::Elements;
+use crate::force::drag::Drag;
+use crate::force::two_body::TwoBody;
+use crate::force::zonal::Zonal;
+use crate::force::ForceModel;
+use crate::state::StateVector;
+use crate::time::Epoch;
+use serde::de::{Deserializer, Error as _};
+use serde::Deserialize;
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+
+/// A configuration file that could not be read or is wrong.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("{}: {message}", path.display())]
+pub struct ConfigError {
+    /// The file.
+    pub path: PathBuf,
+    /// What is wrong, with the key and line where known.
+    pub message: String,
+}
+
+fn config_error(path: &Path, message: impl Into<String>) -> ConfigError {
+    ConfigError {
+        path: path.to_path_buf(),
+        message: message.into(),
+    }
+}
+
+/// Range checks that run inside deserialization, so serde_yaml adds the position;
+/// each names its key, since the position is that of the enclosing block.
+macro_rules! checked_f64 {
+    ($fn:ident, $key:literal, positive) => {
+        checked_f64!($fn, $key, |v: f64| v > 0.0, "must be positive and finite");
+    };
+    ($fn:ident, $key:literal, finite) => {
+        checked_f64!($fn, $key, |_v: f64| true, "must be finite");
+    };
+    ($fn:ident, $key:literal, $ok:expr, $what:literal) => {
+        fn $fn<'de, D: Deserializer<'de>>(d: D) -> Result<f64, D::Error> {
+            let v = f64::deserialize(d)?;
+            if v.is_finite() && ($ok)(v) {
+                Ok(v)
+            } else {
+                Err(D::Error::custom(format!("`{}` = {} {}", $key, v, $what)))
+            }
+        }
+    };
+}
+
+checked_f64!(positive_cd, "cd", positive);
+checked_f64!(positive_area, "area_m2", positive);
+checked_f64!(positive_mass, "mass_kg", positive);
+checked_f64!(positive_scale, "scale", positive);
+checked_f64!(positive_rho0, "rho0_kg_m3", positive);
+checked_f64!(finite_h0, "h0_km", finite);
+checked_f64!(positive_scale_height, "scale_height_km", positive);
+checked_f64!(positive_sma, "sma_km", positive);
+checked_f64!(finite_ecc, "ecc", finite);
+checked_f64!(finite_inc, "inc_deg", finite);
+checked_f64!(finite_raan, "raan_deg", finite);
+checked_f64!(finite_argp, "argp_deg", finite);
+checked_f64!(finite_nu, "true_anomaly_deg", finite);
+
+fn finite3<'de, D: Deserializer<'de>>(d: D) -> Result<Option<[f64; 3]>, D::Error> {
+    let v = Option::<[f64; 3]>::deserialize(d)?;
+    if let Some(a) = v {
+        if !a.iter().all(|c| c.is_finite()) {
+            return Err(D::Error::custom(format!(
+                "{a:?} has a non-finite component"
+            )));
+        }
+    }
+    Ok(v)
+}
+
+fn scale_default() -> f64 {
+    1.0
+}
+
+/// The contents of `forces.yaml`.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ForcesFile {
+    /// Central-body constants (EGM96 Earth if absent).
+    #[serde(default)]
+    pub central_body: CentralBody,
+    /// Gravity field.
+    pub gravity: GravitySpec,
+    /// Atmospheric drag (none if absent).
+    #[serde(default)]
+    pub drag: Option<DragSpec>,
+    /// Force plugins: paths of native plugins or learned-force files.
+    #[serde(default)]
+    pub plugins: Vec<String>,
+}
+
+/// `gravity:` block.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct GravitySpec {
+    /// 0 = two-body only; 2…6 = zonal harmonics J2…J_n (EGM96).
+    pub zonal_degree: usize,
+}
+
+/// `drag:` block.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DragSpec {
+    /// Density model.
+    #[serde(with = "serde_yaml::with::singleton_map")]
+    pub atmosphere: AtmosphereSpec,
+    /// Drag coefficient, dimensionless.
+    #[serde(deserialize_with = "positive_cd")]
+    pub cd: f64,
+    /// Cross-section area, m².
+    #[serde(deserialize_with = "positive_area")]
+    pub area_m2: f64,
+    /// Mass, kg.
+    #[serde(deserialize_with = "positive_mass")]
+    pub mass_kg: f64,
+    /// `spherical` (|r| − R, the default) or `geodetic` (WGS-84).
+    #[serde(default)]
+    pub altitude: AltitudeKey,
+    /// Multiplier on the drag acceleration (default 1).
+    #[serde(default = "scale_default", deserialize_with = "positive_scale")]
+    pub scale: f64,
+}
+
+/// `altitude:` values.
+#[derive(Clone, Copy, Debug, Default, Deserialize, PartialEq, Eq)]
+#[serde(rename_all = "lowercase")]
+pub enum AltitudeKey {
+    /// |r| − R.
+    #[default]
+    Spherical,
+    /// Height above the WGS-84 ellipsoid.
+    Geodetic,
+}
+
+/// `atmosphere:` values: `table`, `ussa1976`, or `{ exponential: {...} }`.
+#[derive(Clone, Debug, Deserialize, PartialEq)]
+#[serde(rename_all = "lowercase")]
+pub enum AtmosphereSpec {
+    /// Single exponential with explicit constants.
+    Exponential(ExponentialSpec),
+    /// The handbook piecewise-exponential table.
+    Table,
+    /// U.S. Standard Atmosphere 1976.
+    Ussa1976,
+}
+
+/// `exponential:` constants.
+#[derive(Clone, Debug, Deserialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct ExponentialSpec {
+    /// Density at `h0_km`, kg/m³.
+    #[serde(deserialize_with = "positive_rho0")]
+    pub rho0_kg_m3: f64,
+    /// Base altitude, km.
+    #[serde(deserialize_with = "finite_h0")]
+    pub h0_km: f64,
+    /// Scale height, km.
+    #[serde(deserialize_with = "positive_scale_height")]
+    pub scale_height_km: f64,
+}
+
+/// A force model ready to propagate, with the constants it was built from.
+pub struct LoadedForces {
+    /// The forces, in file order: two-body, zonal, drag, plugins.
+    pub model: ForceModel,
+    /// Central-body constants.
+    pub body: CentralBody,
+    /// How drag measures altitude (also used for the altitude floor).
+    pub altitude: AltitudeModel,
+    /// The file as parsed.
+    pub spec: ForcesFile,
+}
+
+impl ForcesFile {
+    /// Reads and checks `forces.yaml`.
+    pub fn load(path: &Path) -> Result<ForcesFile, ConfigError> {
+        let text = std::fs::read_to_string(path)
+            .map_err(|e| config_error(path, format!("cannot read: {e}")))?;
+        Self::parse(&text, path)
+    }
+
+    /// Parses `forces.yaml` text; `path` is for messages only.
+    pub fn parse(text: &str, path: &Path) -> Result<ForcesFile, ConfigError> {
+        if text.trim().is_empty() {
+            return Err(config_error(path, "the file is empty"));
+        }
+        let spec: ForcesFile =
+            serde_yaml::from_str(text).map_err(|e| config_error(path, e.to_string()))?;
+        spec.central_body
+            .validate()
+            .map_err(|m| config_error(path, m))?;
+        if spec.gravity.zonal_degree == 1 || spec.gravity.zonal_degree > 6 {
+            return Err(config_error(
+                path,
+                format!(
+                    "gravity.zonal_degree must be 0 (two-body) or 2..6, got {}",
+                    spec.gravity.zonal_degree
+                ),
+            ));
+        }
+        Ok(spec)
+    }
+
+    /// Builds the force model. `reference` is the epoch where the model's time axis
+    /// starts (forces that depend on absolute time are placed on it).
+    pub fn build(&self, path: &Path, _reference: Epoch) -> Result<LoadedForces, ConfigError> {
+        let body = self.central_body;
+        let mut model = ForceModel::new().with(TwoBody {
+            mu_km3_s2: body.mu_km3_s2,
+        });
+        if self.gravity.zonal_degree >= 2 {
+            let z = Zonal::egm96(body.mu_km3_s2, body.radius_km, self.gravity.zonal_degree)
+                .map_err(|m| config_error(path, m))?;
+            model = model.with(z);
+        }
+        let mut altitude = AltitudeModel::Spherical;
+        if let Some(d) = &self.drag {
+            altitude = match d.altitude {
+                AltitudeKey::Spherical => AltitudeModel::Spherical,
+                AltitudeKey::Geodetic => AltitudeModel::Geodetic,
+            };
+            let atmosphere: Arc<dyn Atmosphere> = match &d.atmosphere {
+                AtmosphereSpec::Exponential(e) => Arc::new(Exponential {
+                    rho0_kg_m3: e.rho0_kg_m3,
+                    h0_km: e.h0_km,
+                    scale_height_km: e.scale_height_km,
+                }),
+                AtmosphereSpec::Table => Arc::new(PiecewiseExponential::handbook()),
+                AtmosphereSpec::Ussa1976 => Arc::new(Ussa1976),
+            };
+            if d.area_m2 / d.mass_kg > 10.0 {
+                return Err(config_error(
+                    path,
+                    format!(
+                        "drag: area/mass = {} m²/kg is implausible (area in m², mass in kg)",
+                        d.area_m2 / d.mass_kg
+                    ),
+                ));
+            }
+            model = model.with(Drag {
+                cd: d.cd,
+                area_m2: d.area_m2,
+                mass_kg: d.mass_kg,
+                scale: d.scale,
+                atmosphere,
+                body,
+                altitude,
+            });
+        }
+        if let Some(p) = self.plugins.first() {
+            return Err(config_error(
+                path,
+                format!("plugins: `{p}`: force plugins are not supported by this version yet"),
+            ));
+        }
+        Ok(LoadedForces {
+            model,
+            body,
+            altitude,
+            spec: self.clone(),
+        })
+    }
+}
+
+/// `elements:` block of a state file (degrees in the file).
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ElementsSpec {
+    /// Semi-major axis, km.
+    #[serde(deserialize_with = "positive_sma")]
+    pub sma_km: f64,
+    /// Eccentricity.
+    #[serde(deserialize_with = "finite_ecc")]
+    pub ecc: f64,
+    /// Inclination, deg.
+    #[serde(deserialize_with = "finite_inc")]
+    pub inc_deg: f64,
+    /// Right ascension of the ascending node, deg.
+    #[serde(deserialize_with = "finite_raan")]
+    pub raan_deg: f64,
+    /// Argument of perigee, deg.
+    #[serde(deserialize_with = "finite_argp")]
+    pub argp_deg: f64,
+    /// True anomaly, deg.
+    #[serde(deserialize_with = "finite_nu")]
+    pub true_anomaly_deg: f64,
+}
+
+/// The contents of `STATE.yaml`: an epoch and either `r_km` + `v_km_s` or `elements`.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct StateFile {
+    /// ISO 8601 UTC.
+    pub epoch_utc: String,
+    /// ECI position, km.
+    #[serde(default, deserialize_with = "finite3")]
+    pub r_km: Option<[f64; 3]>,
+    /// ECI velocity, km/s.
+    #[serde(default, deserialize_with = "finite3")]
+    pub v_km_s: Option<[f64; 3]>,
+    /// Classical elements instead of r, v.
+    #[serde(default)]
+    pub elements: Option<ElementsSpec>,
+}
+
+/// An initial condition: epoch and ECI state.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct InitialState {
+    /// The epoch.
+    pub epoch: Epoch,
+    /// ECI state, km and km/s.
+    pub state: StateVector,
+}
+
+impl StateFile {
+    /// Reads a state file and converts it with the central body's μ.
+    pub fn load(path: &Path, body: &CentralBody) -> Result<InitialState, ConfigError> {
+        let text = std::fs::read_to_string(path)
+            .map_err(|e| config_error(path, format!("cannot read: {e}")))?;
+        Self::parse(&text, path, body)
+    }
+
+    /// Parses state-file text; `path` is for messages.
+    pub fn parse(text: &str, path: &Path, body: &CentralBody) -> Result<InitialState, ConfigError> {
+        if text.trim().is_empty() {
+            return Err(config_error(path, "the file is empty"));
+        }
+        let f: StateFile =
+            serde_yaml::from_str(text).map_err(|e| config_error(path, e.to_string()))?;
+        let epoch = Epoch::parse_utc(&f.epoch_utc)
+            .map_err(|e| config_error(path, format!("epoch_utc: {e}")))?;
+        let state =
+            match (&f.r_km, &f.v_km_s, &f.elements) {
+                (Some(r), Some(v), None) => StateVector::new(r[0], r[1], r[2], v[0], v[1], v[2]),
+                (None, None, Some(e)) => Elements {
+                    sma_km: e.sma_km,
+                    ecc: e.ecc,
+                    inc_rad: e.inc_deg.to_radians(),
+                    raan_rad: e.raan_deg.to_radians(),
+                    argp_rad: e.argp_deg.to_radians(),
+                    true_anomaly_rad: e.true_anomaly_deg.to_radians(),
+                }
+                .to_state(body.mu_km3_s2)
+                .map_err(|e| config_error(path, format!("elements: {e}")))?,
+                _ => return Err(config_error(
+                    path,
+                    "give either both `r_km` and `v_km_s`, or `elements`, not both and not neither",
+                )),
+            };
+        check_state_plausible(&state, body).map_err(|m| config_error(path, m))?;
+        Ok(InitialState { epoch, state })
+    }
+}
+
+/// Rejects states that are inside the Earth, absurdly far, or look like metres.
+pub fn check_state_plausible(x: &StateVector, body: &CentralBody) -> Result<(), String> {
+    let r = (x[0] * x[0] + x[1] * x[1] + x[2] * x[2]).sqrt();
+    let v = (x[3] * x[3] + x[4] * x[4] + x[5] * x[5]).sqrt();
+    if !(r.is_finite() && v.is_finite()) {
+        return Err("the state has a non-finite component".into());
+    }
+    if r > 1.0e6 {
+        return Err(format!(
+            "|r| = {r:.6e} km is beyond 1e6 km: positions look like metres, not km"
+        ));
+    }
+    if v > 100.0 {
+        return Err(format!(
+            "|v| = {v:.6e} km/s: velocities look like m/s, not km/s"
+        ));
+    }
+    if r < body.radius_km {
+        return Err(format!(
+            "|r| = {r:.3} km is inside the Earth (radius {} km)",
+            body.radius_km
+        ));
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn p() -> &'static Path {
+        Path::new("forces.yaml")
+    }
+
+    const FULL: &str = r#"
+central_body: { mu_km3_s2: 398600.4418, radius_km: 6378.1363, rotation_rad_s: 7.292115e-5 }
+gravity: { zonal_degree: 2 }
+drag:
+  atmosphere: { exponential: { rho0_kg_m3: 3.725e-12, h0_km: 400.0, scale_height_km: 58.515 } }
+  cd: 2.2
+  area_m2: 0.1
+  mass_kg: 10.0
+plugins: []
+"#;
+
+    #[test]
+    fn the_documented_example_parses() {
+        let f = ForcesFile::parse(FULL, p()).unwrap();
+        assert_eq!(f.gravity.zonal_degree, 2);
+        let d = f.drag.as_ref().unwrap();
+        assert!(matches!(d.atmosphere, AtmosphereSpec::Exponential(_)));
+        let loaded = f
+            .build(p(), Epoch::parse_utc("2031-05-04T12:00:00Z").unwrap())
+            .unwrap();
+        assert_eq!(loaded.model.names(), vec!["two_body", "zonal_j2", "drag"]);
+        for name in ["table", "ussa1976"] {
+            let t = FULL.replace(
+                "{ exponential: { rho0_kg_m3: 3.725e-12, h0_km: 400.0, scale_height_km: 58.515 } }",
+                name,
+            );
+            let f = ForcesFile::parse(&t, p()).unwrap();
+            assert!(f.drag.is_some());
+        }
+    }
+
+    #[test]
+    fn unknown_key_is_named_with_its_line() {
+        let t = FULL.replace("  cd: 2.2", "  cd: 2.2\n  c_d: 2.1");
+        let e = ForcesFile::parse(&t, p()).unwrap_err().to_string();
+        assert!(e.contains("c_d") && e.contains("line 7"), "{e}");
+        assert!(e.starts_with("forces.yaml:"), "{e}");
+    }
+
+    #[test]
+    fn wrong_type_and_bad_values_are_named() {
+        let t = FULL.replace("cd: 2.2", "cd: two");
+        let e = ForcesFile::parse(&t, p()).unwrap_err().to_string();
+        assert!(e.contains("line 6"), "{e}");
+        let t = FULL.replace("mass_kg: 10.0", "mass_kg: .nan");
+        let e = ForcesFile::parse(&t, p()).unwrap_err().to_string();
+        assert!(e.contains("mass_kg") || e.contains("line 8"), "{e}");
+        let t = FULL.replace("zonal_degree: 2", "zonal_degree: 9");
+        assert!(ForcesFile::parse(&t, p())
+            .unwrap_err()
+            .to_string()
+            .contains("zonal_degree"));
+        let e = ForcesFile::parse("gravity: [1, 2", p())
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("forces.yaml"), "{e}");
+        assert!(ForcesFile::parse("", p()).is_err());
+    }
+
+    #[test]
+    fn state_files() {
+        let body = CentralBody::EARTH_EGM96;
+        let s = StateFile::parse(
+            "epoch_utc: 2031-05-04T12:00:00Z\nr_km: [7000, 0, 0]\nv_km_s: [0, 7.5, 0]\n",
+            Path::new("s.yaml"),
+            &body,
+        )
+        .unwrap();
+        assert_eq!(s.state[4], 7.5);
+        let e = StateFile::parse(
+            "epoch_utc: 2031-05-04T12:00:00Z\nelements: { sma_km: 7000, ecc: 0.001, inc_deg: 51.6, raan_deg: 10, argp_deg: 20, true_anomaly_deg: 30 }\n",
+            Path::new("s.yaml"),
+            &body,
+        )
+        .unwrap();
+        assert!((e.state.fixed_rows::<3>(0).norm() - 7000.0).abs() < 10.0);
+        for (bad, needle) in [
+            (
+                "epoch_utc: 2031-05-04T12:00:00Z\nr_km: [7000, 0, .nan]\nv_km_s: [0, 7.5, 0]\n",
+                "non-finite",
+            ),
+            (
+                "epoch_utc: 2031-05-04T12:00:00Z\nr_km: [7000000, 0, 0]\nv_km_s: [0, 7500, 0]\n",
+                "metres",
+            ),
+            (
+                "epoch_utc: 2031-05-04T12:00:00Z\nr_km: [6000, 0, 0]\nv_km_s: [0, 7.5, 0]\n",
+                "inside the Earth",
+            ),
+            (
+                "epoch_utc: 2031-05-04 noon\nr_km: [7000, 0, 0]\nv_km_s: [0, 7.5, 0]\n",
+                "epoch_utc",
+            ),
+            (
+                "epoch_utc: 2031-05-04T12:00:00Z\nr_km: [7000, 0, 0]\n",
+                "either",
+            ),
+        ] {
+            let e = StateFile::parse(bad, Path::new("s.yaml"), &body)
+                .unwrap_err()
+                .to_string();
+            assert!(e.contains(needle), "{bad}: {e}");
+        }
+    }
+}

@@ -1,0 +1,180 @@
+//! Ephemerides (epoch-tagged ECI states) and their files: CSV and CCSDS OEM (KVN).
+//!
+//! Numbers are written in Rust's shortest round-trip form, so a file written and read
+//! back gives the same states bit for bit; epochs are written to the microsecond and
+//! round-trip to the microsecond.
+
+pub mod csv;
+pub mod oem;
+
+use crate::body::CentralBody;
+use crate::config::check_state_plausible;
+use crate::state::StateVector;
+use crate::time::Epoch;
+use std::path::{Path, PathBuf};
+
+/// One epoch-tagged state.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct EphemerisPoint {
+    /// The epoch.
+    pub epoch: Epoch,
+    /// ECI state, km and km/s.
+    pub state: StateVector,
+}
+
+/// A time-ordered list of states of one object.
+#[derive(Clone, Debug, PartialEq, Default)]
+pub struct Ephemeris {
+    /// Object name (OEM `OBJECT_NAME`).
+    pub object_name: String,
+    /// Object identifier (OEM `OBJECT_ID`).
+    pub object_id: String,
+    /// States, strictly increasing in epoch.
+    pub points: Vec<EphemerisPoint>,
+}
+
+/// A file that could not be read or written, with the line where known.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub struct FileError {
+    /// The file.
+    pub path: PathBuf,
+    /// 1-based line, if the problem is on one.
+    pub line: Option<usize>,
+    /// What is wrong.
+    pub message: String,
+}
+
+impl std::fmt::Display for FileError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self.line {
+            Some(l) => write!(f, "{}:{}: {}", self.path.display(), l, self.message),
+            None => write!(f, "{}: {}", self.path.display(), self.message),
+        }
+    }
+}
+
+pub(crate) fn file_error(
+    path: &Path,
+    line: Option<usize>,
+    message: impl Into<String>,
+) -> FileError {
+    FileError {
+        path: path.to_path_buf(),
+        line,
+        message: message.into(),
+    }
+}
+
+/// File formats, chosen by extension.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Format {
+    /// `epoch_utc,x_km,…` comma-separated values.
+    Csv,
+    /// CCSDS Orbit Ephemeris Message, keyword-value notation.
+    Oem,
+}
+
+impl Format {
+    /// `.csv` → CSV, `.oem` → OEM; anything else is an error naming the file.
+    pub fn from_path(path: &Path) -> Result<Format, FileError> {
+        match path
+            .extension()
+            .and_then(|e| e.to_str())
+            .map(|e| e.to_ascii_lowercase())
+        {
+            Some(e) if e == "csv" => Ok(Format::Csv),
+            Some(e) if e == "oem" => Ok(Format::Oem),
+            _ => Err(file_error(
+                path,
+                None,
+                "unknown ephemeris format: the file name must end in .csv or .oem",
+            )),
+        }
+    }
+}
+
+impl Ephemeris {
+    /// Reads a CSV or OEM ephemeris (by extension) and checks it: epochs strictly
+    /// increasing, every state finite and plausible (outside the Earth, km not metres).
+    pub fn load(path: &Path, body: &CentralBody) -> Result<Ephemeris, FileError> {
+        let text = std::fs::read_to_string(path)
+            .map_err(|e| file_error(path, None, format!("cannot read: {e}")))?;
+        let (eph, lines) = match Format::from_path(path)? {
+            Format::Csv => csv::parse_ephemeris(&text, path)?,
+            Format::Oem => oem::parse(&text, path)?,
+        };
+        eph.validate(path, &lines, body)?;
+        Ok(eph)
+    }
+
+    /// Checks order and plausibility; `lines[i]` is the file line of point `i`.
+    pub fn validate(
+        &self,
+        path: &Path,
+        lines: &[usize],
+        body: &CentralBody,
+    ) -> Result<(), FileError> {
+        if self.points.is_empty() {
+            return Err(file_error(path, None, "no states in the file"));
+        }
+        for (i, p) in self.points.iter().enumerate() {
+            let line = lines.get(i).copied();
+            check_state_plausible(&p.state, body).map_err(|m| file_error(path, line, m))?;
+            if i > 0 {
+                let prev = &self.points[i - 1];
+                let dt = p.epoch.seconds_since(&prev.epoch);
+                if dt == 0.0 {
+                    return Err(file_error(
+                        path,
+                        line,
+                        format!(
+                            "duplicate epoch {} (also on line {})",
+                            p.epoch,
+                            lines.get(i - 1).copied().unwrap_or(0)
+                        ),
+                    ));
+                }
+                if dt < 0.0 {
+                    return Err(file_error(
+                        path,
+                        line,
+                        format!(
+                            "epoch {} is earlier than the one before it ({}): epochs must increase",
+                            p.epoch, prev.epoch
+                        ),
+                    ));
+                }
+            }
+        }
+        Ok(())
+    }
+
+    /// Writes CSV or OEM (by extension), atomically: a temporary file renamed into
+    /// place, so a failure never leaves a partial file.
+    pub fn save(&self, path: &Path) -> Result<(), FileError> {
+        let text = match Format::from_path(path)? {
+            Format::Csv => csv::format_ephemeris(self),
+            Format::Oem => oem::format(self),
+        };
+        write_atomically(path, text.as_bytes())
+    }
+}
+
+/// Writes `bytes` to `path` through a temporary file in the same folder and a rename.
+pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), FileError> {
+    let dir = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_else(|| "out".into());
+    let tmp = dir.join(format!(".{name}.tmp-{}", std::process::id()));
+    std::fs::write(&tmp, bytes)
+        .map_err(|e| file_error(path, None, format!("cannot write: {e}")))?;
+    std::fs::rename(&tmp, path).map_err(|e| {
+        let _ = std::fs::remove_file(&tmp);
+        file_error(path, None, format!("cannot write: {e}"))
+    })
+}

@@ -1,0 +1,235 @@
+//! CCSDS Orbit Ephemeris Message (OEM), keyword-value notation (CCSDS 502.0-B).
+//!
+//! Written: version 2.0, one segment, `CENTER_NAME = EARTH`, `REF_FRAME = EME2000`
+//! (the J2000 mean equator and equinox; arcwise treats it as GCRF), `TIME_SYSTEM = UTC`.
+//! Read: one or more segments about the Earth in EME2000, GCRF or ICRF, on UTC, TAI,
+//! TT or GPS time; optional acceleration columns are accepted and ignored; covariance
+//! blocks are skipped. Other frames or centres are refused rather than misread.
+
+use super::{file_error, Ephemeris, EphemerisPoint, FileError};
+use crate::state::StateVector;
+use crate::time::{Epoch, Scale};
+use std::path::Path;
+
+/// Formats an ephemeris as an OEM.
+pub fn format(eph: &Ephemeris) -> String {
+    let name = if eph.object_name.is_empty() {
+        "UNNAMED"
+    } else {
+        &eph.object_name
+    };
+    let id = if eph.object_id.is_empty() {
+        "UNKNOWN"
+    } else {
+        &eph.object_id
+    };
+    let mut s = String::with_capacity(512 + eph.points.len() * 140);
+    s.push_str("CCSDS_OEM_VERS = 2.0\n");
+    s.push_str(
+        "COMMENT Written by arcwise; ECI = J2000 mean equator and equinox (treated as GCRF)\n",
+    );
+    s.push_str("ORIGINATOR = ARCWISE\n\n");
+    s.push_str("META_START\n");
+    s.push_str(&format!("OBJECT_NAME = {name}\nOBJECT_ID = {id}\n"));
+    s.push_str("CENTER_NAME = EARTH\nREF_FRAME = EME2000\nTIME_SYSTEM = UTC\n");
+    if let (Some(a), Some(b)) = (eph.points.first(), eph.points.last()) {
+        s.push_str(&format!(
+            "START_TIME = {}\nSTOP_TIME = {}\n",
+            a.epoch.to_utc_string_no_zone(),
+            b.epoch.to_utc_string_no_zone()
+        ));
+    }
+    s.push_str("META_STOP\n\n");
+    for p in &eph.points {
+        let x = &p.state;
+        s.push_str(&format!(
+            "{} {} {} {} {} {} {}\n",
+            p.epoch.to_utc_string_no_zone(),
+            x[0],
+            x[1],
+            x[2],
+            x[3],
+            x[4],
+            x[5]
+        ));
+    }
+    s
+}
+
+/// Parses an OEM; returns the ephemeris and the file line of each state.
+pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileError> {
+    #[derive(PartialEq)]
+    enum Where {
+        Header,
+        Meta,
+        Data,
+        Covariance,
+    }
+    let mut at = Where::Header;
+    let mut eph = Ephemeris::default();
+    let mut lines = Vec::new();
+    let mut scale = None;
+    let mut saw_version = false;
+    let mut segments = 0;
+    for (i, raw) in text.lines().enumerate() {
+        let ln = i + 1;
+        let l = raw.trim();
+        if l.is_empty() || l.starts_with("COMMENT") {
+            continue;
+        }
+        let kv = l.split_once('=').map(|(k, v)| (k.trim(), v.trim()));
+        match at {
+            Where::Header | Where::Data if l == "META_START" => {
+                at = Where::Meta;
+                scale = None;
+                segments += 1;
+            }
+            Where::Header => match kv {
+                Some(("CCSDS_OEM_VERS", v)) => {
+                    if !(v.starts_with('1') || v.starts_with('2') || v.starts_with('3')) {
+                        return Err(file_error(
+                            path,
+                            Some(ln),
+                            format!("CCSDS_OEM_VERS {v} is not supported"),
+                        ));
+                    }
+                    saw_version = true;
+                }
+                Some(("CREATION_DATE" | "ORIGINATOR" | "MESSAGE_ID" | "CLASSIFICATION", _)) => {}
+                _ => {
+                    if !saw_version {
+                        return Err(file_error(
+                            path,
+                            Some(ln),
+                            "not an OEM: the first keyword must be CCSDS_OEM_VERS",
+                        ));
+                    }
+                    return Err(file_error(
+                        path,
+                        Some(ln),
+                        format!("unexpected line in the OEM header: `{l}`"),
+                    ));
+                }
+            },
+            Where::Meta => {
+                if l == "META_STOP" {
+                    if scale.is_none() {
+                        return Err(file_error(
+                            path,
+                            Some(ln),
+                            "TIME_SYSTEM missing from the metadata",
+                        ));
+                    }
+                    at = Where::Data;
+                    continue;
+                }
+                let (k, v) = kv.ok_or_else(|| {
+                    file_error(
+                        path,
+                        Some(ln),
+                        format!("expected KEY = VALUE in the metadata, got `{l}`"),
+                    )
+                })?;
+                match k {
+                    "OBJECT_NAME" => eph.object_name = v.to_string(),
+                    "OBJECT_ID" => eph.object_id = v.to_string(),
+                    "CENTER_NAME" => {
+                        if !v.eq_ignore_ascii_case("EARTH") {
+                            return Err(file_error(path, Some(ln), format!("CENTER_NAME = {v}: only Earth-centred ephemerides are supported")));
+                        }
+                    }
+                    "REF_FRAME" => {
+                        if !matches!(v, "EME2000" | "GCRF" | "ICRF") {
+                            return Err(file_error(path, Some(ln), format!("REF_FRAME = {v}: only EME2000, GCRF or ICRF (inertial) are supported")));
+                        }
+                    }
+                    "TIME_SYSTEM" => {
+                        scale = Some(Scale::from_keyword(v).ok_or_else(|| {
+                            file_error(
+                                path,
+                                Some(ln),
+                                format!("TIME_SYSTEM = {v}: supported are UTC, TAI, TT, GPS"),
+                            )
+                        })?);
+                    }
+                    "REF_FRAME_EPOCH"
+                    | "START_TIME"
+                    | "STOP_TIME"
+                    | "USEABLE_START_TIME"
+                    | "USEABLE_STOP_TIME"
+                    | "INTERPOLATION"
+                    | "INTERPOLATION_DEGREE" => {}
+                    _ => {
+                        return Err(file_error(
+                            path,
+                            Some(ln),
+                            format!("unknown metadata keyword `{k}`"),
+                        ))
+                    }
+                }
+            }
+            Where::Data => {
+                if l == "COVARIANCE_START" {
+                    at = Where::Covariance;
+                    continue;
+                }
+                let f: Vec<&str> = l.split_whitespace().collect();
+                if f.len() != 7 && f.len() != 10 {
+                    return Err(file_error(
+                        path,
+                        Some(ln),
+                        format!(
+                            "expected an epoch and 6 (or 9) numbers, got {} fields",
+                            f.len()
+                        ),
+                    ));
+                }
+                let sc = scale.unwrap_or(Scale::Utc);
+                let epoch = Epoch::parse_iso(f[0], sc)
+                    .map_err(|e| file_error(path, Some(ln), e.to_string()))?;
+                let mut x = [0.0; 6];
+                for k in 0..6 {
+                    let v: f64 = f[k + 1].parse().map_err(|_| {
+                        file_error(path, Some(ln), format!("`{}` is not a number", f[k + 1]))
+                    })?;
+                    if !v.is_finite() {
+                        return Err(file_error(
+                            path,
+                            Some(ln),
+                            format!("`{}` is not finite", f[k + 1]),
+                        ));
+                    }
+                    x[k] = v;
+                }
+                eph.points.push(EphemerisPoint {
+                    epoch,
+                    state: StateVector::from_column_slice(&x),
+                });
+                lines.push(ln);
+            }
+            Where::Covariance => {
+                if l == "COVARIANCE_STOP" {
+                    at = Where::Data;
+                }
+            }
+        }
+    }
+    if !saw_version {
+        return Err(file_error(path, None, "not an OEM: CCSDS_OEM_VERS missing"));
+    }
+    if segments == 0 || at == Where::Meta {
+        return Err(file_error(
+            path,
+            None,
+            "no complete META_START … META_STOP block",
+        ));
+    }
+    if at == Where::Covariance {
+        return Err(file_error(
+            path,
+            None,
+            "COVARIANCE_START without COVARIANCE_STOP",
+        ));
+    }
+    Ok((eph, lines))
+}

@@ -1,0 +1,31 @@
+//! # propagator
+//!
+//! arcwise's orbit propagator: epochs and time scales ([`time`]), frames ([`frames`],
+//! [`elements`]), the force interface and the built-in forces ([`force`],
+//! [`atmosphere`]), integrators with continuous output ([`integrator`]), the driver
+//! that produces ephemerides ([`propagation`]), the `forces.yaml` and state files
+//! ([`config`]) and ephemeris files ([`ephemeris`]).
+//!
+//! Units everywhere: km, km/s, km/s², seconds; mass kg and area m² (converted once,
+//! in the drag force). Frame: ECI, the J2000 mean equator and equinox treated as GCRF;
+//! zonal gravity takes the ECI z axis as the pole.
+//!
+//! This crate knows nothing about learning: a learned force reaches it only through
+//! the [`force::Force`] trait, like every other force.
+
+pub mod atmosphere;
+pub mod body;
+pub mod config;
+pub mod elements;
+pub mod ephemeris;
+pub mod force;
+pub mod frames;
+pub mod integrator;
+pub mod propagation;
+pub mod state;
+pub mod time;
+
+pub use body::CentralBody;
+pub use force::{Force, ForceError, ForceModel};
+pub use state::StateVector;
+pub use time::{Epoch, TimeAxis};

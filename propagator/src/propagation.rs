@@ -1,0 +1,286 @@
+//! Propagating an orbit: the driver that turns a stepper into an ephemeris.
+//!
+//! One integration produces states at any requested times (continuous output), stops
+//! exactly at requested stop times (where the step control restarts, e.g. at a
+//! maneuver), and ends cleanly at an altitude floor with a "decayed" result.
+//! Progress goes to an [`Observer`], so the numerics know nothing of terminals.
+
+use crate::atmosphere::AltitudeModel;
+use crate::body::CentralBody;
+use crate::force::{ForceError, ForceModel};
+use crate::integrator::{AnyStepper, IntegrationError, OdeSystem, Settings, Stats};
+use crate::state::StateVector;
+
+/// The orbit equations r′ = v, v′ = a(t, r, v) for a force model.
+pub struct OrbitSystem<'a> {
+    model: &'a ForceModel,
+}
+
+impl<'a> OrbitSystem<'a> {
+    /// The equations of motion under `model`.
+    pub fn new(model: &'a ForceModel) -> Self {
+        Self { model }
+    }
+}
+
+impl OdeSystem for OrbitSystem<'_> {
+    fn dim(&self) -> usize {
+        6
+    }
+
+    #[inline]
+    fn rhs(&mut self, t: f64, y: &[f64], dy: &mut [f64]) -> Result<(), ForceError> {
+        let x = StateVector::from_column_slice(y);
+        let a = self.model.acceleration(t, &x)?;
+        dy[0] = y[3];
+        dy[1] = y[4];
+        dy[2] = y[5];
+        dy[3] = a[0];
+        dy[4] = a[1];
+        dy[5] = a[2];
+        Ok(())
+    }
+}
+
+/// Receives progress while an integration runs (a progress bar, a log, nothing).
+pub trait Observer {
+    /// Called after every accepted step: `t_s` now, between `t_start_s` and `t_end_s`.
+    fn on_step(&mut self, _t_s: f64, _t_start_s: f64, _t_end_s: f64) {}
+}
+
+/// An observer that ignores everything.
+pub struct Silent;
+impl Observer for Silent {}
+
+/// How a propagation ended.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Termination {
+    /// Reached the requested end.
+    Completed,
+    /// The altitude fell below the floor at `t_s` (seconds on the time axis).
+    Decayed {
+        /// When, seconds from the time axis reference.
+        t_s: f64,
+        /// The floor that was crossed, km.
+        floor_km: f64,
+    },
+}
+
+/// Options of a propagation beyond the integrator settings.
+#[derive(Clone, Copy, Debug)]
+pub struct Options {
+    /// Integrator, tolerances and step limits.
+    pub settings: Settings,
+    /// The propagation ends, as "decayed", when the altitude falls below this, km.
+    pub altitude_floor_km: f64,
+    /// Constants used for the altitude test.
+    pub body: CentralBody,
+    /// How the altitude for the floor is measured.
+    pub altitude: AltitudeModel,
+}
+
+impl Default for Options {
+    fn default() -> Self {
+        Self {
+            settings: Settings::default(),
+            altitude_floor_km: 100.0,
+            body: CentralBody::EARTH_EGM96,
+            altitude: AltitudeModel::Spherical,
+        }
+    }
+}
+
+/// Why a propagation could not be done (as opposed to ending in a decay).
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum PropagationError {
+    /// The integrator or a force failed.
+    #[error(transparent)]
+    Integration(#[from] IntegrationError),
+    /// The request itself is wrong.
+    #[error("{0}")]
+    BadRequest(String),
+}
+
+/// States at the requested times, and how the propagation ended.
+#[derive(Clone, Debug)]
+pub struct Propagated {
+    /// `(t_s, state)` at each requested output time reached, in request order.
+    pub samples: Vec<(f64, StateVector)>,
+    /// Completed, or decayed (then `samples` stops before the decay time).
+    pub termination: Termination,
+    /// The state at the end (the end time, or the decay point).
+    pub final_state: (f64, StateVector),
+    /// Integrator work.
+    pub stats: Stats,
+}
+
+/// What to propagate: from where, to when, and which states to return.
+#[derive(Clone, Copy, Debug)]
+pub struct Request<'a> {
+    /// Initial ECI state, km and km/s.
+    pub x0: StateVector,
+    /// Initial time, s on the model's time axis.
+    pub t0_s: f64,
+    /// Final time, s (earlier than `t0_s` to propagate backward).
+    pub t_end_s: f64,
+    /// Times of the returned states, monotone in the direction of integration and
+    /// inside `[t0_s, t_end_s]`.
+    pub output_times_s: &'a [f64],
+    /// Times where integration stops exactly and restarts its step control (for
+    /// discontinuities in the dynamics).
+    pub stop_times_s: &'a [f64],
+}
+
+/// Propagates under `model` as `request` says, reporting progress to `observer`.
+pub fn propagate(
+    model: &ForceModel,
+    request: &Request,
+    options: &Options,
+    observer: &mut dyn Observer,
+) -> Result<Propagated, PropagationError> {
+    let Request {
+        x0,
+        t0_s,
+        t_end_s,
+        output_times_s,
+        stop_times_s,
+    } = *request;
+    let x0 = &x0;
+    options
+        .settings
+        .validate()
+        .map_err(PropagationError::BadRequest)?;
+    let dir = if t_end_s >= t0_s { 1.0 } else { -1.0 };
+    check_times(output_times_s, t0_s, t_end_s, dir, "output")?;
+    check_times(stop_times_s, t0_s, t_end_s, dir, "stop")?;
+    if !x0.iter().all(|v| v.is_finite()) {
+        return Err(PropagationError::BadRequest(format!(
+            "initial state is not finite: {:?}",
+            x0.as_slice()
+        )));
+    }
+    let floor = options.altitude_floor_km;
+    let altitude = |y: &[f64]| {
+        let r = nalgebra::Vector3::new(y[0], y[1], y[2]);
+        options.altitude.altitude_km(&r, &options.body)
+    };
+    let h0 = altitude(x0.as_slice());
+    if h0 < floor {
+        return Err(PropagationError::BadRequest(format!(
+            "initial altitude {h0:.3} km is below the altitude floor {floor} km (is the state inside the Earth, or in metres?)"
+        )));
+    }
+
+    let mut sys = OrbitSystem::new(model);
+    let mut stepper = AnyStepper::new(&options.settings, 6);
+    let mut samples = Vec::with_capacity(output_times_s.len());
+    let mut next_out = 0usize;
+    let mut buf = [0.0; 6];
+    // Outputs at the start itself.
+    while next_out < output_times_s.len() && output_times_s[next_out] == t0_s {
+        samples.push((t0_s, *x0));
+        next_out += 1;
+    }
+    let mut segment_start = t0_s;
+    let mut y_start = *x0;
+    let mut stops: Vec<f64> = stop_times_s
+        .iter()
+        .copied()
+        .filter(|&t| (t - t0_s) * dir > 0.0 && (t_end_s - t) * dir > 0.0)
+        .collect();
+    stops.push(t_end_s);
+    for &seg_end in &stops {
+        stepper.start(&mut sys, segment_start, y_start.as_slice(), seg_end)?;
+        while (seg_end - stepper.t()) * dir > 0.0 {
+            let t_prev = stepper.t();
+            let t = stepper.step(&mut sys, seg_end)?;
+            observer.on_step(t, t0_s, t_end_s);
+            // Altitude floor: locate the crossing on the dense output.
+            if altitude(stepper.y()) < floor {
+                let t_hit = locate_crossing(&stepper, t_prev, t, |y| altitude(y) - floor);
+                while next_out < output_times_s.len()
+                    && (t_hit - output_times_s[next_out]) * dir >= 0.0
+                {
+                    stepper.interpolate(output_times_s[next_out], &mut buf);
+                    samples.push((
+                        output_times_s[next_out],
+                        StateVector::from_column_slice(&buf),
+                    ));
+                    next_out += 1;
+                }
+                stepper.interpolate(t_hit, &mut buf);
+                return Ok(Propagated {
+                    samples,
+                    termination: Termination::Decayed {
+                        t_s: t_hit,
+                        floor_km: floor,
+                    },
+                    final_state: (t_hit, StateVector::from_column_slice(&buf)),
+                    stats: stepper.stats(),
+                });
+            }
+            while next_out < output_times_s.len() && (t - output_times_s[next_out]) * dir >= 0.0 {
+                let to = output_times_s[next_out];
+                let x = if to == t {
+                    StateVector::from_column_slice(stepper.y())
+                } else {
+                    stepper.interpolate(to, &mut buf);
+                    StateVector::from_column_slice(&buf)
+                };
+                samples.push((to, x));
+                next_out += 1;
+            }
+        }
+        segment_start = seg_end;
+        y_start = StateVector::from_column_slice(stepper.y());
+    }
+    Ok(Propagated {
+        samples,
+        termination: Termination::Completed,
+        final_state: (t_end_s, y_start),
+        stats: stepper.stats(),
+    })
+}
+
+fn check_times(
+    times: &[f64],
+    t0: f64,
+    t1: f64,
+    dir: f64,
+    what: &str,
+) -> Result<(), PropagationError> {
+    let (lo, hi) = if dir > 0.0 { (t0, t1) } else { (t1, t0) };
+    for (i, &t) in times.iter().enumerate() {
+        if !t.is_finite() || t < lo || t > hi {
+            return Err(PropagationError::BadRequest(format!(
+                "{what} time {t} s (index {i}) is outside the propagation span [{lo}, {hi}] s"
+            )));
+        }
+        if i > 0 && (t - times[i - 1]) * dir < 0.0 {
+            return Err(PropagationError::BadRequest(format!(
+                "{what} times are not in order at index {i}"
+            )));
+        }
+    }
+    Ok(())
+}
+
+/// Finds where `g` changes sign inside the last step, by bisection on the dense
+/// output (to 1 µs; g is positive at `t_a`, negative at `t_b`).
+fn locate_crossing(stepper: &AnyStepper, t_a: f64, t_b: f64, g: impl Fn(&[f64]) -> f64) -> f64 {
+    let mut buf = vec![0.0; 6];
+    let (mut a, mut b) = (t_a, t_b);
+    for _ in 0..200 {
+        if (b - a).abs() < 1e-6 {
+            break;
+        }
+        let m = 0.5 * (a + b);
+        stepper.interpolate(m, &mut buf);
+        if g(&buf) >= 0.0 {
+            a = m;
+        } else {
+            b = m;
+        }
+    }
+    b
+}

@@ -1,0 +1,301 @@
+//! Epochs: strict ISO 8601 UTC text at the boundary, a uniform scale inside.
+//!
+//! Files carry epochs as `YYYY-MM-DDTHH:MM:SS[.fff…][Z]` in UTC. Inside, time is a
+//! count of SI seconds on the TAI scale from a reference epoch ([`TimeAxis`]), so that
+//! differences never jump at a leap second. Leap seconds come from hifitime's table.
+
+use hifitime::{Epoch as HfEpoch, TimeScale, Unit};
+use std::fmt;
+
+/// Time scales an input file may declare.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Scale {
+    /// Coordinated Universal Time (with leap seconds).
+    Utc,
+    /// International Atomic Time.
+    Tai,
+    /// Terrestrial Time (TAI + 32.184 s).
+    Tt,
+    /// GPS time (TAI − 19 s).
+    Gps,
+}
+
+impl Scale {
+    /// The CCSDS `TIME_SYSTEM` keyword, if it is one we read.
+    pub fn from_keyword(k: &str) -> Option<Scale> {
+        match k {
+            "UTC" => Some(Scale::Utc),
+            "TAI" => Some(Scale::Tai),
+            "TT" => Some(Scale::Tt),
+            "GPS" => Some(Scale::Gps),
+            _ => None,
+        }
+    }
+
+    fn hifitime(self) -> TimeScale {
+        match self {
+            Scale::Utc => TimeScale::UTC,
+            Scale::Tai => TimeScale::TAI,
+            Scale::Tt => TimeScale::TT,
+            Scale::Gps => TimeScale::GPST,
+        }
+    }
+}
+
+/// An instant in time (nanosecond resolution), independent of any scale.
+#[derive(Clone, Copy, Debug, PartialEq, PartialOrd)]
+pub struct Epoch(HfEpoch);
+
+/// A malformed or impossible epoch string.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("epoch `{text}` is not ISO 8601 UTC (expected YYYY-MM-DDTHH:MM:SS[.fff][Z]): {reason}")]
+pub struct EpochParseError {
+    /// The text as given.
+    pub text: String,
+    /// What is wrong with it.
+    pub reason: String,
+}
+
+fn parse_error(text: &str, reason: impl Into<String>) -> EpochParseError {
+    EpochParseError {
+        text: text.to_string(),
+        reason: reason.into(),
+    }
+}
+
+impl Epoch {
+    /// Parses strict ISO 8601 UTC: `2031-05-04T12:00:00.000Z` (the `Z` and the
+    /// fraction are optional; a space may stand for `T`). Anything else is an error:
+    /// we do not guess at time zones or formats.
+    pub fn parse_utc(text: &str) -> Result<Self, EpochParseError> {
+        Self::parse_iso(text, Scale::Utc)
+    }
+
+    /// Parses the same ISO 8601 form as [`Epoch::parse_utc`], read on time scale `scale`
+    /// (for files that declare TAI, TT or GPS time).
+    pub fn parse_iso(text: &str, scale: Scale) -> Result<Self, EpochParseError> {
+        let s = text.trim();
+        let s = s.strip_suffix('Z').unwrap_or(s);
+        let b = s.as_bytes();
+        if b.len() < 19 {
+            return Err(parse_error(text, "too short"));
+        }
+        let sep_ok = b[4] == b'-'
+            && b[7] == b'-'
+            && (b[10] == b'T' || b[10] == b' ')
+            && b[13] == b':'
+            && b[16] == b':';
+        if !sep_ok {
+            return Err(parse_error(text, "separators out of place"));
+        }
+        let num = |range: std::ops::Range<usize>, what: &str| -> Result<u32, EpochParseError> {
+            let part = &s[range];
+            if !part.bytes().all(|c| c.is_ascii_digit()) {
+                return Err(parse_error(
+                    text,
+                    format!("{what} `{part}` is not a number"),
+                ));
+            }
+            part.parse::<u32>()
+                .map_err(|_| parse_error(text, format!("{what} `{part}` is not a number")))
+        };
+        let year = num(0..4, "year")? as i32;
+        let month = num(5..7, "month")?;
+        let day = num(8..10, "day")?;
+        let hour = num(11..13, "hour")?;
+        let minute = num(14..16, "minute")?;
+        let second = num(17..19, "second")?;
+        let mut nanos: u32 = 0;
+        if b.len() > 19 {
+            if b[19] != b'.' {
+                return Err(parse_error(text, "unexpected text after the seconds"));
+            }
+            let frac = &s[20..];
+            if frac.is_empty() || frac.len() > 9 || !frac.bytes().all(|c| c.is_ascii_digit()) {
+                return Err(parse_error(
+                    text,
+                    "fraction of a second must be 1 to 9 digits",
+                ));
+            }
+            let padded = format!("{frac:0<9}");
+            nanos = padded
+                .parse()
+                .map_err(|_| parse_error(text, "bad fraction"))?;
+        }
+        if !(1..=12).contains(&month) {
+            return Err(parse_error(text, "month out of range"));
+        }
+        let days_in_month = match month {
+            1 | 3 | 5 | 7 | 8 | 10 | 12 => 31,
+            4 | 6 | 9 | 11 => 30,
+            _ if (year % 4 == 0 && year % 100 != 0) || year % 400 == 0 => 29,
+            _ => 28,
+        };
+        if day < 1 || day > days_in_month {
+            return Err(parse_error(text, "day out of range for the month"));
+        }
+        if hour > 23 || minute > 59 || second > 60 {
+            return Err(parse_error(text, "time of day out of range"));
+        }
+        if !(1900..=2200).contains(&year) {
+            return Err(parse_error(text, "year outside 1900-2200"));
+        }
+        if second == 60 && scale != Scale::Utc {
+            return Err(parse_error(text, "second 60 exists only in UTC"));
+        }
+        let epoch = HfEpoch::maybe_from_gregorian(
+            year,
+            month as u8,
+            day as u8,
+            hour as u8,
+            minute as u8,
+            second as u8,
+            nanos,
+            scale.hifitime(),
+        )
+        .map_err(|e| parse_error(text, e.to_string()))?;
+        // Held on TAI so that arithmetic counts SI seconds across leap seconds.
+        Ok(Epoch(epoch.to_time_scale(TimeScale::TAI)))
+    }
+
+    /// Formats as ISO 8601 UTC with microseconds and a trailing `Z`,
+    /// e.g. `2031-05-04T12:00:00.000000Z`. Round-trips through [`Epoch::parse_utc`]
+    /// to the microsecond.
+    pub fn to_utc_string(&self) -> String {
+        let mut s = self.to_utc_string_no_zone();
+        s.push('Z');
+        s
+    }
+
+    /// As [`Epoch::to_utc_string`] without the `Z` (the CCSDS OEM habit).
+    pub fn to_utc_string_no_zone(&self) -> String {
+        // Round to the microsecond first so that 59.9999996 s carries into the minute.
+        let rounded = self.0.round(Unit::Microsecond * 1);
+        let (y, mo, d, h, mi, s, ns) = rounded.to_gregorian_utc();
+        format!(
+            "{y:04}-{mo:02}-{d:02}T{h:02}:{mi:02}:{s:02}.{:06}",
+            ns / 1000
+        )
+    }
+
+    /// Seconds (SI, TAI scale) from `other` to `self`.
+    pub fn seconds_since(&self, other: &Epoch) -> f64 {
+        (self.0 - other.0).to_seconds()
+    }
+
+    /// The epoch `seconds` (SI) after `self`.
+    pub fn plus_seconds(&self, seconds: f64) -> Epoch {
+        Epoch(self.0 + Unit::Second * seconds)
+    }
+
+    /// Days (TDB) since J2000.0 (2000-01-01T12:00:00 TDB), for Sun and Moon series.
+    pub fn tdb_days_since_j2000(&self) -> f64 {
+        self.0.to_tdb_seconds() / 86_400.0
+    }
+
+    /// Julian centuries of TT since J2000.0.
+    pub fn tt_centuries_since_j2000(&self) -> f64 {
+        (self.0.to_jde_tt_days() - 2_451_545.0) / 36_525.0
+    }
+
+    /// TAI − UTC at this epoch, seconds (leap seconds from hifitime's table).
+    pub fn tai_minus_utc_s(&self) -> f64 {
+        self.0.leap_seconds(true).unwrap_or(0.0)
+    }
+
+    /// The underlying hifitime epoch.
+    pub fn as_hifitime(&self) -> HfEpoch {
+        self.0
+    }
+
+    /// Seconds of TAI since J1900 (hifitime's origin); mostly for tests.
+    pub fn tai_seconds_j1900(&self) -> f64 {
+        self.0.to_time_scale(TimeScale::TAI).duration.to_seconds()
+    }
+}
+
+impl fmt::Display for Epoch {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(&self.to_utc_string())
+    }
+}
+
+/// The time axis of a propagation: a reference epoch and SI seconds (TAI) from it.
+///
+/// Every force sees time as `t_s`, seconds from this reference, so integrators work in
+/// small numbers and keep their precision.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct TimeAxis {
+    /// The epoch where `t_s = 0`.
+    pub reference: Epoch,
+}
+
+impl TimeAxis {
+    /// A time axis starting at `reference`.
+    pub fn new(reference: Epoch) -> Self {
+        Self { reference }
+    }
+
+    /// Seconds from the reference to `epoch`.
+    pub fn seconds(&self, epoch: &Epoch) -> f64 {
+        epoch.seconds_since(&self.reference)
+    }
+
+    /// The epoch `t_s` seconds after the reference.
+    pub fn epoch(&self, t_s: f64) -> Epoch {
+        self.reference.plus_seconds(t_s)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn parses_and_formats_iso_utc() {
+        let e = Epoch::parse_utc("2031-05-04T12:00:00.000Z").unwrap();
+        assert_eq!(e.to_utc_string(), "2031-05-04T12:00:00.000000Z");
+        let f = Epoch::parse_utc("2031-05-04T12:00:00.123456Z").unwrap();
+        assert!((f.seconds_since(&e) - 0.123456).abs() < 1e-9);
+        assert_eq!(
+            Epoch::parse_utc(&f.to_utc_string())
+                .unwrap()
+                .to_utc_string(),
+            f.to_utc_string()
+        );
+    }
+
+    #[test]
+    fn rejects_malformed_epochs() {
+        for bad in [
+            "",
+            "2031-05-04",
+            "2031-13-04T12:00:00Z",
+            "2031-02-30T12:00:00Z",
+            "2031-05-04T25:00:00Z",
+            "2031/05/04T12:00:00Z",
+            "2031-05-04T12:00:00+02:00",
+            "2031-05-04T12:00:00.Z",
+            "yesterday",
+        ] {
+            assert!(Epoch::parse_utc(bad).is_err(), "accepted {bad:?}");
+        }
+    }
+
+    #[test]
+    fn leap_second_counts_in_differences() {
+        // A leap second was inserted at the end of 2016-12-31 (IERS Bulletin C 52;
+        // common knowledge): one UTC "day" across it lasts 86401 SI seconds.
+        let a = Epoch::parse_utc("2016-12-31T00:00:00Z").unwrap();
+        let b = Epoch::parse_utc("2017-01-01T00:00:00Z").unwrap();
+        assert!((b.seconds_since(&a) - 86_401.0).abs() < 1e-9);
+        // TAI − UTC = 37 s since 2017 (IERS).
+        assert!((b.tai_minus_utc_s() - 37.0).abs() < 1e-9);
+    }
+
+    #[test]
+    fn rounding_carries_into_the_minute() {
+        let e = Epoch::parse_utc("2031-05-04T12:00:59.9999996Z").unwrap();
+        assert_eq!(e.to_utc_string(), "2031-05-04T12:01:00.000000Z");
+    }
+}
