@@ -1,1 +1,47 @@
-fn main() {}
+//! `arcwise`: the command-line shell over the `propagator` and `learned_forces`
+//! libraries. Argument parsing, progress display and reports live here; no physics.
+
+mod commands;
+mod error;
+mod progress;
+mod report;
+
+use clap::{Parser, Subcommand};
+use error::CliError;
+use std::process::ExitCode;
+
+/// Find the missing force in orbit tracking arcs, as a readable formula; propagate with it.
+#[derive(Parser)]
+#[command(name = "arcwise", version, about, long_about = None)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Propagate a state with a force model into an ephemeris (OEM or CSV).
+    Propagate(commands::propagate::Args),
+}
+
+fn main() -> ExitCode {
+    let cli = match Cli::try_parse() {
+        Ok(c) => c,
+        Err(e) => {
+            // Help and version go to stdout with 0; usage errors exit with 2.
+            let code = if e.use_stderr() { 2 } else { 0 };
+            let _ = e.print();
+            return ExitCode::from(code);
+        }
+    };
+    let result: Result<(), CliError> = match cli.command {
+        Command::Propagate(args) => commands::propagate::run(args),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("arcwise: error: {}", e.message);
+            ExitCode::from(e.code)
+        }
+    }
+}

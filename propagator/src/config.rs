@@ -315,15 +315,20 @@ pub struct StateFile {
     /// Classical elements instead of r, v.
     #[serde(default)]
     pub elements: Option<ElementsSpec>,
+    /// Name of the object (written to OEM `OBJECT_NAME`).
+    #[serde(default)]
+    pub object_name: Option<String>,
 }
 
 /// An initial condition: epoch and ECI state.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct InitialState {
     /// The epoch.
     pub epoch: Epoch,
     /// ECI state, km and km/s.
     pub state: StateVector,
+    /// Name of the object, if the file gives one.
+    pub object_name: Option<String>,
 }
 
 impl StateFile {
@@ -362,7 +367,11 @@ impl StateFile {
                 )),
             };
         check_state_plausible(&state, body).map_err(|m| config_error(path, m))?;
-        Ok(InitialState { epoch, state })
+        Ok(InitialState {
+            epoch,
+            state,
+            object_name: f.object_name,
+        })
     }
 }
 

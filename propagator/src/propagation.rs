@@ -284,3 +284,21 @@ fn locate_crossing(stepper: &AnyStepper, t_a: f64, t_b: f64, g: impl Fn(&[f64]) 
     }
     b
 }
+
+/// Output times `t0, t0 ± step, …` up to and including `t_end` (the end is always
+/// included, even when the span is not a whole number of steps). `step_s` > 0.
+pub fn output_grid(t0_s: f64, t_end_s: f64, step_s: f64) -> Vec<f64> {
+    let dir = if t_end_s >= t0_s { 1.0 } else { -1.0 };
+    let span = (t_end_s - t0_s).abs();
+    let n = (span / step_s).floor() as usize;
+    let mut v: Vec<f64> = (0..=n).map(|k| t0_s + dir * step_s * k as f64).collect();
+    // Computing each time from the index (not by accumulation) keeps them exact.
+    if let Some(&last) = v.last() {
+        if (t_end_s - last).abs() > 1e-9 * step_s.max(1.0) {
+            v.push(t_end_s);
+        } else if let Some(l) = v.last_mut() {
+            *l = t_end_s;
+        }
+    }
+    v
+}

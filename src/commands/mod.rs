@@ -1,0 +1,3 @@
+//! One module per command; each parses its options into library calls.
+
+pub mod propagate;

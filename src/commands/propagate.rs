@@ -1,0 +1,187 @@
+//! `arcwise propagate`: a state + forces → an ephemeris (OEM or CSV).
+
+use crate::error::CliError;
+use crate::progress::PropagationProgress;
+use crate::report::{state_json, write_report};
+use clap::Args as ClapArgs;
+use propagator::config::{ForcesFile, StateFile};
+use propagator::ephemeris::{Ephemeris, EphemerisPoint, Format};
+use propagator::integrator::{Method, Settings};
+use propagator::propagation::{output_grid, propagate, Options, Request, Termination};
+use propagator::{Epoch, TimeAxis};
+use std::path::PathBuf;
+use std::time::Instant;
+
+/// Options of `arcwise propagate`.
+#[derive(ClapArgs, Debug)]
+pub struct Args {
+    /// Force model (forces.yaml).
+    #[arg(long, value_name = "FORCES.yaml")]
+    forces: PathBuf,
+    /// Initial state: `epoch_utc` and `r_km` + `v_km_s`, or `elements`.
+    #[arg(long, value_name = "STATE.yaml")]
+    state: PathBuf,
+    /// Final epoch, ISO 8601 UTC (earlier than the state's epoch propagates backward).
+    #[arg(long, value_name = "EPOCH")]
+    to: String,
+    /// Spacing of the output states, seconds.
+    #[arg(long, value_name = "SECONDS")]
+    step: f64,
+    /// Output ephemeris; the format follows the extension (.oem or .csv).
+    #[arg(long, value_name = "FILE")]
+    out: PathBuf,
+    /// Integrator: rk4 (fixed step), dp54 or dp853 (adaptive).
+    #[arg(long, default_value = "dp853", value_name = "NAME")]
+    integrator: String,
+    /// Relative tolerance of the adaptive integrators.
+    #[arg(long, default_value_t = 1e-11)]
+    rtol: f64,
+    /// Absolute tolerance of the adaptive integrators (km, km/s).
+    #[arg(long, default_value_t = 1e-11)]
+    atol: f64,
+    /// Largest integration step, seconds.
+    #[arg(long, default_value_t = 3600.0, value_name = "SECONDS")]
+    max_step: f64,
+    /// Smallest integration step before giving up, seconds.
+    #[arg(long, default_value_t = 1e-6, value_name = "SECONDS")]
+    min_step: f64,
+    /// Fixed integration step of rk4, seconds.
+    #[arg(long, default_value_t = 10.0, value_name = "SECONDS")]
+    rk4_step: f64,
+    /// The propagation ends as "decayed" below this altitude, km.
+    #[arg(long, default_value_t = 100.0, value_name = "KM")]
+    floor_km: f64,
+    /// Write a JSON report here.
+    #[arg(long, value_name = "R.json")]
+    report: Option<PathBuf>,
+}
+
+/// Runs the command.
+pub fn run(a: Args) -> Result<(), CliError> {
+    let method = Method::parse(&a.integrator).ok_or_else(|| {
+        CliError::input(format!(
+            "--integrator {}: expected rk4, dp54 or dp853",
+            a.integrator
+        ))
+    })?;
+    if !(a.step.is_finite() && a.step > 0.0) {
+        return Err(CliError::input(format!(
+            "--step {}: must be a positive number of seconds",
+            a.step
+        )));
+    }
+    if !a.floor_km.is_finite() {
+        return Err(CliError::input("--floor-km must be finite"));
+    }
+    Format::from_path(&a.out).map_err(CliError::input)?;
+    let to = Epoch::parse_utc(&a.to).map_err(|e| CliError::input(format!("--to: {e}")))?;
+    let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
+    let initial = StateFile::load(&a.state, &spec.central_body).map_err(CliError::input)?;
+    let axis = TimeAxis::new(initial.epoch);
+    let loaded = spec
+        .build(&a.forces, initial.epoch)
+        .map_err(CliError::input)?;
+    let t_end = axis.seconds(&to);
+    if t_end == 0.0 {
+        return Err(CliError::input(
+            "--to equals the state's epoch: nothing to propagate",
+        ));
+    }
+    let settings = Settings {
+        method,
+        rtol: a.rtol,
+        atol: a.atol,
+        fixed_step_s: a.rk4_step,
+        max_step_s: a.max_step,
+        min_step_s: a.min_step,
+        ..Settings::default()
+    };
+    settings.validate().map_err(CliError::input)?;
+    let options = Options {
+        settings,
+        altitude_floor_km: a.floor_km,
+        body: loaded.body,
+        altitude: loaded.altitude,
+    };
+    let grid = output_grid(0.0, t_end, a.step);
+    let request = Request {
+        x0: initial.state,
+        t0_s: 0.0,
+        t_end_s: t_end,
+        output_times_s: &grid,
+        stop_times_s: &[],
+    };
+    let mut progress = PropagationProgress::new("propagate");
+    let started = Instant::now();
+    let result = propagate(&loaded.model, &request, &options, &mut progress);
+    progress.finish();
+    let result = result.map_err(|e| CliError::input(format!("propagation failed: {e}")))?;
+    let wall_s = started.elapsed().as_secs_f64();
+
+    let eph = Ephemeris {
+        object_name: initial.object_name.clone().unwrap_or_default(),
+        object_id: String::new(),
+        points: result
+            .samples
+            .iter()
+            .map(|(t, x)| EphemerisPoint {
+                epoch: axis.epoch(*t),
+                state: *x,
+            })
+            .collect(),
+    };
+    eph.save(&a.out).map_err(CliError::input)?;
+
+    let (t_fin, x_fin) = result.final_state;
+    let end_epoch = axis.epoch(t_fin);
+    let (termination, decay) = match result.termination {
+        Termination::Completed => ("completed", serde_json::Value::Null),
+        Termination::Decayed { t_s, floor_km } => (
+            "decayed",
+            serde_json::json!({ "epoch_utc": axis.epoch(t_s).to_utc_string(), "floor_km": floor_km }),
+        ),
+    };
+    match result.termination {
+        Termination::Completed => println!(
+            "propagated {} → {} with {} ({}); {} states written to {}",
+            initial.epoch,
+            end_epoch,
+            method.name(),
+            loaded.model.names().join(" + "),
+            eph.points.len(),
+            a.out.display()
+        ),
+        Termination::Decayed { t_s, floor_km } => println!(
+            "decayed: the altitude fell below {floor_km} km at {}; the ephemeris ({} states, {}) ends there",
+            axis.epoch(t_s),
+            eph.points.len(),
+            a.out.display()
+        ),
+    }
+    if let Some(path) = &a.report {
+        let stats = result.stats;
+        let report = serde_json::json!({
+            "command": "propagate",
+            "arcwise_version": env!("CARGO_PKG_VERSION"),
+            "forces_file": a.forces.display().to_string(),
+            "forces": loaded.model.names(),
+            "integrator": method.name(),
+            "rtol": a.rtol,
+            "atol": a.atol,
+            "start_utc": initial.epoch.to_utc_string(),
+            "requested_end_utc": to.to_utc_string(),
+            "termination": termination,
+            "decay": decay,
+            "final_state": state_json(&end_epoch, &x_fin),
+            "states_written": eph.points.len(),
+            "output_step_s": a.step,
+            "steps_accepted": stats.accepted,
+            "steps_rejected": stats.rejected,
+            "force_evaluations": stats.evaluations,
+            "wall_s": wall_s,
+            "output_file": a.out.display().to_string(),
+        });
+        write_report(path, &report)?;
+    }
+    Ok(())
+}

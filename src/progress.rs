@@ -1,0 +1,57 @@
+//! Progress bars for long work, shown only when stderr is a terminal.
+
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
+use propagator::propagation::Observer;
+use std::io::IsTerminal;
+use std::time::{Duration, Instant};
+
+/// A propagation progress bar over simulated time (hidden when not a terminal).
+pub struct PropagationProgress {
+    bar: Option<ProgressBar>,
+    last: Instant,
+}
+
+impl PropagationProgress {
+    /// A bar labelled `label`; nothing is drawn unless stderr is a terminal.
+    pub fn new(label: &str) -> Self {
+        let bar = std::io::stderr().is_terminal().then(|| {
+            let b = ProgressBar::with_draw_target(Some(1000), ProgressDrawTarget::stderr());
+            b.set_style(
+                ProgressStyle::with_template("{prefix} [{bar:40}] {percent:>3}% {msg}")
+                    .unwrap_or_else(|_| ProgressStyle::default_bar())
+                    .progress_chars("=> "),
+            );
+            b.set_prefix(label.to_string());
+            b
+        });
+        Self {
+            bar,
+            last: Instant::now(),
+        }
+    }
+
+    /// Removes the bar.
+    pub fn finish(&self) {
+        if let Some(b) = &self.bar {
+            b.finish_and_clear();
+        }
+    }
+}
+
+impl Observer for PropagationProgress {
+    fn on_step(&mut self, t_s: f64, t_start_s: f64, t_end_s: f64) {
+        let Some(bar) = &self.bar else { return };
+        if self.last.elapsed() < Duration::from_millis(100) {
+            return;
+        }
+        self.last = Instant::now();
+        let span = (t_end_s - t_start_s).abs().max(1e-9);
+        let done = ((t_s - t_start_s).abs() / span * 1000.0).clamp(0.0, 1000.0);
+        bar.set_position(done as u64);
+        bar.set_message(format!(
+            "{:.2} of {:.2} days",
+            (t_s - t_start_s).abs() / 86400.0,
+            span / 86400.0
+        ));
+    }
+}
