@@ -1,0 +1,250 @@
+//! End-to-end tests of `arcwise propagate`: a good run, and every bad input giving a
+//! clear message, exit code 2 and no output file.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+const FORCES: &str = r#"
+central_body: { mu_km3_s2: 398600.4418, radius_km: 6378.1363, rotation_rad_s: 7.292115e-5 }
+gravity: { zonal_degree: 2 }
+drag:
+  atmosphere: { exponential: { rho0_kg_m3: 3.725e-12, h0_km: 400.0, scale_height_km: 58.515 } }
+  cd: 2.2
+  area_m2: 0.1
+  mass_kg: 10.0
+plugins: []
+"#;
+
+const STATE: &str = "epoch_utc: \"2031-05-04T12:00:00.000Z\"\nr_km: [6778.1363, 0.0, 0.0]\nv_km_s: [0.0, 4.7, 6.0]\n";
+
+fn write(dir: &Path, name: &str, text: &str) -> PathBuf {
+    let p = dir.join(name);
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
+fn arcwise(args: &[&str]) -> (i32, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_arcwise"))
+        .args(args)
+        .output()
+        .unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+#[test]
+fn propagates_to_oem_and_csv_with_a_report() {
+    let dir = tempfile::tempdir().unwrap();
+    let f = write(dir.path(), "forces.yaml", FORCES);
+    let s = write(dir.path(), "state.yaml", STATE);
+    for ext in ["oem", "csv"] {
+        let out = dir.path().join(format!("eph.{ext}"));
+        let rep = dir.path().join(format!("r-{ext}.json"));
+        let (code, stdout, stderr) = arcwise(&[
+            "propagate",
+            "--forces",
+            f.to_str().unwrap(),
+            "--state",
+            s.to_str().unwrap(),
+            "--to",
+            "2031-05-04T18:00:00Z",
+            "--step",
+            "600",
+            "--out",
+            out.to_str().unwrap(),
+            "--report",
+            rep.to_str().unwrap(),
+        ]);
+        assert_eq!(code, 0, "{stdout}{stderr}");
+        let eph =
+            propagator::ephemeris::Ephemeris::load(&out, &propagator::CentralBody::EARTH_EGM96)
+                .unwrap();
+        assert_eq!(eph.points.len(), 37);
+        let r: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&rep).unwrap()).unwrap();
+        assert_eq!(r["termination"], "completed");
+        assert_eq!(r["final_state"]["epoch_utc"], "2031-05-04T18:00:00.000000Z");
+        let last = eph.points.last().unwrap().state;
+        assert_eq!(r["final_state"]["r_km"][0].as_f64().unwrap(), last[0]);
+    }
+}
+
+#[test]
+fn bad_inputs_exit_2_with_a_clear_message_and_no_output() {
+    let dir = tempfile::tempdir().unwrap();
+    let good_f = write(dir.path(), "forces.yaml", FORCES);
+    let good_s = write(dir.path(), "state.yaml", STATE);
+    let cases: Vec<(&str, PathBuf, PathBuf, &str, &str)> = vec![
+        (
+            "malformed yaml",
+            write(dir.path(), "f1.yaml", "gravity: { zonal_degree: 2"),
+            good_s.clone(),
+            "2031-05-04T13:00:00Z",
+            "f1.yaml",
+        ),
+        (
+            "unknown key",
+            write(
+                dir.path(),
+                "f2.yaml",
+                &FORCES.replace("cd: 2.2", "cd: 2.2\n  colour: red"),
+            ),
+            good_s.clone(),
+            "2031-05-04T13:00:00Z",
+            "unknown field `colour`",
+        ),
+        (
+            "NaN in state",
+            good_f.clone(),
+            write(dir.path(), "s1.yaml", &STATE.replace("4.7", ".nan")),
+            "2031-05-04T13:00:00Z",
+            "non-finite",
+        ),
+        (
+            "bad state epoch",
+            good_f.clone(),
+            write(
+                dir.path(),
+                "s2.yaml",
+                &STATE.replace("2031-05-04T12:00:00.000Z", "4 May 2031"),
+            ),
+            "2031-05-04T13:00:00Z",
+            "epoch_utc",
+        ),
+        (
+            "bad --to",
+            good_f.clone(),
+            good_s.clone(),
+            "tomorrow",
+            "--to",
+        ),
+        (
+            "inside the Earth",
+            good_f.clone(),
+            write(dir.path(), "s3.yaml", &STATE.replace("6778.1363", "6000.0")),
+            "2031-05-04T13:00:00Z",
+            "inside the Earth",
+        ),
+        (
+            "metres",
+            good_f.clone(),
+            write(
+                dir.path(),
+                "s4.yaml",
+                &STATE.replace("6778.1363", "6778136.3"),
+            ),
+            "2031-05-04T13:00:00Z",
+            "metres",
+        ),
+        (
+            "missing file",
+            dir.path().join("nope.yaml"),
+            good_s.clone(),
+            "2031-05-04T13:00:00Z",
+            "nope.yaml",
+        ),
+        (
+            "empty file",
+            write(dir.path(), "f3.yaml", ""),
+            good_s.clone(),
+            "2031-05-04T13:00:00Z",
+            "empty",
+        ),
+    ];
+    for (what, f, s, to, needle) in cases {
+        let out = dir.path().join("out.oem");
+        let (code, stdout, stderr) = arcwise(&[
+            "propagate",
+            "--forces",
+            f.to_str().unwrap(),
+            "--state",
+            s.to_str().unwrap(),
+            "--to",
+            to,
+            "--step",
+            "60",
+            "--out",
+            out.to_str().unwrap(),
+        ]);
+        assert_eq!(code, 2, "{what}: {stdout}{stderr}");
+        assert!(
+            stderr.contains(needle),
+            "{what}: expected `{needle}` in: {stderr}"
+        );
+        assert_eq!(
+            stderr.lines().count(),
+            1,
+            "{what}: one clear message: {stderr}"
+        );
+        assert!(!out.exists(), "{what}: output left behind");
+    }
+    // Usage errors (clap) exit 2 as well.
+    let (code, _, _) = arcwise(&["propagate", "--forces", good_f.to_str().unwrap()]);
+    assert_eq!(code, 2);
+    let (code, _, stderr) = arcwise(&[
+        "propagate",
+        "--forces",
+        good_f.to_str().unwrap(),
+        "--state",
+        good_s.to_str().unwrap(),
+        "--to",
+        "2031-05-04T13:00:00Z",
+        "--step",
+        "60",
+        "--out",
+        "x.txt",
+    ]);
+    assert_eq!(code, 2);
+    assert!(stderr.contains(".csv or .oem"), "{stderr}");
+}
+
+#[test]
+fn decay_is_reported_not_failed() {
+    let dir = tempfile::tempdir().unwrap();
+    let f = write(
+        dir.path(),
+        "forces.yaml",
+        &FORCES
+            .replace(
+                "{ exponential: { rho0_kg_m3: 3.725e-12, h0_km: 400.0, scale_height_km: 58.515 } }",
+                "table",
+            )
+            .replace("area_m2: 0.1", "area_m2: 2.0"),
+    );
+    let s = write(
+        dir.path(),
+        "state.yaml",
+        &STATE
+            .replace("6778.1363", "6538.1363")
+            .replace("[0.0, 4.7, 6.0]", "[0.0, 4.87, 6.22]"),
+    );
+    let out = dir.path().join("eph.csv");
+    let rep = dir.path().join("r.json");
+    let (code, stdout, stderr) = arcwise(&[
+        "propagate",
+        "--forces",
+        f.to_str().unwrap(),
+        "--state",
+        s.to_str().unwrap(),
+        "--to",
+        "2031-05-06T12:00:00Z",
+        "--step",
+        "60",
+        "--out",
+        out.to_str().unwrap(),
+        "--report",
+        rep.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(stdout.contains("decayed"), "{stdout}");
+    let r: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&rep).unwrap()).unwrap();
+    assert_eq!(r["termination"], "decayed");
+    assert!(r["decay"]["epoch_utc"]
+        .as_str()
+        .unwrap()
+        .starts_with("2031-05-0"));
+}

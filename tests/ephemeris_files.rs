@@ -1,0 +1,157 @@
+//! Ephemeris files: CSV and OEM round trips, and the errors for bad files.
+
+use propagator::ephemeris::{Ephemeris, EphemerisPoint};
+use propagator::{CentralBody, Epoch, StateVector};
+
+fn sample() -> Ephemeris {
+    let e0 = Epoch::parse_utc("2031-05-04T12:00:00.000Z").unwrap();
+    let points = (0..50)
+        .map(|k| {
+            let f = k as f64;
+            EphemerisPoint {
+                epoch: e0.plus_seconds(60.0 * f + 0.123456),
+                // Awkward values: many digits, negative zero is not needed.
+                state: StateVector::new(
+                    6778.137 + f / 3.0,
+                    -1234.5678901234567 * (1.0 + f * 1e-3),
+                    1.0 / 3.0 + f,
+                    7.5e-1 / 7.0,
+                    -7.123456789012345,
+                    1e-7 * f,
+                ),
+            }
+        })
+        .collect();
+    Ephemeris {
+        object_name: "KESTREL-3".into(),
+        object_id: "2031-042A".into(),
+        points,
+    }
+}
+
+#[test]
+fn round_trip_is_bit_for_bit_in_both_formats() {
+    let dir = tempfile::tempdir().unwrap();
+    let eph = sample();
+    for name in ["e.csv", "e.oem"] {
+        let p = dir.path().join(name);
+        eph.save(&p).unwrap();
+        let back = Ephemeris::load(&p, &CentralBody::EARTH_EGM96).unwrap();
+        assert_eq!(back.points.len(), eph.points.len());
+        for (a, b) in eph.points.iter().zip(&back.points) {
+            // States exactly; epochs to the printed microsecond.
+            assert_eq!(a.state, b.state, "{name}");
+            assert!(a.epoch.seconds_since(&b.epoch).abs() < 0.5e-6, "{name}");
+            assert_eq!(a.epoch.to_utc_string(), b.epoch.to_utc_string());
+        }
+        if name.ends_with("oem") {
+            assert_eq!(back.object_name, "KESTREL-3");
+        }
+    }
+}
+
+fn load_text(name: &str, text: &str) -> String {
+    let dir = tempfile::tempdir().unwrap();
+    let p = dir.path().join(name);
+    std::fs::write(&p, text).unwrap();
+    Ephemeris::load(&p, &CentralBody::EARTH_EGM96)
+        .unwrap_err()
+        .to_string()
+}
+
+const HDR: &str = "epoch_utc,x_km,y_km,z_km,vx_km_s,vy_km_s,vz_km_s\n";
+
+#[test]
+fn bad_csv_files_are_named_by_line() {
+    let row = |t: &str| format!("2031-05-04T12:{t}Z,7000,0,0,0,7.5,0\n");
+    let cases = [
+        (
+            format!("{HDR}{}{}", row("01:00"), row("00:00")),
+            ":3:",
+            "earlier",
+        ),
+        (
+            format!("{HDR}{}{}", row("01:00"), row("01:00")),
+            ":3:",
+            "duplicate",
+        ),
+        (
+            format!("{HDR}2031-05-04T12:00:00Z,7000,0,nan,0,7.5,0\n"),
+            ":2:",
+            "not finite",
+        ),
+        (
+            format!("{HDR}2031-05-04T12:00:00Z,7000000,0,0,0,7500,0\n"),
+            ":2:",
+            "metres",
+        ),
+        (
+            format!("{HDR}2031-05-04T12:00:00Z,6000,0,0,0,7.5,0\n"),
+            ":2:",
+            "inside the Earth",
+        ),
+        ("epoch_utc,x_m,y_m,z_m\n".to_string(), ":1:", "metres"),
+        (
+            format!("{HDR}2031-05-04T12:00:00Z,7000,0,0,0,7.5\n"),
+            ":2:",
+            "fields",
+        ),
+        (
+            format!("{HDR}not-an-epoch,7000,0,0,0,7.5,0\n"),
+            ":2:",
+            "epoch_utc",
+        ),
+        (String::new(), "", "empty"),
+        (HDR.to_string(), "", "no states"),
+    ];
+    for (text, line, needle) in cases {
+        let e = load_text("arc.csv", &text);
+        assert!(
+            e.contains(line) && e.contains(needle),
+            "expected `{line}` and `{needle}` in: {e}"
+        );
+        assert!(e.contains("arc.csv"), "{e}");
+    }
+}
+
+#[test]
+fn bad_oem_files_are_refused() {
+    let good = propagator::ephemeris::oem::format(&sample());
+    let cases = [
+        (
+            good.replace("REF_FRAME = EME2000", "REF_FRAME = ITRF"),
+            "ITRF",
+        ),
+        (
+            good.replace("CENTER_NAME = EARTH", "CENTER_NAME = MARS"),
+            "MARS",
+        ),
+        (
+            good.replace("TIME_SYSTEM = UTC", "TIME_SYSTEM = UT1"),
+            "UT1",
+        ),
+        (good.replace("CCSDS_OEM_VERS = 2.0\n", ""), "CCSDS_OEM_VERS"),
+        (good.replace("META_STOP", "MEAT_STOP"), "MEAT_STOP"),
+        (
+            format!("{good}2031-05-04T11:00:00.000000 7000 0 0 0 7.5 0\n"),
+            "earlier",
+        ),
+    ];
+    for (text, needle) in cases {
+        let e = load_text("e.oem", &text);
+        assert!(e.contains(needle), "expected `{needle}` in: {e}");
+    }
+}
+
+#[test]
+fn oem_time_systems_are_converted() {
+    // TAI − UTC = 37 s in 2031 (no leap second announced after 2017; hifitime table).
+    let text = propagator::ephemeris::oem::format(&sample())
+        .replace("TIME_SYSTEM = UTC", "TIME_SYSTEM = TAI");
+    let dir = tempfile::tempdir().unwrap();
+    let p = dir.path().join("tai.oem");
+    std::fs::write(&p, text).unwrap();
+    let tai = Ephemeris::load(&p, &CentralBody::EARTH_EGM96).unwrap();
+    let dt = sample().points[0].epoch.seconds_since(&tai.points[0].epoch);
+    assert!((dt - 37.0).abs() < 1e-6, "{dt}");
+}
