@@ -197,18 +197,19 @@ pub fn propagate(
             observer.on_step(t, t0_s, t_end_s);
             // Altitude floor: locate the crossing on the dense output.
             if altitude(stepper.y()) < floor {
-                let t_hit = locate_crossing(&stepper, t_prev, t, |y| altitude(y) - floor);
+                let t_hit =
+                    locate_crossing(&mut stepper, &mut sys, t_prev, t, |y| altitude(y) - floor)?;
                 while next_out < output_times_s.len()
                     && (t_hit - output_times_s[next_out]) * dir >= 0.0
                 {
-                    stepper.interpolate(output_times_s[next_out], &mut buf);
+                    stepper.dense_at(&mut sys, output_times_s[next_out], &mut buf)?;
                     samples.push((
                         output_times_s[next_out],
                         StateVector::from_column_slice(&buf),
                     ));
                     next_out += 1;
                 }
-                stepper.interpolate(t_hit, &mut buf);
+                stepper.dense_at(&mut sys, t_hit, &mut buf)?;
                 return Ok(Propagated {
                     samples,
                     termination: Termination::Decayed {
@@ -224,7 +225,7 @@ pub fn propagate(
                 let x = if to == t {
                     StateVector::from_column_slice(stepper.y())
                 } else {
-                    stepper.interpolate(to, &mut buf);
+                    stepper.dense_at(&mut sys, to, &mut buf)?;
                     StateVector::from_column_slice(&buf)
                 };
                 samples.push((to, x));
@@ -267,7 +268,13 @@ fn check_times(
 
 /// Finds where `g` changes sign inside the last step, by bisection on the dense
 /// output (to 1 µs; g is positive at `t_a`, negative at `t_b`).
-fn locate_crossing(stepper: &AnyStepper, t_a: f64, t_b: f64, g: impl Fn(&[f64]) -> f64) -> f64 {
+fn locate_crossing<S: OdeSystem>(
+    stepper: &mut AnyStepper,
+    sys: &mut S,
+    t_a: f64,
+    t_b: f64,
+    g: impl Fn(&[f64]) -> f64,
+) -> Result<f64, IntegrationError> {
     let mut buf = vec![0.0; 6];
     let (mut a, mut b) = (t_a, t_b);
     for _ in 0..200 {
@@ -275,14 +282,14 @@ fn locate_crossing(stepper: &AnyStepper, t_a: f64, t_b: f64, g: impl Fn(&[f64]) 
             break;
         }
         let m = 0.5 * (a + b);
-        stepper.interpolate(m, &mut buf);
+        stepper.dense_at(sys, m, &mut buf)?;
         if g(&buf) >= 0.0 {
             a = m;
         } else {
             b = m;
         }
     }
-    b
+    Ok(b)
 }
 
 /// Output times `t0, t0 ± step, …` up to and including `t_end` (the end is always

@@ -4,8 +4,10 @@ use super::tableau::{DP8_A as A, DP8_B as B, DP8_BHH as BHH, DP8_C as C, DP8_D a
 use super::{initial_step, scale, IntegrationError, OdeSystem, Settings, Stats};
 
 /// Adaptive Dormand–Prince 8(5,3) (DOP853). Stage storage follows Hairer's code:
-/// `k[0..12]` are stages 1–12 of the step, `k[12]` the derivative at the new point,
-/// `k[13..16]` the three extra stages of the dense output.
+/// stages 1–12 of the step, then the derivative at the new point, then the three extra
+/// stages of the dense output, in one flat buffer (`k[j * n + i]`). The dense output
+/// is built only when asked for ([`Dop853::prepare_dense`]), so steps that need no
+/// interpolation cost 12 evaluations, not 15.
 pub struct Dop853 {
     settings: Settings,
     n: usize,
@@ -13,12 +15,17 @@ pub struct Dop853 {
     t: f64,
     t_prev: f64,
     h: f64,
+    h_done: f64,
     dir: f64,
     y: Vec<f64>,
-    k: Vec<Vec<f64>>,
+    y_prev: Vec<f64>,
+    f_prev: Vec<f64>,
+    k: Vec<f64>,
     y1: Vec<f64>,
     ynew: Vec<f64>,
-    rcont: [Vec<f64>; 8],
+    rcont: Vec<f64>,
+    dense_ready: bool,
+    pattern: Vec<Vec<usize>>,
     last_rejected: bool,
     stats: Stats,
 }
@@ -26,6 +33,11 @@ pub struct Dop853 {
 const SAFETY: f64 = 0.9;
 const FAC_MIN: f64 = 0.333;
 const FAC_MAX: f64 = 6.0;
+
+/// Nonzero entries of each row of `A` (stages 2–12, then 14–16), computed once.
+fn nonzero(row: usize) -> Vec<usize> {
+    (0..16).filter(|&j| A[row][j] != 0.0).collect()
+}
 
 impl Dop853 {
     /// A stepper for a system of dimension `n`.
@@ -38,12 +50,17 @@ impl Dop853 {
             t: 0.0,
             t_prev: 0.0,
             h: 0.0,
+            h_done: 0.0,
             dir: 1.0,
             y: z(),
-            k: (0..16).map(|_| z()).collect(),
+            y_prev: z(),
+            f_prev: z(),
+            k: vec![0.0; 16 * n],
             y1: z(),
             ynew: z(),
-            rcont: [z(), z(), z(), z(), z(), z(), z(), z()],
+            rcont: vec![0.0; 8 * n],
+            dense_ready: true,
+            pattern: (0..16).map(nonzero).collect(),
             last_rejected: false,
             stats: Stats::default(),
         }
@@ -56,56 +73,62 @@ impl Dop853 {
         y0: &[f64],
         toward: f64,
     ) -> Result<(), IntegrationError> {
+        let n = self.n;
         self.t = t0;
         self.t_prev = t0;
+        self.h_done = 0.0;
         self.dir = if toward >= t0 { 1.0 } else { -1.0 };
         self.y.copy_from_slice(y0);
-        sys.rhs(t0, y0, &mut self.k[0])?;
+        self.y_prev.copy_from_slice(y0);
+        sys.rhs(t0, y0, &mut self.k[..n])?;
+        self.f_prev.copy_from_slice(&self.k[..n]);
         self.stats.evaluations += 1;
         self.h = match self.settings.initial_step_s {
             Some(h) => h.abs().min(self.settings.max_step_s),
             None => {
                 self.stats.evaluations += 1;
-                initial_step(
-                    sys,
-                    t0,
-                    y0,
-                    &self.k[0],
-                    self.dir,
-                    8,
-                    &self.settings,
-                    self.n_err,
-                )?
+                let f0 = self.k[..n].to_vec();
+                initial_step(sys, t0, y0, &f0, self.dir, 8, &self.settings, self.n_err)?
             }
         };
-        for r in &mut self.rcont {
-            r.fill(0.0);
-        }
-        self.rcont[0].copy_from_slice(y0);
+        self.rcont.fill(0.0);
+        self.rcont[..n].copy_from_slice(y0);
+        self.dense_ready = true;
         self.last_rejected = false;
         Ok(())
     }
 
-    /// Evaluates stage `s` at `t + C[s] h` from `y + h Σ_j A[s][j] k[j]` over `js`.
+    /// Evaluates stage `s` at `t0 + C[s] h` from `y0 + h Σ_j A[s][j] k_j`.
     #[inline]
     fn stage<S: OdeSystem>(
         &mut self,
         sys: &mut S,
         s: usize,
-        js: &[usize],
+        t0: f64,
+        from_prev: bool,
         h: f64,
     ) -> Result<(), IntegrationError> {
-        for i in 0..self.n {
-            let mut acc = 0.0;
-            for &j in js {
-                acc += A[s][j] * self.k[j][i];
-            }
-            self.y1[i] = self.y[i] + h * acc;
+        let n = self.n;
+        if from_prev {
+            self.y1.copy_from_slice(&self.y_prev);
+        } else {
+            self.y1.copy_from_slice(&self.y);
         }
-        let mut out = std::mem::take(&mut self.k[s]);
-        let r = sys.rhs(self.t + C[s] * h, &self.y1, &mut out);
-        self.k[s] = out;
-        r.map_err(IntegrationError::from)
+        for &j in &self.pattern[s] {
+            let a = h * A[s][j];
+            // In the dense stages the first stage is f at the step's start.
+            let kj = if from_prev && j == 0 {
+                &self.f_prev[..]
+            } else {
+                &self.k[j * n..(j + 1) * n]
+            };
+            for i in 0..n {
+                self.y1[i] += a * kj[i];
+            }
+        }
+        let (_, rest) = self.k.split_at_mut(s * n);
+        sys.rhs(t0 + C[s] * h, &self.y1, &mut rest[..n])
+            .map_err(IntegrationError::from)
     }
 
     pub(crate) fn step<S: OdeSystem>(
@@ -113,7 +136,6 @@ impl Dop853 {
         sys: &mut S,
         t_stop: f64,
     ) -> Result<f64, IntegrationError> {
-        const ALL: [usize; 12] = [0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11];
         let n = self.n;
         loop {
             let mut h = self.dir * self.h;
@@ -129,16 +151,19 @@ impl Dop853 {
                 });
             }
             for s in 1..12 {
-                // Zero coefficients are skipped by the sparsity of A (a[s][1..4] = 0).
-                self.stage(sys, s, &ALL[..s], h)?;
+                self.stage(sys, s, self.t, false, h)?;
             }
             self.stats.evaluations += 11;
             // 8th-order solution and the two error estimates.
             let (mut err, mut err2) = (0.0, 0.0);
+            let k = &self.k;
             for i in 0..n {
                 let mut bsum = 0.0;
+                let mut e5 = 0.0;
                 for j in 0..12 {
-                    bsum += B[j] * self.k[j][i];
+                    let kji = k[j * n + i];
+                    bsum += B[j] * kji;
+                    e5 += E[j] * kji;
                 }
                 self.ynew[i] = self.y[i] + h * bsum;
                 if i < self.n_err {
@@ -148,15 +173,8 @@ impl Dop853 {
                         self.y[i],
                         self.ynew[i],
                     );
-                    let e3 = bsum
-                        - BHH[0] * self.k[0][i]
-                        - BHH[1] * self.k[8][i]
-                        - BHH[2] * self.k[11][i];
+                    let e3 = bsum - BHH[0] * k[i] - BHH[1] * k[8 * n + i] - BHH[2] * k[11 * n + i];
                     err2 += (e3 / sk).powi(2);
-                    let mut e5 = 0.0;
-                    for j in 0..12 {
-                        e5 += E[j] * self.k[j][i];
-                    }
                     err += (e5 / sk).powi(2);
                 }
             }
@@ -179,18 +197,22 @@ impl Dop853 {
                     h_new = h_new.min(h.abs());
                 }
                 self.last_rejected = false;
-                // Derivative at the new point (the next step's first stage).
-                let mut f12 = std::mem::take(&mut self.k[12]);
-                sys.rhs(self.t + h, &self.ynew, &mut f12)?;
-                self.k[12] = f12;
+                // Derivative at the new point (stage 13, and the next step's first).
+                {
+                    let (_, rest) = self.k.split_at_mut(12 * n);
+                    sys.rhs(self.t + h, &self.ynew, &mut rest[..n])?;
+                }
                 self.stats.evaluations += 1;
-                self.dense_output(sys, h)?;
+                // Keep the step's start for a dense output built later, if asked.
+                std::mem::swap(&mut self.y_prev, &mut self.y);
+                self.f_prev.copy_from_slice(&self.k[..n]);
+                self.y.copy_from_slice(&self.ynew);
+                let (first, rest) = self.k.split_at_mut(12 * n);
+                first[..n].copy_from_slice(&rest[..n]);
                 self.t_prev = self.t;
                 self.t = if last { t_stop } else { self.t + h };
-                self.y.copy_from_slice(&self.ynew);
-                let f = std::mem::take(&mut self.k[12]);
-                self.k[0].copy_from_slice(&f);
-                self.k[12] = f;
+                self.h_done = h;
+                self.dense_ready = false;
                 self.h = h_new.min(self.settings.max_step_s);
                 self.stats.accepted += 1;
                 if self.stats.accepted > self.settings.max_steps {
@@ -213,41 +235,40 @@ impl Dop853 {
         }
     }
 
-    /// The 7th-order continuous extension over `[t, t + h]` (three more stages).
-    fn dense_output<S: OdeSystem>(&mut self, sys: &mut S, h: f64) -> Result<(), IntegrationError> {
+    /// Builds the 7th-order continuous extension of the last step (three more
+    /// evaluations); needed before [`Dop853::interpolate`] inside the step.
+    pub(crate) fn prepare_dense<S: OdeSystem>(
+        &mut self,
+        sys: &mut S,
+    ) -> Result<(), IntegrationError> {
+        if self.dense_ready {
+            return Ok(());
+        }
         let n = self.n;
-        for i in 0..n {
-            let ydiff = self.ynew[i] - self.y[i];
-            let bspl = h * self.k[0][i] - ydiff;
-            self.rcont[0][i] = self.y[i];
-            self.rcont[1][i] = ydiff;
-            self.rcont[2][i] = bspl;
-            self.rcont[3][i] = ydiff - h * self.k[12][i] - bspl;
-            for r in 0..4 {
-                let mut acc = 0.0;
-                for j in 0..12 {
-                    acc += D[r][j] * self.k[j][i];
-                }
-                self.rcont[4 + r][i] = acc;
-            }
+        let h = self.h_done;
+        let t0 = self.t_prev;
+        // Stages 14–16 (rows 13–15 of A) on the step's start; k[12] is f at its end.
+        for s in 13..16 {
+            self.stage(sys, s, t0, true, h)?;
         }
-        // Stages 14, 15, 16 (indices 13–15) use k[0..13], k[12] being f at t + h.
-        const J14: [usize; 13] = [0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12];
-        const J15: [usize; 14] = [0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13];
-        const J16: [usize; 15] = [0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14];
-        self.stage(sys, 13, &J14, h)?;
-        self.stage(sys, 14, &J15, h)?;
-        self.stage(sys, 15, &J16, h)?;
         self.stats.evaluations += 3;
+        let k = &self.k;
         for i in 0..n {
+            let ydiff = self.y[i] - self.y_prev[i];
+            let bspl = h * self.f_prev[i] - ydiff;
+            self.rcont[i] = self.y_prev[i];
+            self.rcont[n + i] = ydiff;
+            self.rcont[2 * n + i] = bspl;
+            self.rcont[3 * n + i] = ydiff - h * k[12 * n + i] - bspl;
             for r in 0..4 {
-                let mut acc = self.rcont[4 + r][i];
-                for j in 12..16 {
-                    acc += D[r][j] * self.k[j][i];
+                let mut acc = D[r][0] * self.f_prev[i];
+                for j in 1..16 {
+                    acc += D[r][j] * k[j * n + i];
                 }
-                self.rcont[4 + r][i] = h * acc;
+                self.rcont[(4 + r) * n + i] = h * acc;
             }
         }
+        self.dense_ready = true;
         Ok(())
     }
 
@@ -257,15 +278,20 @@ impl Dop853 {
             out.copy_from_slice(&self.y);
             return;
         }
+        debug_assert!(
+            self.dense_ready,
+            "prepare_dense must run before interpolate"
+        );
+        let n = self.n;
         let s = (t - self.t_prev) / h;
         let s1 = 1.0 - s;
-        let r = &self.rcont;
-        for i in 0..self.n {
-            out[i] = r[0][i]
-                + s * (r[1][i]
-                    + s1 * (r[2][i]
-                        + s * (r[3][i]
-                            + s1 * (r[4][i] + s * (r[5][i] + s1 * (r[6][i] + s * r[7][i]))))));
+        let r = |m: usize, i: usize| self.rcont[m * n + i];
+        for i in 0..n {
+            out[i] = r(0, i)
+                + s * (r(1, i)
+                    + s1 * (r(2, i)
+                        + s * (r(3, i)
+                            + s1 * (r(4, i) + s * (r(5, i) + s1 * (r(6, i) + s * r(7, i)))))));
         }
     }
 

@@ -245,9 +245,19 @@ impl AnyStepper {
         dispatch!(self, s => s.y())
     }
 
-    /// Dense output at `t` inside the last step `[t_prev, t]`.
-    pub fn interpolate(&self, t: f64, out: &mut [f64]) {
-        dispatch!(self, s => s.interpolate(t, out))
+    /// Dense output at `t` inside the last step `[t_prev, t]` (built on first use:
+    /// DOP853 spends three more evaluations on it, only for steps that need it).
+    pub fn dense_at<S: OdeSystem>(
+        &mut self,
+        sys: &mut S,
+        t: f64,
+        out: &mut [f64],
+    ) -> Result<(), IntegrationError> {
+        if let AnyStepper::Dp853(s) = self {
+            s.prepare_dense(sys)?;
+        }
+        dispatch!(self, s => s.interpolate(t, out));
+        Ok(())
     }
 
     /// Work counters so far.

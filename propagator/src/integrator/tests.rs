@@ -71,7 +71,7 @@ fn dense_output_matches_stopping_exactly() {
         while st.t() < 10.0 {
             st.step(&mut Kepler, 10.0).unwrap();
             while k < probes.len() && probes[k] <= st.t() {
-                st.interpolate(probes[k], &mut buf);
+                st.dense_at(&mut Kepler, probes[k], &mut buf).unwrap();
                 let (direct, _) = run(&mut Kepler, settings, &y0, probes[k]);
                 for i in 0..4 {
                     assert!(
