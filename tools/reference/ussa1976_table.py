@@ -39,6 +39,7 @@ def main(root: Path):
         lines.append(f"    ({float(h)!r}, {float(np.log(r))!r}),")
     lines.append("];")
     out = root / "propagator" / "src" / "atmosphere" / "ussa1976_table.rs"
+    out.parent.mkdir(parents=True, exist_ok=True)
     out.write_text("\n".join(lines) + "\n")
 
     mids = (NODES_KM[:-1] + NODES_KM[1:]) / 2.0

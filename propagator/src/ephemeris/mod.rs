@@ -170,6 +170,8 @@ pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), FileError> {
         .file_name()
         .map(|n| n.to_string_lossy().to_string())
         .unwrap_or_else(|| "out".into());
+    std::fs::create_dir_all(dir)
+        .map_err(|e| file_error(path, None, format!("cannot create the folder: {e}")))?;
     let tmp = dir.join(format!(".{name}.tmp-{}", std::process::id()));
     std::fs::write(&tmp, bytes)
         .map_err(|e| file_error(path, None, format!("cannot write: {e}")))?;

@@ -1,0 +1,66 @@
+"""Regenerates every committed reference file into a temporary folder and compares.
+
+Exit status 1 (with the differences) when a regenerated value differs from the
+committed one by more than 1e-12 relative, so a change of script, package or
+constant cannot slip by. Run from anywhere: python tools/reference/check_references.py
+"""
+import json
+import math
+import sys
+import tempfile
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+ROOT = HERE.parents[1]
+sys.path.insert(0, str(HERE))
+
+import trajectories  # noqa: E402
+import ussa1976_table  # noqa: E402
+
+FILES = [
+    "tests/data/reference/trajectories.json",
+    "tests/data/reference/ussa1976_midpoints.json",
+    "propagator/src/atmosphere/ussa1976_table.rs",
+]
+
+
+def numbers(text):
+    out = []
+    for tok in text.replace("[", " ").replace("]", " ").replace("(", " ").replace(")", " ").replace(",", " ").split():
+        try:
+            out.append(float(tok))
+        except ValueError:
+            pass
+    return out
+
+
+def close(a, b):
+    return a == b or abs(a - b) <= 1e-12 * max(abs(a), abs(b)) or (math.isnan(a) and math.isnan(b))
+
+
+def main():
+    with tempfile.TemporaryDirectory() as tmp:
+        tmp = Path(tmp)
+        trajectories.main(tmp)
+        ussa1976_table.main(tmp)
+        bad = 0
+        for rel in FILES:
+            new, old = (tmp / rel).read_text(), (ROOT / rel).read_text()
+            a, b = numbers(new), numbers(old)
+            if len(a) != len(b):
+                print(f"{rel}: {len(a)} numbers regenerated, {len(b)} committed")
+                bad += 1
+                continue
+            diffs = [(i, x, y) for i, (x, y) in enumerate(zip(a, b)) if not close(x, y)]
+            if diffs:
+                bad += 1
+                print(f"{rel}: {len(diffs)} values differ, first: #{diffs[0][0]} {diffs[0][1]!r} vs {diffs[0][2]!r}")
+            else:
+                print(f"{rel}: {len(a)} values match")
+        if bad:
+            print("reference values differ from the committed ones: regenerate and review")
+            sys.exit(1)
+
+
+if __name__ == "__main__":
+    main()
