@@ -181,6 +181,43 @@ fn bad_inputs_exit_2_with_a_clear_message_and_no_output() {
         );
         assert!(!out.exists(), "{what}: output left behind");
     }
+    // An ephemeris as the initial state: unsorted or duplicated epochs are refused.
+    let row = |t: &str| format!("2031-05-04T12:{t}Z,6778.1363,0,0,0,4.7,6.0\n");
+    let hdr = "epoch_utc,x_km,y_km,z_km,vx_km_s,vy_km_s,vz_km_s\n";
+    for (what, body, needle) in [
+        (
+            "unsorted",
+            format!("{hdr}{}{}", row("05:00"), row("01:00")),
+            "earlier",
+        ),
+        (
+            "duplicated",
+            format!("{hdr}{}{}", row("05:00"), row("05:00")),
+            "duplicate epoch",
+        ),
+    ] {
+        let e = write(dir.path(), &format!("{what}.csv"), &body);
+        let out = dir.path().join("out.oem");
+        let (code, _, stderr) = arcwise(&[
+            "propagate",
+            "--forces",
+            good_f.to_str().unwrap(),
+            "--state",
+            e.to_str().unwrap(),
+            "--to",
+            "2031-05-04T13:00:00Z",
+            "--step",
+            "60",
+            "--out",
+            out.to_str().unwrap(),
+        ]);
+        assert_eq!(code, 2, "{what}: {stderr}");
+        assert!(
+            stderr.contains(needle) && stderr.contains(":3:"),
+            "{what}: {stderr}"
+        );
+        assert!(!out.exists());
+    }
     // Usage errors (clap) exit 2 as well.
     let (code, _, _) = arcwise(&["propagate", "--forces", good_f.to_str().unwrap()]);
     assert_eq!(code, 2);
@@ -199,6 +236,44 @@ fn bad_inputs_exit_2_with_a_clear_message_and_no_output() {
     ]);
     assert_eq!(code, 2);
     assert!(stderr.contains(".csv or .oem"), "{stderr}");
+}
+
+#[test]
+fn continues_from_the_last_state_of_an_ephemeris() {
+    let dir = tempfile::tempdir().unwrap();
+    let f = write(dir.path(), "forces.yaml", FORCES);
+    let s = write(dir.path(), "state.yaml", STATE);
+    let run = |state: &Path, to: &str, out: &Path| {
+        let (code, _, stderr) = arcwise(&[
+            "propagate",
+            "--forces",
+            f.to_str().unwrap(),
+            "--state",
+            state.to_str().unwrap(),
+            "--to",
+            to,
+            "--step",
+            "300",
+            "--out",
+            out.to_str().unwrap(),
+        ]);
+        assert_eq!(code, 0, "{stderr}");
+        propagator::ephemeris::Ephemeris::load(out, &propagator::CentralBody::EARTH_EGM96).unwrap()
+    };
+    let whole = run(&s, "2031-05-04T16:00:00Z", &dir.path().join("whole.oem"));
+    let first = dir.path().join("first.oem");
+    run(&s, "2031-05-04T14:00:00Z", &first);
+    let second = run(
+        &first,
+        "2031-05-04T16:00:00Z",
+        &dir.path().join("second.oem"),
+    );
+    let a = whole.points.last().unwrap();
+    let b = second.points.last().unwrap();
+    assert_eq!(a.epoch.to_utc_string(), b.epoch.to_utc_string());
+    // Two legs restart the step control once: agreement at the tolerance level.
+    let d = (a.state - b.state).fixed_rows::<3>(0).norm();
+    assert!(d < 1e-6, "{d} km");
 }
 
 #[test]

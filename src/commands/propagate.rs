@@ -4,7 +4,7 @@ use crate::error::CliError;
 use crate::progress::PropagationProgress;
 use crate::report::{state_json, write_report};
 use clap::Args as ClapArgs;
-use propagator::config::{ForcesFile, StateFile};
+use propagator::config::{ForcesFile, InitialState, StateFile};
 use propagator::ephemeris::{Ephemeris, EphemerisPoint, Format};
 use propagator::integrator::{Method, Settings};
 use propagator::propagation::{output_grid, propagate, Options, Request, Termination};
@@ -18,8 +18,9 @@ pub struct Args {
     /// Force model (forces.yaml).
     #[arg(long, value_name = "FORCES.yaml")]
     forces: PathBuf,
-    /// Initial state: `epoch_utc` and `r_km` + `v_km_s`, or `elements`.
-    #[arg(long, value_name = "STATE.yaml")]
+    /// Initial state: a STATE.yaml (`epoch_utc` and `r_km` + `v_km_s`, or `elements`),
+    /// or an ephemeris (.oem or .csv) to continue from its last state.
+    #[arg(long, value_name = "STATE.yaml|EPH.oem|EPH.csv")]
     state: PathBuf,
     /// Final epoch, ISO 8601 UTC (earlier than the state's epoch propagates backward).
     #[arg(long, value_name = "EPOCH")]
@@ -56,6 +57,28 @@ pub struct Args {
     report: Option<PathBuf>,
 }
 
+/// The initial state from a state file, or the last state of an ephemeris.
+fn load_initial(
+    path: &std::path::Path,
+    body: &propagator::CentralBody,
+) -> Result<InitialState, CliError> {
+    match Format::from_path(path) {
+        Ok(_) => {
+            let eph = Ephemeris::load(path, body).map_err(CliError::input)?;
+            let last = eph
+                .points
+                .last()
+                .ok_or_else(|| CliError::input(format!("{}: no states", path.display())))?;
+            Ok(InitialState {
+                epoch: last.epoch,
+                state: last.state,
+                object_name: (!eph.object_name.is_empty()).then(|| eph.object_name.clone()),
+            })
+        }
+        Err(_) => StateFile::load(path, body).map_err(CliError::input),
+    }
+}
+
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
     let method = Method::parse(&a.integrator).ok_or_else(|| {
@@ -76,7 +99,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
     Format::from_path(&a.out).map_err(CliError::input)?;
     let to = Epoch::parse_utc(&a.to).map_err(|e| CliError::input(format!("--to: {e}")))?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
-    let initial = StateFile::load(&a.state, &spec.central_body).map_err(CliError::input)?;
+    let initial = load_initial(&a.state, &spec.central_body)?;
     let axis = TimeAxis::new(initial.epoch);
     let loaded = spec
         .build(&a.forces, initial.epoch)

@@ -140,3 +140,45 @@ impl ForceModel {
         Ok(p)
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::force::two_body::TwoBody;
+
+    #[test]
+    fn central_difference_matches_analytic_two_body_partials() {
+        let f = TwoBody {
+            mu_km3_s2: 398_600.441_8,
+        };
+        let x = StateVector::new(5000.0, -4000.0, 3000.0, 1.0, 6.0, -3.0);
+        let analytic = f.partials(0.0, &x).unwrap();
+        let numeric = central_difference_partials(&f, 0.0, &x).unwrap();
+        let scale = analytic.abs().max();
+        assert!(
+            (analytic - numeric).abs().max() < 1e-7 * scale,
+            "{analytic} vs {numeric}"
+        );
+    }
+
+    #[test]
+    fn a_failing_force_stops_the_sum() {
+        struct Broken;
+        impl Force for Broken {
+            fn name(&self) -> &str {
+                "broken"
+            }
+            fn acceleration(&self, t_s: f64, _x: &StateVector) -> Result<Vector3<f64>, ForceError> {
+                finite_or_error("broken", t_s, Vector3::new(f64::NAN, 0.0, 0.0))
+            }
+        }
+        let m = ForceModel::new()
+            .with(TwoBody { mu_km3_s2: 1.0 })
+            .with(Broken);
+        let e = m
+            .acceleration(3.0, &StateVector::new(1.0, 0.0, 0.0, 0.0, 1.0, 0.0))
+            .unwrap_err();
+        assert_eq!(e.force, "broken");
+        assert!(e.to_string().contains("non-finite"));
+    }
+}
