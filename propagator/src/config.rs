@@ -8,11 +8,16 @@ use crate::atmosphere::{AltitudeModel, Atmosphere, Exponential, PiecewiseExponen
 use crate::body::CentralBody;
 use crate::elements::Elements;
 use crate::force::drag::Drag;
+use crate::force::maneuver::{FiniteBurn, Impulse, ManeuverFrame};
+use crate::force::srp::{Shadow, SolarPressure};
+use crate::force::third_body::ThirdBody;
 use crate::force::two_body::TwoBody;
 use crate::force::zonal::Zonal;
 use crate::force::ForceModel;
+use crate::solar_system::{Body as SolarBody, CenturyClock};
 use crate::state::StateVector;
 use crate::time::Epoch;
+use crate::time::TimeAxis;
 use serde::de::{Deserializer, Error as _};
 use serde::Deserialize;
 use std::path::{Path, PathBuf};
@@ -57,6 +62,7 @@ macro_rules! checked_f64 {
 }
 
 checked_f64!(positive_cd, "cd", positive);
+checked_f64!(positive_cr, "cr", positive);
 checked_f64!(positive_area, "area_m2", positive);
 checked_f64!(positive_mass, "mass_kg", positive);
 checked_f64!(positive_scale, "scale", positive);
@@ -82,6 +88,16 @@ fn finite3<'de, D: Deserializer<'de>>(d: D) -> Result<Option<[f64; 3]>, D::Error
     Ok(v)
 }
 
+fn finite3_required<'de, D: Deserializer<'de>>(d: D) -> Result<[f64; 3], D::Error> {
+    let a = <[f64; 3]>::deserialize(d)?;
+    if !a.iter().all(|c| c.is_finite()) {
+        return Err(D::Error::custom(format!(
+            "{a:?} has a non-finite component"
+        )));
+    }
+    Ok(a)
+}
+
 fn scale_default() -> f64 {
     1.0
 }
@@ -98,9 +114,99 @@ pub struct ForcesFile {
     /// Atmospheric drag (none if absent).
     #[serde(default)]
     pub drag: Option<DragSpec>,
+    /// Solar radiation pressure (none if absent).
+    #[serde(default)]
+    pub srp: Option<SrpSpec>,
+    /// Third bodies: `sun`, `moon`.
+    #[serde(default)]
+    pub third_body: Vec<ThirdBodyKey>,
+    /// Maneuvers: impulsive or finite.
+    #[serde(default, with = "serde_yaml::with::singleton_map_recursive")]
+    pub maneuvers: Vec<ManeuverSpec>,
     /// Force plugins: paths of native plugins or learned-force files.
     #[serde(default)]
     pub plugins: Vec<String>,
+}
+
+/// `srp:` block.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SrpSpec {
+    /// Radiation-pressure coefficient, dimensionless (1 absorbing … 2 mirror).
+    #[serde(deserialize_with = "positive_cr")]
+    pub cr: f64,
+    /// Area, m².
+    #[serde(deserialize_with = "positive_area")]
+    pub area_m2: f64,
+    /// Mass, kg.
+    #[serde(deserialize_with = "positive_mass")]
+    pub mass_kg: f64,
+    /// `none`, `cylindrical` or `conical` (the default).
+    #[serde(default)]
+    pub shadow: ShadowKey,
+    /// Multiplier on the SRP acceleration (default 1).
+    #[serde(default = "scale_default", deserialize_with = "positive_scale")]
+    pub scale: f64,
+}
+
+/// `shadow:` values.
+#[derive(Clone, Copy, Debug, Default, Deserialize, PartialEq, Eq)]
+#[serde(rename_all = "lowercase")]
+pub enum ShadowKey {
+    /// Always lit.
+    None,
+    /// Cylindrical shadow.
+    Cylindrical,
+    /// Umbra and penumbra.
+    #[default]
+    Conical,
+}
+
+/// `third_body:` entries.
+#[derive(Clone, Copy, Debug, Deserialize, PartialEq, Eq)]
+#[serde(rename_all = "lowercase")]
+pub enum ThirdBodyKey {
+    /// The Sun.
+    Sun,
+    /// The Moon.
+    Moon,
+}
+
+/// One entry of `maneuvers:`.
+#[derive(Clone, Debug, Deserialize, PartialEq)]
+#[serde(rename_all = "lowercase")]
+pub enum ManeuverSpec {
+    /// An instantaneous Δv.
+    Impulsive(ImpulsiveSpec),
+    /// A constant RTN acceleration over an interval.
+    Finite(FiniteSpec),
+}
+
+/// `impulsive:` — give exactly one of `dv_rtn_km_s` or `dv_eci_km_s`.
+#[derive(Clone, Debug, Deserialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct ImpulsiveSpec {
+    /// ISO 8601 UTC.
+    pub epoch_utc: String,
+    /// Δv in RTN, km/s.
+    #[serde(default, deserialize_with = "finite3")]
+    pub dv_rtn_km_s: Option<[f64; 3]>,
+    /// Δv in ECI, km/s.
+    #[serde(default, deserialize_with = "finite3")]
+    pub dv_eci_km_s: Option<[f64; 3]>,
+}
+
+/// `finite:` burn.
+#[derive(Clone, Debug, Deserialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct FiniteSpec {
+    /// Start, ISO 8601 UTC.
+    pub start_utc: String,
+    /// End, ISO 8601 UTC.
+    pub end_utc: String,
+    /// Acceleration in RTN, km/s².
+    #[serde(deserialize_with = "finite3_required")]
+    pub accel_rtn_km_s2: [f64; 3],
 }
 
 /// `gravity:` block.
@@ -175,7 +281,8 @@ pub struct ExponentialSpec {
 
 /// A force model ready to propagate, with the constants it was built from.
 pub struct LoadedForces {
-    /// The forces, in file order: two-body, zonal, drag, plugins.
+    /// The forces, in order: two-body, zonal, drag, SRP, third bodies, finite burns,
+    /// plugins; impulsive maneuvers ride along in the model.
     pub model: ForceModel,
     /// Central-body constants.
     pub body: CentralBody,
@@ -217,7 +324,7 @@ impl ForcesFile {
 
     /// Builds the force model. `reference` is the epoch where the model's time axis
     /// starts (forces that depend on absolute time are placed on it).
-    pub fn build(&self, path: &Path, _reference: Epoch) -> Result<LoadedForces, ConfigError> {
+    pub fn build(&self, path: &Path, reference: Epoch) -> Result<LoadedForces, ConfigError> {
         let body = self.central_body;
         let mut model = ForceModel::new().with(TwoBody {
             mu_km3_s2: body.mu_km3_s2,
@@ -260,6 +367,102 @@ impl ForcesFile {
                 body,
                 altitude,
             });
+        }
+        let clock = CenturyClock::new(&reference);
+        let axis = TimeAxis::new(reference);
+        if let Some(srp) = &self.srp {
+            if srp.area_m2 / srp.mass_kg > 10.0 {
+                return Err(config_error(
+                    path,
+                    format!(
+                        "srp: area/mass = {} m²/kg is implausible (area in m², mass in kg)",
+                        srp.area_m2 / srp.mass_kg
+                    ),
+                ));
+            }
+            model = model.with(SolarPressure {
+                cr: srp.cr,
+                area_m2: srp.area_m2,
+                mass_kg: srp.mass_kg,
+                scale: srp.scale,
+                shadow: match srp.shadow {
+                    ShadowKey::None => Shadow::None,
+                    ShadowKey::Cylindrical => Shadow::Cylindrical,
+                    ShadowKey::Conical => Shadow::Conical,
+                },
+                earth_radius_km: body.radius_km,
+                clock,
+            });
+        }
+        let mut seen = Vec::new();
+        for b in &self.third_body {
+            if seen.contains(b) {
+                return Err(config_error(
+                    path,
+                    format!("third_body: {b:?} is listed twice"),
+                ));
+            }
+            seen.push(*b);
+            let body = match b {
+                ThirdBodyKey::Sun => SolarBody::Sun,
+                ThirdBodyKey::Moon => SolarBody::Moon,
+            };
+            model = model.with(ThirdBody::new(body, clock));
+        }
+        for (k, m) in self.maneuvers.iter().enumerate() {
+            let epoch = |key: &str, text: &str| {
+                Epoch::parse_utc(text)
+                    .map_err(|e| config_error(path, format!("maneuvers[{k}].{key}: {e}")))
+            };
+            match m {
+                ManeuverSpec::Impulsive(i) => {
+                    let t = axis.seconds(&epoch("epoch_utc", &i.epoch_utc)?);
+                    let (dv, frame) = match (i.dv_rtn_km_s, i.dv_eci_km_s) {
+                        (Some(v), None) => (v, ManeuverFrame::Rtn),
+                        (None, Some(v)) => (v, ManeuverFrame::Eci),
+                        _ => {
+                            return Err(config_error(
+                                path,
+                                format!("maneuvers[{k}].impulsive: give exactly one of dv_rtn_km_s and dv_eci_km_s"),
+                            ))
+                        }
+                    };
+                    let dv = nalgebra::Vector3::from(dv);
+                    if dv.norm() > 5.0 {
+                        return Err(config_error(
+                            path,
+                            format!("maneuvers[{k}].impulsive: |Δv| = {} km/s is implausible: the unit is km/s, not m/s", dv.norm()),
+                        ));
+                    }
+                    model.push_impulse(Impulse {
+                        t_s: t,
+                        dv_km_s: dv,
+                        frame,
+                    });
+                }
+                ManeuverSpec::Finite(f) => {
+                    let start = axis.seconds(&epoch("start_utc", &f.start_utc)?);
+                    let end = axis.seconds(&epoch("end_utc", &f.end_utc)?);
+                    if end <= start {
+                        return Err(config_error(
+                            path,
+                            format!("maneuvers[{k}].finite: end_utc is not after start_utc"),
+                        ));
+                    }
+                    let a = nalgebra::Vector3::from(f.accel_rtn_km_s2);
+                    if a.norm() > 0.1 {
+                        return Err(config_error(
+                            path,
+                            format!("maneuvers[{k}].finite: |a| = {} km/s² is implausible: the unit is km/s², not m/s²", a.norm()),
+                        ));
+                    }
+                    model = model.with(FiniteBurn {
+                        start_s: start,
+                        end_s: end,
+                        accel_rtn_km_s2: a,
+                    });
+                }
+            }
         }
         if let Some(p) = self.plugins.first() {
             return Err(config_error(
@@ -438,6 +641,47 @@ plugins: []
             let f = ForcesFile::parse(&t, p()).unwrap();
             assert!(f.drag.is_some());
         }
+    }
+
+    #[test]
+    fn srp_third_bodies_and_maneuvers() {
+        let t = format!(
+            "{FULL}srp: {{ cr: 1.3, area_m2: 0.1, mass_kg: 10.0, shadow: conical }}\nthird_body: [sun, moon]\nmaneuvers:\n  - {{ impulsive: {{ epoch_utc: \"2031-05-04T15:00:00Z\", dv_rtn_km_s: [0.0, 0.0005, 0.0] }} }}\n  - {{ finite: {{ start_utc: \"2031-05-04T16:00:00Z\", end_utc: \"2031-05-04T16:10:00Z\", accel_rtn_km_s2: [0.0, 2.0e-9, 0.0] }} }}\n"
+        );
+        let f = ForcesFile::parse(&t, p()).unwrap();
+        let l = f
+            .build(p(), Epoch::parse_utc("2031-05-04T12:00:00Z").unwrap())
+            .unwrap();
+        assert_eq!(
+            l.model.names(),
+            vec![
+                "two_body",
+                "zonal_j2",
+                "drag",
+                "srp",
+                "third_body_sun",
+                "third_body_moon",
+                "finite_burn"
+            ]
+        );
+        assert_eq!(l.model.impulses().len(), 1);
+        assert_eq!(l.model.impulses()[0].t_s, 3.0 * 3600.0);
+        assert_eq!(l.model.discontinuities_s(), vec![10800.0, 14400.0, 15000.0]);
+        let bad = t.replace(
+            "dv_rtn_km_s: [0.0, 0.0005, 0.0]",
+            "dv_rtn_km_s: [0.0, 500.0, 0.0]",
+        );
+        let e = ForcesFile::parse(&bad, p())
+            .unwrap()
+            .build(p(), Epoch::parse_utc("2031-05-04T12:00:00Z").unwrap())
+            .err()
+            .unwrap();
+        assert!(e.to_string().contains("not m/s"), "{e}");
+        let bad = t.replace("shadow: conical", "shadow: partial");
+        assert!(ForcesFile::parse(&bad, p())
+            .unwrap_err()
+            .to_string()
+            .contains("partial"));
     }
 
     #[test]

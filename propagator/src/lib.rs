@@ -22,6 +22,7 @@ pub mod force;
 pub mod frames;
 pub mod integrator;
 pub mod propagation;
+pub mod solar_system;
 pub mod state;
 pub mod time;
 

@@ -7,19 +7,28 @@
 
 use crate::atmosphere::AltitudeModel;
 use crate::body::CentralBody;
-use crate::force::{ForceError, ForceModel};
+use crate::force::{ForceError, ForceModel, Segment};
 use crate::integrator::{AnyStepper, IntegrationError, OdeSystem, Settings, Stats};
 use crate::state::StateVector;
 
-/// The orbit equations r′ = v, v′ = a(t, r, v) for a force model.
+/// The orbit equations r′ = v, v′ = a(t, r, v) for a force model, inside one
+/// integration segment (between two discontinuities of the dynamics).
 pub struct OrbitSystem<'a> {
     model: &'a ForceModel,
+    /// The segment being integrated.
+    pub segment: Segment,
 }
 
 impl<'a> OrbitSystem<'a> {
     /// The equations of motion under `model`.
     pub fn new(model: &'a ForceModel) -> Self {
-        Self { model }
+        Self {
+            model,
+            segment: Segment {
+                start_s: f64::NEG_INFINITY,
+                end_s: f64::INFINITY,
+            },
+        }
     }
 }
 
@@ -31,7 +40,7 @@ impl OdeSystem for OrbitSystem<'_> {
     #[inline]
     fn rhs(&mut self, t: f64, y: &[f64], dy: &mut [f64]) -> Result<(), ForceError> {
         let x = StateVector::from_column_slice(y);
-        let a = self.model.acceleration(t, &x)?;
+        let a = self.model.acceleration_in(t, &x, self.segment)?;
         dy[0] = y[3];
         dy[1] = y[4];
         dy[2] = y[5];
@@ -101,9 +110,24 @@ pub enum PropagationError {
     BadRequest(String),
 }
 
+/// An impulsive maneuver as applied during a propagation.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct AppliedImpulse {
+    /// When, s on the time axis.
+    pub t_s: f64,
+    /// State just before the burn.
+    pub before: StateVector,
+    /// State just after the burn.
+    pub after: StateVector,
+}
+
 /// States at the requested times, and how the propagation ended.
+///
+/// An output at exactly an impulse's epoch is the state just before the impulse.
 #[derive(Clone, Debug)]
 pub struct Propagated {
+    /// The impulses applied, in the order met.
+    pub maneuvers: Vec<AppliedImpulse>,
     /// `(t_s, state)` at each requested output time reached, in request order.
     pub samples: Vec<(f64, StateVector)>,
     /// Completed, or decayed (then `samples` stops before the decay time).
@@ -183,13 +207,27 @@ pub fn propagate(
     }
     let mut segment_start = t0_s;
     let mut y_start = *x0;
+    let mut maneuvers = Vec::new();
+    // An impulse at the very start (forward) acts on the given state.
+    if dir > 0.0 {
+        for imp in model.impulses().iter().filter(|i| i.t_s == t0_s) {
+            y_start = apply_impulse(imp, &y_start, dir, &mut maneuvers)?;
+        }
+    }
     let mut stops: Vec<f64> = stop_times_s
         .iter()
         .copied()
+        .chain(model.discontinuities_s())
         .filter(|&t| (t - t0_s) * dir > 0.0 && (t_end_s - t) * dir > 0.0)
         .collect();
+    stops.sort_by(|a, b| (a * dir).total_cmp(&(b * dir)));
+    stops.dedup();
     stops.push(t_end_s);
     for &seg_end in &stops {
+        sys.segment = Segment {
+            start_s: segment_start.min(seg_end),
+            end_s: segment_start.max(seg_end),
+        };
         stepper.start(&mut sys, segment_start, y_start.as_slice(), seg_end)?;
         while (seg_end - stepper.t()) * dir > 0.0 {
             let t_prev = stepper.t();
@@ -211,6 +249,7 @@ pub fn propagate(
                 }
                 stepper.dense_at(&mut sys, t_hit, &mut buf)?;
                 return Ok(Propagated {
+                    maneuvers,
                     samples,
                     termination: Termination::Decayed {
                         t_s: t_hit,
@@ -234,13 +273,44 @@ pub fn propagate(
         }
         segment_start = seg_end;
         y_start = StateVector::from_column_slice(stepper.y());
+        if seg_end != t_end_s {
+            for imp in model.impulses().iter().filter(|i| i.t_s == seg_end) {
+                y_start = apply_impulse(imp, &y_start, dir, &mut maneuvers)?;
+            }
+        }
     }
     Ok(Propagated {
+        maneuvers,
         samples,
         termination: Termination::Completed,
         final_state: (t_end_s, y_start),
         stats: stepper.stats(),
     })
+}
+
+fn apply_impulse(
+    imp: &crate::force::maneuver::Impulse,
+    x: &StateVector,
+    dir: f64,
+    log: &mut Vec<AppliedImpulse>,
+) -> Result<StateVector, PropagationError> {
+    let undefined = || {
+        PropagationError::BadRequest(format!(
+            "impulse at t = {} s: the RTN frame is undefined for the state there",
+            imp.t_s
+        ))
+    };
+    let (before, after) = if dir > 0.0 {
+        (*x, imp.apply(x).ok_or_else(undefined)?)
+    } else {
+        (imp.unapply(x).ok_or_else(undefined)?, *x)
+    };
+    log.push(AppliedImpulse {
+        t_s: imp.t_s,
+        before,
+        after,
+    });
+    Ok(if dir > 0.0 { after } else { before })
 }
 
 fn check_times(

@@ -6,11 +6,26 @@
 //! native plugins — goes through this trait.
 
 pub mod drag;
+pub mod maneuver;
+pub mod srp;
+pub mod third_body;
 pub mod two_body;
 pub mod zonal;
 
 use crate::state::StateVector;
+use maneuver::Impulse;
 use nalgebra::{Matrix3x6, Vector3};
+
+/// The integration segment a force is being evaluated in: the propagator splits the
+/// integration at every discontinuity, so a force that switches at an epoch can tell
+/// which side of it a stage on the boundary belongs to.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Segment {
+    /// Segment start, s on the time axis.
+    pub start_s: f64,
+    /// Segment end, s on the time axis.
+    pub end_s: f64,
+}
 
 /// A force that failed to evaluate (a plugin status, a non-finite result, a density
 /// model asked about an altitude it cannot answer for). Never silently a zero.
@@ -52,6 +67,22 @@ pub trait Force: Send + Sync {
     fn depends_on_velocity(&self) -> bool {
         true
     }
+
+    /// Acceleration when the propagator knows the integration segment; forces with
+    /// discontinuities override it, the rest keep this default.
+    fn acceleration_in(
+        &self,
+        t_s: f64,
+        x: &StateVector,
+        _segment: Segment,
+    ) -> Result<Vector3<f64>, ForceError> {
+        self.acceleration(t_s, x)
+    }
+
+    /// Epochs (s on the time axis) where the force jumps; the integrator stops there.
+    fn discontinuities_s(&self) -> Vec<f64> {
+        Vec::new()
+    }
 }
 
 /// Central-difference ∂a/∂x of any force; steps relative to |r| and |v|.
@@ -90,15 +121,43 @@ pub fn finite_or_error(name: &str, t_s: f64, a: Vector3<f64>) -> Result<Vector3<
 
 /// An ordered set of forces; the acceleration is their sum, added in order (so results
 /// do not depend on anything but the list).
+///
+/// Impulsive maneuvers are part of the model too, though not forces: the propagator
+/// applies them exactly at their epochs.
 #[derive(Default)]
 pub struct ForceModel {
     forces: Vec<Box<dyn Force>>,
+    impulses: Vec<Impulse>,
 }
 
 impl ForceModel {
     /// An empty model (no acceleration at all).
     pub fn new() -> Self {
-        Self { forces: Vec::new() }
+        Self::default()
+    }
+
+    /// Adds an impulsive maneuver.
+    pub fn push_impulse(&mut self, impulse: Impulse) {
+        self.impulses.push(impulse);
+        self.impulses.sort_by(|a, b| a.t_s.total_cmp(&b.t_s));
+    }
+
+    /// The impulsive maneuvers, in time order.
+    pub fn impulses(&self) -> &[Impulse] {
+        &self.impulses
+    }
+
+    /// Every epoch where the dynamics jump (impulses and force discontinuities),
+    /// sorted, without repeats.
+    pub fn discontinuities_s(&self) -> Vec<f64> {
+        let mut v: Vec<f64> = self.impulses.iter().map(|i| i.t_s).collect();
+        for f in &self.forces {
+            v.extend(f.discontinuities_s());
+        }
+        v.retain(|t| t.is_finite());
+        v.sort_by(|a, b| a.total_cmp(b));
+        v.dedup();
+        v
     }
 
     /// Appends a force.
@@ -127,6 +186,20 @@ impl ForceModel {
         let mut a = Vector3::zeros();
         for f in &self.forces {
             a += f.acceleration(t_s, x)?;
+        }
+        finite_or_error("force model", t_s, a)
+    }
+
+    /// Total acceleration inside an integration segment (see [`Segment`]).
+    pub fn acceleration_in(
+        &self,
+        t_s: f64,
+        x: &StateVector,
+        segment: Segment,
+    ) -> Result<Vector3<f64>, ForceError> {
+        let mut a = Vector3::zeros();
+        for f in &self.forces {
+            a += f.acceleration_in(t_s, x, segment)?;
         }
         finite_or_error("force model", t_s, a)
     }
