@@ -277,6 +277,50 @@ fn continues_from_the_last_state_of_an_ephemeris() {
 }
 
 #[test]
+fn maneuvers_srp_and_third_bodies_from_forces_yaml() {
+    let dir = tempfile::tempdir().unwrap();
+    let extra = "srp: { cr: 1.3, area_m2: 0.1, mass_kg: 10.0, shadow: conical }\nthird_body: [sun, moon]\nmaneuvers:\n  - { impulsive: { epoch_utc: \"2031-05-04T15:00:00Z\", dv_rtn_km_s: [0.0, 0.0005, 0.0] } }\n  - { finite: { start_utc: \"2031-05-04T16:00:00Z\", end_utc: \"2031-05-04T16:30:00Z\", accel_rtn_km_s2: [0.0, 2.0e-9, 0.0] } }\n";
+    let f = write(dir.path(), "forces.yaml", &format!("{FORCES}{extra}"));
+    let s = write(dir.path(), "state.yaml", STATE);
+    let out = dir.path().join("eph.oem");
+    let rep = dir.path().join("r.json");
+    let (code, stdout, stderr) = arcwise(&[
+        "propagate",
+        "--forces",
+        f.to_str().unwrap(),
+        "--state",
+        s.to_str().unwrap(),
+        "--to",
+        "2031-05-04T18:00:00Z",
+        "--step",
+        "600",
+        "--out",
+        out.to_str().unwrap(),
+        "--report",
+        rep.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(
+        stdout.contains("srp")
+            && stdout.contains("third_body_moon")
+            && stdout.contains("finite_burn"),
+        "{stdout}"
+    );
+    let r: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&rep).unwrap()).unwrap();
+    let m = &r["maneuvers_applied"][0];
+    assert_eq!(m["epoch_utc"], "2031-05-04T15:00:00.000000Z");
+    let dv: Vec<f64> = m["dv_eci_km_s"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_f64().unwrap())
+        .collect();
+    let n = (dv[0] * dv[0] + dv[1] * dv[1] + dv[2] * dv[2]).sqrt();
+    assert!((n - 0.0005).abs() < 1e-15, "{n}");
+}
+
+#[test]
 fn decay_is_reported_not_failed() {
     let dir = tempfile::tempdir().unwrap();
     let f = write(

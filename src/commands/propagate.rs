@@ -197,6 +197,10 @@ pub fn run(a: Args) -> Result<(), CliError> {
             "decay": decay,
             "final_state": state_json(&end_epoch, &x_fin),
             "states_written": eph.points.len(),
+            "maneuvers_applied": result.maneuvers.iter().map(|m| serde_json::json!({
+                "epoch_utc": axis.epoch(m.t_s).to_utc_string(),
+                "dv_eci_km_s": [m.after[3] - m.before[3], m.after[4] - m.before[4], m.after[5] - m.before[5]],
+            })).collect::<Vec<_>>(),
             "output_step_s": a.step,
             "steps_accepted": stats.accepted,
             "steps_rejected": stats.rejected,

@@ -14,6 +14,8 @@ HERE = Path(__file__).resolve().parent
 ROOT = HERE.parents[1]
 sys.path.insert(0, str(HERE))
 
+import sun_moon  # noqa: E402
+import third_body_trajectories  # noqa: E402
 import trajectories  # noqa: E402
 import ussa1976_table  # noqa: E402
 
@@ -21,6 +23,8 @@ FILES = [
     "tests/data/reference/trajectories.json",
     "tests/data/reference/ussa1976_midpoints.json",
     "propagator/src/atmosphere/ussa1976_table.rs",
+    "tests/data/reference/sun_moon_de421.json",
+    "tests/data/reference/third_body_trajectories.json",
 ]
 
 
@@ -43,6 +47,8 @@ def main():
         tmp = Path(tmp)
         trajectories.main(tmp)
         ussa1976_table.main(tmp)
+        sun_moon.main(tmp)
+        third_body_trajectories.main(tmp)
         bad = 0
         for rel in FILES:
             new, old = (tmp / rel).read_text(), (ROOT / rel).read_text()
