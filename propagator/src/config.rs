@@ -14,6 +14,7 @@ use crate::force::third_body::ThirdBody;
 use crate::force::two_body::TwoBody;
 use crate::force::zonal::Zonal;
 use crate::force::ForceModel;
+use crate::plugin::loader::PluginForce;
 use crate::solar_system::{Body as SolarBody, CenturyClock};
 use crate::state::StateVector;
 use crate::time::Epoch;
@@ -123,9 +124,45 @@ pub struct ForcesFile {
     /// Maneuvers: impulsive or finite.
     #[serde(default, with = "serde_yaml::with::singleton_map_recursive")]
     pub maneuvers: Vec<ManeuverSpec>,
-    /// Force plugins: paths of native plugins or learned-force files.
+    /// Force plugins: paths of native plugins (relative to this file's folder), or
+    /// `{ path, source_checksum }` to insist on the learned file they came from.
     #[serde(default)]
-    pub plugins: Vec<String>,
+    pub plugins: Vec<PluginSpec>,
+}
+
+/// One entry of `plugins:`.
+#[derive(Clone, Debug, Deserialize, PartialEq)]
+#[serde(untagged)]
+pub enum PluginSpec {
+    /// Just a path.
+    Path(String),
+    /// A path and the checksum its metadata must carry.
+    Checked {
+        /// The plugin file.
+        path: String,
+        /// `sha256:<hex>` the plugin's `source_checksum` must equal.
+        source_checksum: Option<String>,
+    },
+}
+
+impl PluginSpec {
+    /// The path as written.
+    pub fn path(&self) -> &str {
+        match self {
+            PluginSpec::Path(p) => p,
+            PluginSpec::Checked { path, .. } => path,
+        }
+    }
+
+    /// The required checksum, if any.
+    pub fn checksum(&self) -> Option<&str> {
+        match self {
+            PluginSpec::Path(_) => None,
+            PluginSpec::Checked {
+                source_checksum, ..
+            } => source_checksum.as_deref(),
+        }
+    }
 }
 
 /// `srp:` block.
@@ -464,11 +501,17 @@ impl ForcesFile {
                 }
             }
         }
-        if let Some(p) = self.plugins.first() {
-            return Err(config_error(
-                path,
-                format!("plugins: `{p}`: force plugins are not supported by this version yet"),
-            ));
+        let base = path.parent().unwrap_or(Path::new("."));
+        for spec in &self.plugins {
+            let p = Path::new(spec.path());
+            let resolved = if p.is_absolute() {
+                p.to_path_buf()
+            } else {
+                base.join(p)
+            };
+            let force = PluginForce::load(&resolved, &reference, spec.checksum())
+                .map_err(|e| config_error(path, format!("plugins: {e}")))?;
+            model.push(Box::new(force));
         }
         Ok(LoadedForces {
             model,

@@ -21,6 +21,7 @@ pub mod ephemeris;
 pub mod force;
 pub mod frames;
 pub mod integrator;
+pub mod plugin;
 pub mod propagation;
 pub mod solar_system;
 pub mod state;

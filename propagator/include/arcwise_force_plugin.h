@@ -1,0 +1,74 @@
+/*
+ * arcwise force plugin ABI, version 1.
+ *
+ * A force plugin is a shared library (.so / .dylib / .dll) exporting the functions
+ * below with C linkage. Any propagator that can load a C shared library can use it:
+ * arcwise loads it with libloading; examples/python/ loads it with ctypes.
+ *
+ * Units and frame: time in SI seconds (TAI scale) from the reference epoch given in
+ * the metadata; state [x, y, z, vx, vy, vz] in km and km/s in ECI (J2000 mean equator
+ * and equinox, treated as GCRF); acceleration [ax, ay, az] in km/s^2, ECI.
+ *
+ * Thread safety: every function must be reentrant. A host may call
+ * arcwise_plugin_acceleration from several threads at once with different arguments;
+ * plugins keep no mutable global state.
+ *
+ * Errors: a function that cannot produce a finite answer returns a nonzero status and
+ * leaves `out` unspecified; hosts must treat any nonzero status as an error (never as
+ * a zero acceleration). Plugins must not let a panic or exception cross the boundary.
+ *
+ * Security: a plugin is native code and runs with the rights of the user who loads it.
+ * Load plugins only by explicit path, from files only you can write.
+ */
+#ifndef ARCWISE_FORCE_PLUGIN_H
+#define ARCWISE_FORCE_PLUGIN_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+#define ARCWISE_PLUGIN_ABI_VERSION 1u
+
+/* Status codes. */
+#define ARCWISE_OK 0                  /* success */
+#define ARCWISE_ERR_OUTSIDE_VALIDITY 1 /* the state or time is outside the validity window */
+#define ARCWISE_ERR_NON_FINITE 2      /* the computed acceleration is NaN or infinite */
+#define ARCWISE_ERR_PANIC 3           /* the implementation failed internally */
+#define ARCWISE_ERR_BAD_ARGUMENT 4    /* a null pointer or non-finite input */
+
+/* The ABI version the plugin implements; hosts refuse anything but the one they know. */
+uint32_t arcwise_plugin_abi_version(void);
+
+/*
+ * Metadata as a NUL-terminated UTF-8 JSON object, owned by the plugin and valid while
+ * it is loaded. Keys:
+ *   "abi_version"          integer, = arcwise_plugin_abi_version()
+ *   "name"                 string
+ *   "frame"                "ECI"
+ *   "reference_epoch_utc"  ISO 8601 UTC, where t_s = 0
+ *   "source_checksum"      string ("sha256:<hex>") of the learned-force file it was
+ *                          compiled from, or null for a hand-written plugin
+ *   "validity"             null, or { "start_utc", "end_utc", "min_altitude_km",
+ *                          "max_altitude_km", "outside": "warn" | "zero" | "refuse" }
+ *   "units"                { "time": "s", "state": "km, km/s", "acceleration": "km/s^2" }
+ */
+const char *arcwise_plugin_metadata(void);
+
+/* Acceleration at t_s seconds from the reference epoch and ECI state[6]; writes out[3]. */
+int32_t arcwise_plugin_acceleration(double t_s, const double state[6], double out[3]);
+
+/*
+ * Optional: n accelerations at once. t_s[n], states[6*n] (row-major), out[3*n].
+ * Returns the first nonzero status met, or ARCWISE_OK.
+ */
+int32_t arcwise_plugin_acceleration_batch(size_t n, const double *t_s, const double *states,
+                                          double *out);
+
+#ifdef __cplusplus
+}
+#endif
+
+#endif /* ARCWISE_FORCE_PLUGIN_H */

@@ -1,0 +1,288 @@
+//! Loading a native force plugin safely enough to trust its answers.
+//!
+//! Before the first call the loader checks, in order: the path is explicit and exists,
+//! the file is not writable by group or others, it is a shared library, it exports the
+//! required symbols, its ABI version is ours, its metadata parses and says ECI, and (when
+//! the caller knows it) its source checksum matches the learned-force file it claims to
+//! come from. Every refusal names the file and the reason.
+//!
+//! A plugin is native code and runs with the rights of the user who loads it.
+
+use super::{status_text, Metadata, ABI_VERSION};
+use crate::force::{Force, ForceError};
+use crate::state::StateVector;
+use crate::time::Epoch;
+use libloading::Library;
+use nalgebra::Vector3;
+use std::ffi::{c_char, CStr};
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+
+type AbiVersionFn = unsafe extern "C" fn() -> u32;
+type MetadataFn = unsafe extern "C" fn() -> *const c_char;
+type AccelerationFn = unsafe extern "C" fn(f64, *const f64, *mut f64) -> i32;
+type BatchFn = unsafe extern "C" fn(usize, *const f64, *const f64, *mut f64) -> i32;
+
+/// Why a plugin was refused.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("plugin {}: {reason}", path.display())]
+pub struct PluginError {
+    /// The plugin file as given.
+    pub path: PathBuf,
+    /// What is wrong.
+    pub reason: String,
+}
+
+fn refuse(path: &Path, reason: impl Into<String>) -> PluginError {
+    PluginError {
+        path: path.to_path_buf(),
+        reason: reason.into(),
+    }
+}
+
+/// A loaded, checked plugin, usable as an ordinary [`Force`].
+pub struct PluginForce {
+    name: String,
+    path: PathBuf,
+    metadata: Metadata,
+    acceleration: AccelerationFn,
+    batch: Option<BatchFn>,
+    /// Plugin time = our `t_s` + this offset, s.
+    offset_s: f64,
+    // Declared last: dropped after the function pointers above are no longer usable.
+    _library: Arc<Library>,
+}
+
+impl std::fmt::Debug for PluginForce {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("PluginForce")
+            .field("name", &self.name)
+            .field("path", &self.path)
+            .field("offset_s", &self.offset_s)
+            .finish()
+    }
+}
+
+/// Checks that a file is not writable by group or others (Unix).
+fn check_permissions(path: &Path, meta: &std::fs::Metadata) -> Result<(), PluginError> {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        let mode = meta.permissions().mode();
+        if mode & 0o022 != 0 {
+            return Err(refuse(
+                path,
+                format!(
+                    "the file is writable by group or others (mode {:o}); refusing to load native code others can change (fix: chmod go-w)",
+                    mode & 0o777
+                ),
+            ));
+        }
+    }
+    let _ = (path, meta);
+    Ok(())
+}
+
+/// Checks the file starts like a shared library of this platform.
+fn check_magic(path: &Path) -> Result<(), PluginError> {
+    use std::io::Read;
+    let mut head = [0u8; 4];
+    let mut f = std::fs::File::open(path).map_err(|e| refuse(path, format!("cannot open: {e}")))?;
+    let n = f
+        .read(&mut head)
+        .map_err(|e| refuse(path, format!("cannot read: {e}")))?;
+    let ok = n == 4
+        && (head == [0x7f, b'E', b'L', b'F']
+            || head == [0xcf, 0xfa, 0xed, 0xfe]
+            || head == [0xca, 0xfe, 0xba, 0xbe]
+            || head[..2] == [b'M', b'Z']);
+    if ok {
+        Ok(())
+    } else {
+        Err(refuse(
+            path,
+            "not a shared library (no ELF, Mach-O or PE header)",
+        ))
+    }
+}
+
+impl PluginForce {
+    /// Loads and checks the plugin at `path` (explicit; never searched for), for a force
+    /// model whose time axis starts at `reference`. `expected_checksum`, when given, must
+    /// equal the plugin's `source_checksum`.
+    pub fn load(
+        path: &Path,
+        reference: &Epoch,
+        expected_checksum: Option<&str>,
+    ) -> Result<Self, PluginError> {
+        let abs = std::fs::canonicalize(path)
+            .map_err(|e| refuse(path, format!("cannot find the file: {e}")))?;
+        let meta =
+            std::fs::metadata(&abs).map_err(|e| refuse(path, format!("cannot read: {e}")))?;
+        if !meta.is_file() {
+            return Err(refuse(path, "not a regular file"));
+        }
+        check_permissions(path, &meta)?;
+        check_magic(&abs)?;
+        // SAFETY: loading runs the library's initialisers: native code with the user's
+        // rights, which is what a plugin is. The path is absolute, so nothing is searched.
+        let library =
+            unsafe { Library::new(&abs) }.map_err(|e| refuse(path, format!("cannot load: {e}")))?;
+        // SAFETY: the symbol types are those of arcwise_force_plugin.h.
+        let (abi, metadata_fn, acceleration, batch) = unsafe {
+            let get = |name: &str| -> Result<(), PluginError> {
+                library
+                    .get::<unsafe extern "C" fn()>(name.as_bytes())
+                    .map(|_| ())
+                    .map_err(|_| refuse(path, format!("missing symbol `{name}`: not an arcwise force plugin, or built for another ABI")))
+            };
+            get("arcwise_plugin_abi_version")?;
+            get("arcwise_plugin_metadata")?;
+            get("arcwise_plugin_acceleration")?;
+            let abi: AbiVersionFn = *library
+                .get::<AbiVersionFn>(b"arcwise_plugin_abi_version")
+                .map_err(|e| refuse(path, e.to_string()))?;
+            let metadata_fn: MetadataFn = *library
+                .get::<MetadataFn>(b"arcwise_plugin_metadata")
+                .map_err(|e| refuse(path, e.to_string()))?;
+            let acceleration: AccelerationFn = *library
+                .get::<AccelerationFn>(b"arcwise_plugin_acceleration")
+                .map_err(|e| refuse(path, e.to_string()))?;
+            let batch: Option<BatchFn> = library
+                .get::<BatchFn>(b"arcwise_plugin_acceleration_batch")
+                .ok()
+                .map(|s| *s);
+            (abi, metadata_fn, acceleration, batch)
+        };
+        // SAFETY: a plain function of the ABI.
+        let version = unsafe { abi() };
+        if version != ABI_VERSION {
+            return Err(refuse(
+                path,
+                format!("ABI version {version}; this arcwise supports version {ABI_VERSION}"),
+            ));
+        }
+        // SAFETY: the ABI promises a NUL-terminated string owned by the plugin.
+        let ptr = unsafe { metadata_fn() };
+        if ptr.is_null() {
+            return Err(refuse(path, "metadata function returned null"));
+        }
+        let text = unsafe { CStr::from_ptr(ptr) }
+            .to_str()
+            .map_err(|_| refuse(path, "metadata is not UTF-8"))?;
+        let metadata: Metadata = serde_json::from_str(text)
+            .map_err(|e| refuse(path, format!("metadata is not valid: {e}")))?;
+        if metadata.abi_version != version {
+            return Err(refuse(
+                path,
+                "metadata abi_version differs from arcwise_plugin_abi_version()",
+            ));
+        }
+        if metadata.frame != "ECI" {
+            return Err(refuse(
+                path,
+                format!("frame `{}`: only ECI is supported", metadata.frame),
+            ));
+        }
+        let plugin_ref = Epoch::parse_utc(&metadata.reference_epoch_utc)
+            .map_err(|e| refuse(path, format!("metadata reference_epoch_utc: {e}")))?;
+        if let Some(want) = expected_checksum {
+            match &metadata.source_checksum {
+                Some(have) if have == want => {}
+                Some(have) => {
+                    return Err(refuse(
+                        path,
+                        format!("source checksum {have} does not match the learned-force file's {want}: the plugin was built from another version of the file"),
+                    ))
+                }
+                None => return Err(refuse(path, format!("has no source checksum, expected {want}"))),
+            }
+        }
+        Ok(Self {
+            name: format!("plugin:{}", metadata.name),
+            path: path.to_path_buf(),
+            offset_s: reference.seconds_since(&plugin_ref),
+            metadata,
+            acceleration,
+            batch,
+            _library: Arc::new(library),
+        })
+    }
+
+    /// The plugin's metadata.
+    pub fn metadata(&self) -> &Metadata {
+        &self.metadata
+    }
+
+    /// Whether the plugin exports the batch entry point.
+    pub fn has_batch(&self) -> bool {
+        self.batch.is_some()
+    }
+
+    /// Accelerations (km/s², ECI) for many `(t_s, state)` at once, through the batch
+    /// entry point when present.
+    pub fn accelerations(
+        &self,
+        t_s: &[f64],
+        states: &[StateVector],
+    ) -> Result<Vec<Vector3<f64>>, ForceError> {
+        assert_eq!(t_s.len(), states.len());
+        let Some(batch) = self.batch else {
+            return t_s
+                .iter()
+                .zip(states)
+                .map(|(t, x)| self.acceleration(*t, x))
+                .collect();
+        };
+        let ts: Vec<f64> = t_s.iter().map(|t| t + self.offset_s).collect();
+        let flat: Vec<f64> = states.iter().flat_map(|x| x.iter().copied()).collect();
+        let mut out = vec![0.0; 3 * states.len()];
+        // SAFETY: buffers sized as the ABI requires.
+        let code = unsafe { batch(ts.len(), ts.as_ptr(), flat.as_ptr(), out.as_mut_ptr()) };
+        if code != 0 {
+            return Err(self.status_error(t_s.first().copied().unwrap_or(0.0), code));
+        }
+        let v: Vec<Vector3<f64>> = out
+            .chunks(3)
+            .map(|c| Vector3::new(c[0], c[1], c[2]))
+            .collect();
+        if v.iter().any(|a| !a.iter().all(|c| c.is_finite())) {
+            return Err(self.status_error(t_s[0], super::status::NON_FINITE));
+        }
+        Ok(v)
+    }
+
+    fn status_error(&self, t_s: f64, code: i32) -> ForceError {
+        ForceError {
+            force: self.name.clone(),
+            t_s,
+            reason: format!(
+                "plugin {} returned status {code} ({})",
+                self.path.display(),
+                status_text(code)
+            ),
+        }
+    }
+}
+
+impl Force for PluginForce {
+    fn name(&self) -> &str {
+        &self.name
+    }
+
+    fn acceleration(&self, t_s: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
+        let mut out = [0.0f64; 3];
+        // SAFETY: 6 readable and 3 writable doubles, as the ABI requires; the library
+        // stays loaded while `self` lives.
+        let code =
+            unsafe { (self.acceleration)(t_s + self.offset_s, x.as_ptr(), out.as_mut_ptr()) };
+        if code != 0 {
+            return Err(self.status_error(t_s, code));
+        }
+        let a = Vector3::new(out[0], out[1], out[2]);
+        if !a.iter().all(|c| c.is_finite()) {
+            return Err(self.status_error(t_s, super::status::NON_FINITE));
+        }
+        Ok(a)
+    }
+}

@@ -1,0 +1,97 @@
+//! Native force plugins: the versioned C ABI (`propagator/include/arcwise_force_plugin.h`),
+//! a helper that exports any Rust [`Force`](crate::force::Force) through it
+//! ([`export_force_plugin!`](crate::export_force_plugin)), and a loader that checks a
+//! plugin before wrapping it as an ordinary `Force` ([`loader`]).
+//!
+//! A plugin is native code: it runs with the rights of the user who loads it. arcwise
+//! loads plugins only by explicit path and refuses files that others can write.
+
+pub mod export;
+pub mod loader;
+
+use serde::{Deserialize, Serialize};
+
+/// The ABI version this arcwise implements (`ARCWISE_PLUGIN_ABI_VERSION`).
+pub const ABI_VERSION: u32 = 1;
+
+/// Status codes of the ABI.
+pub mod status {
+    /// Success.
+    pub const OK: i32 = 0;
+    /// The state or time is outside the plugin's validity window.
+    pub const OUTSIDE_VALIDITY: i32 = 1;
+    /// The computed acceleration is NaN or infinite.
+    pub const NON_FINITE: i32 = 2;
+    /// The implementation failed internally (a caught panic, an error).
+    pub const FAILED: i32 = 3;
+    /// A null pointer or a non-finite input.
+    pub const BAD_ARGUMENT: i32 = 4;
+}
+
+/// A sentence for a status code.
+pub fn status_text(code: i32) -> &'static str {
+    match code {
+        status::OK => "success",
+        status::OUTSIDE_VALIDITY => "outside the validity window",
+        status::NON_FINITE => "non-finite acceleration",
+        status::FAILED => "the plugin failed internally",
+        status::BAD_ARGUMENT => "bad argument (null pointer or non-finite input)",
+        _ => "unknown status code",
+    }
+}
+
+/// The JSON metadata a plugin returns from `arcwise_plugin_metadata`.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Metadata {
+    /// Must equal the version function's answer.
+    pub abi_version: u32,
+    /// The force's name.
+    pub name: String,
+    /// `ECI` (the only frame of this ABI version).
+    pub frame: String,
+    /// ISO 8601 UTC epoch where the plugin's `t_s = 0`.
+    pub reference_epoch_utc: String,
+    /// `sha256:<hex>` of the learned-force file it was compiled from; `None` when
+    /// hand-written.
+    pub source_checksum: Option<String>,
+    /// Where the force is valid, if it says.
+    pub validity: Option<Validity>,
+    /// Units, for the reader.
+    pub units: Units,
+}
+
+/// A plugin's validity window.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Validity {
+    /// ISO 8601 UTC start.
+    pub start_utc: String,
+    /// ISO 8601 UTC end.
+    pub end_utc: String,
+    /// Lowest altitude, km.
+    pub min_altitude_km: f64,
+    /// Highest altitude, km.
+    pub max_altitude_km: f64,
+    /// What the plugin does outside: `warn`, `zero` or `refuse`.
+    pub outside: String,
+}
+
+/// The units block of the metadata.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Units {
+    /// `s`.
+    pub time: String,
+    /// `km, km/s`.
+    pub state: String,
+    /// `km/s^2`.
+    pub acceleration: String,
+}
+
+impl Default for Units {
+    fn default() -> Self {
+        Self {
+            time: "s".into(),
+            state: "km, km/s".into(),
+            acceleration: "km/s^2".into(),
+        }
+    }
+}
