@@ -1,7 +1,11 @@
 //! # learned_forces
 //!
-//! arcwise's learner: observation arcs, the orbit fit, symbolic residual forces and
-//! learned-force files. It depends on `propagator` and reaches it only through the
-//! `Force` trait. (Built up by the later issues; nothing here yet but the crate.)
+//! arcwise's learner: observation arcs ([`arc`]), the orbit fit and anomaly verdict
+//! ([`fit`]), and simulated scenarios ([`scenario`]). It depends on `propagator` and
+//! reaches the dynamics only through its `Force` and `Dynamics` traits.
+
+pub mod arc;
+pub mod fit;
+pub mod scenario;
 
 pub use propagator;

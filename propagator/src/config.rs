@@ -278,6 +278,40 @@ pub struct DragSpec {
     pub scale: f64,
 }
 
+impl DragSpec {
+    /// The drag force this block describes, for central body `body`.
+    pub fn build(&self, body: &CentralBody) -> Result<Drag, String> {
+        let altitude = match self.altitude {
+            AltitudeKey::Spherical => AltitudeModel::Spherical,
+            AltitudeKey::Geodetic => AltitudeModel::Geodetic,
+        };
+        let atmosphere: Arc<dyn Atmosphere> = match &self.atmosphere {
+            AtmosphereSpec::Exponential(e) => Arc::new(Exponential {
+                rho0_kg_m3: e.rho0_kg_m3,
+                h0_km: e.h0_km,
+                scale_height_km: e.scale_height_km,
+            }),
+            AtmosphereSpec::Table => Arc::new(PiecewiseExponential::handbook()),
+            AtmosphereSpec::Ussa1976 => Arc::new(Ussa1976),
+        };
+        if self.area_m2 / self.mass_kg > 10.0 {
+            return Err(format!(
+                "drag: area/mass = {} m²/kg is implausible (area in m², mass in kg)",
+                self.area_m2 / self.mass_kg
+            ));
+        }
+        Ok(Drag {
+            cd: self.cd,
+            area_m2: self.area_m2,
+            mass_kg: self.mass_kg,
+            scale: self.scale,
+            atmosphere,
+            body: *body,
+            altitude,
+        })
+    }
+}
+
 /// `altitude:` values.
 #[derive(Clone, Copy, Debug, Default, Deserialize, PartialEq, Eq)]
 #[serde(rename_all = "lowercase")]
@@ -373,37 +407,9 @@ impl ForcesFile {
         }
         let mut altitude = AltitudeModel::Spherical;
         if let Some(d) = &self.drag {
-            altitude = match d.altitude {
-                AltitudeKey::Spherical => AltitudeModel::Spherical,
-                AltitudeKey::Geodetic => AltitudeModel::Geodetic,
-            };
-            let atmosphere: Arc<dyn Atmosphere> = match &d.atmosphere {
-                AtmosphereSpec::Exponential(e) => Arc::new(Exponential {
-                    rho0_kg_m3: e.rho0_kg_m3,
-                    h0_km: e.h0_km,
-                    scale_height_km: e.scale_height_km,
-                }),
-                AtmosphereSpec::Table => Arc::new(PiecewiseExponential::handbook()),
-                AtmosphereSpec::Ussa1976 => Arc::new(Ussa1976),
-            };
-            if d.area_m2 / d.mass_kg > 10.0 {
-                return Err(config_error(
-                    path,
-                    format!(
-                        "drag: area/mass = {} m²/kg is implausible (area in m², mass in kg)",
-                        d.area_m2 / d.mass_kg
-                    ),
-                ));
-            }
-            model = model.with(Drag {
-                cd: d.cd,
-                area_m2: d.area_m2,
-                mass_kg: d.mass_kg,
-                scale: d.scale,
-                atmosphere,
-                body,
-                altitude,
-            });
+            let drag = d.build(&body).map_err(|m| config_error(path, m))?;
+            altitude = drag.altitude;
+            model = model.with(drag);
         }
         let clock = CenturyClock::new(&reference);
         let axis = TimeAxis::new(reference);

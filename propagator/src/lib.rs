@@ -26,6 +26,7 @@ pub mod propagation;
 pub mod solar_system;
 pub mod state;
 pub mod time;
+pub mod variational;
 
 pub use body::CentralBody;
 pub use force::{Force, ForceError, ForceModel};

@@ -162,25 +162,76 @@ pub fn propagate(
     options: &Options,
     observer: &mut dyn Observer,
 ) -> Result<Propagated, PropagationError> {
+    let mut sys = OrbitSystem::new(model);
+    let raw = drive(
+        &mut sys,
+        model,
+        request,
+        request.x0.as_slice(),
+        options,
+        observer,
+    )?;
+    let to_state = |y: &[f64]| StateVector::from_column_slice(&y[..6]);
+    Ok(Propagated {
+        maneuvers: raw.maneuvers,
+        samples: raw.samples.iter().map(|(t, y)| (*t, to_state(y))).collect(),
+        termination: raw.termination,
+        final_state: (raw.final_y.0, to_state(&raw.final_y.1)),
+        stats: raw.stats,
+    })
+}
+
+/// What [`drive`] returns: full system vectors (state first) at the output times.
+pub struct DriveResult {
+    /// Impulses applied.
+    pub maneuvers: Vec<AppliedImpulse>,
+    /// `(t_s, y)` at each output time reached.
+    pub samples: Vec<(f64, Vec<f64>)>,
+    /// Completed or decayed.
+    pub termination: Termination,
+    /// `(t_s, y)` at the end.
+    pub final_y: (f64, Vec<f64>),
+    /// Integrator work.
+    pub stats: Stats,
+}
+
+/// The generic driver behind [`propagate`] and the variational equations: integrates
+/// any system whose first six components are the orbit state, splitting at `model`'s
+/// discontinuities and the request's stops, applying `model`'s impulses to the state
+/// part, and ending at the altitude floor. `request.x0` is ignored in favour of `y0`.
+pub fn drive<S: OdeSystem + SegmentAware>(
+    sys: &mut S,
+    model: &ForceModel,
+    request: &Request,
+    y0: &[f64],
+    options: &Options,
+    observer: &mut dyn Observer,
+) -> Result<DriveResult, PropagationError> {
     let Request {
-        x0,
         t0_s,
         t_end_s,
         output_times_s,
         stop_times_s,
+        ..
     } = *request;
-    let x0 = &x0;
     options
         .settings
         .validate()
         .map_err(PropagationError::BadRequest)?;
+    let n = sys.dim();
+    if y0.len() != n || n < 6 {
+        return Err(PropagationError::BadRequest(format!(
+            "initial vector has {} components, the system {n}",
+            y0.len()
+        )));
+    }
     let dir = if t_end_s >= t0_s { 1.0 } else { -1.0 };
     check_times(output_times_s, t0_s, t_end_s, dir, "output")?;
     check_times(stop_times_s, t0_s, t_end_s, dir, "stop")?;
-    if !x0.iter().all(|v| v.is_finite()) {
+    if !y0.iter().all(|v| v.is_finite()) {
         return Err(PropagationError::BadRequest(format!(
             "initial state is not finite: {:?}",
-            x0.as_slice()
+            &y0[..6]
         )));
     }
     let floor = options.altitude_floor_km;
@@ -188,30 +239,29 @@ pub fn propagate(
         let r = nalgebra::Vector3::new(y[0], y[1], y[2]);
         options.altitude.altitude_km(&r, &options.body)
     };
-    let h0 = altitude(x0.as_slice());
+    let h0 = altitude(y0);
     if h0 < floor {
         return Err(PropagationError::BadRequest(format!(
             "initial altitude {h0:.3} km is below the altitude floor {floor} km (is the state inside the Earth, or in metres?)"
         )));
     }
 
-    let mut sys = OrbitSystem::new(model);
-    let mut stepper = AnyStepper::new(&options.settings, 6);
+    let mut stepper = AnyStepper::new(&options.settings, n);
     let mut samples = Vec::with_capacity(output_times_s.len());
     let mut next_out = 0usize;
-    let mut buf = [0.0; 6];
+    let mut buf = vec![0.0; n];
     // Outputs at the start itself.
     while next_out < output_times_s.len() && output_times_s[next_out] == t0_s {
-        samples.push((t0_s, *x0));
+        samples.push((t0_s, y0.to_vec()));
         next_out += 1;
     }
     let mut segment_start = t0_s;
-    let mut y_start = *x0;
+    let mut y_start = y0.to_vec();
     let mut maneuvers = Vec::new();
     // An impulse at the very start (forward) acts on the given state.
     if dir > 0.0 {
         for imp in model.impulses().iter().filter(|i| i.t_s == t0_s) {
-            y_start = apply_impulse(imp, &y_start, dir, &mut maneuvers)?;
+            apply_impulse(imp, &mut y_start, dir, &mut maneuvers)?;
         }
     }
     let mut stops: Vec<f64> = stop_times_s
@@ -224,93 +274,105 @@ pub fn propagate(
     stops.dedup();
     stops.push(t_end_s);
     for &seg_end in &stops {
-        sys.segment = Segment {
+        sys.set_segment(Segment {
             start_s: segment_start.min(seg_end),
             end_s: segment_start.max(seg_end),
-        };
-        stepper.start(&mut sys, segment_start, y_start.as_slice(), seg_end)?;
+        });
+        stepper.start(sys, segment_start, &y_start, seg_end)?;
         while (seg_end - stepper.t()) * dir > 0.0 {
             let t_prev = stepper.t();
-            let t = stepper.step(&mut sys, seg_end)?;
+            let t = stepper.step(sys, seg_end)?;
             observer.on_step(t, t0_s, t_end_s);
             // Altitude floor: locate the crossing on the dense output.
             if altitude(stepper.y()) < floor {
-                let t_hit =
-                    locate_crossing(&mut stepper, &mut sys, t_prev, t, |y| altitude(y) - floor)?;
+                let t_hit = locate_crossing(&mut stepper, sys, t_prev, t, |y| altitude(y) - floor)?;
                 while next_out < output_times_s.len()
                     && (t_hit - output_times_s[next_out]) * dir >= 0.0
                 {
-                    stepper.dense_at(&mut sys, output_times_s[next_out], &mut buf)?;
-                    samples.push((
-                        output_times_s[next_out],
-                        StateVector::from_column_slice(&buf),
-                    ));
+                    stepper.dense_at(sys, output_times_s[next_out], &mut buf)?;
+                    samples.push((output_times_s[next_out], buf.clone()));
                     next_out += 1;
                 }
-                stepper.dense_at(&mut sys, t_hit, &mut buf)?;
-                return Ok(Propagated {
+                stepper.dense_at(sys, t_hit, &mut buf)?;
+                return Ok(DriveResult {
                     maneuvers,
                     samples,
                     termination: Termination::Decayed {
                         t_s: t_hit,
                         floor_km: floor,
                     },
-                    final_state: (t_hit, StateVector::from_column_slice(&buf)),
+                    final_y: (t_hit, buf),
                     stats: stepper.stats(),
                 });
             }
             while next_out < output_times_s.len() && (t - output_times_s[next_out]) * dir >= 0.0 {
                 let to = output_times_s[next_out];
-                let x = if to == t {
-                    StateVector::from_column_slice(stepper.y())
+                if to == t {
+                    samples.push((to, stepper.y().to_vec()));
                 } else {
-                    stepper.dense_at(&mut sys, to, &mut buf)?;
-                    StateVector::from_column_slice(&buf)
-                };
-                samples.push((to, x));
+                    stepper.dense_at(sys, to, &mut buf)?;
+                    samples.push((to, buf.clone()));
+                }
                 next_out += 1;
             }
         }
         segment_start = seg_end;
-        y_start = StateVector::from_column_slice(stepper.y());
+        y_start.copy_from_slice(stepper.y());
         if seg_end != t_end_s {
             for imp in model.impulses().iter().filter(|i| i.t_s == seg_end) {
-                y_start = apply_impulse(imp, &y_start, dir, &mut maneuvers)?;
+                apply_impulse(imp, &mut y_start, dir, &mut maneuvers)?;
             }
         }
     }
-    Ok(Propagated {
+    Ok(DriveResult {
         maneuvers,
         samples,
         termination: Termination::Completed,
-        final_state: (t_end_s, y_start),
+        final_y: (t_end_s, y_start),
         stats: stepper.stats(),
     })
 }
 
+/// Systems that can be told which integration segment they are in (see [`Segment`]).
+pub trait SegmentAware {
+    /// Called before each segment is integrated.
+    fn set_segment(&mut self, segment: Segment);
+}
+
+impl SegmentAware for OrbitSystem<'_> {
+    fn set_segment(&mut self, segment: Segment) {
+        self.segment = segment;
+    }
+}
+
+/// Applies an impulse to the state part (first six components) of `y`. The rest (a
+/// transition matrix, say) is left as it is: the jump's Jacobian is taken as the identity.
 fn apply_impulse(
     imp: &crate::force::maneuver::Impulse,
-    x: &StateVector,
+    y: &mut [f64],
     dir: f64,
     log: &mut Vec<AppliedImpulse>,
-) -> Result<StateVector, PropagationError> {
+) -> Result<(), PropagationError> {
     let undefined = || {
         PropagationError::BadRequest(format!(
             "impulse at t = {} s: the RTN frame is undefined for the state there",
             imp.t_s
         ))
     };
+    let x = StateVector::from_column_slice(&y[..6]);
     let (before, after) = if dir > 0.0 {
-        (*x, imp.apply(x).ok_or_else(undefined)?)
+        (x, imp.apply(&x).ok_or_else(undefined)?)
     } else {
-        (imp.unapply(x).ok_or_else(undefined)?, *x)
+        (imp.unapply(&x).ok_or_else(undefined)?, x)
     };
     log.push(AppliedImpulse {
         t_s: imp.t_s,
         before,
         after,
     });
-    Ok(if dir > 0.0 { after } else { before })
+    let new = if dir > 0.0 { after } else { before };
+    y[..6].copy_from_slice(new.as_slice());
+    Ok(())
 }
 
 fn check_times(
@@ -345,7 +407,7 @@ fn locate_crossing<S: OdeSystem>(
     t_b: f64,
     g: impl Fn(&[f64]) -> f64,
 ) -> Result<f64, IntegrationError> {
-    let mut buf = vec![0.0; 6];
+    let mut buf = vec![0.0; sys.dim()];
     let (mut a, mut b) = (t_a, t_b);
     for _ in 0..200 {
         if (b - a).abs() < 1e-6 {

@@ -53,6 +53,11 @@ impl std::fmt::Display for FileError {
     }
 }
 
+/// A [`FileError`] for `path`, at `line` if known.
+pub fn file_error_at(path: &Path, line: Option<usize>, message: impl Into<String>) -> FileError {
+    file_error(path, line, message)
+}
+
 pub(crate) fn file_error(
     path: &Path,
     line: Option<usize>,

@@ -1,0 +1,677 @@
+//! Orbit determination from an arc: weighted batch least squares (Gauss–Newton with
+//! Levenberg–Marquardt damping) of the initial state and chosen classical parameters,
+//! partials from the variational equations, robust outlier editing, formal covariance,
+//! and the anomaly verdict (χ² and residual structure).
+
+// Dense linear algebra over (row, column) indices reads like the formulas.
+#![allow(clippy::needless_range_loop)]
+
+pub mod model;
+pub mod stats;
+
+use crate::arc::Arc;
+use model::{FitModel, Parameter};
+use nalgebra::{DMatrix, DVector, Vector3};
+use propagator::frames::eci_to_rtn;
+use propagator::integrator::{Method, Settings};
+use propagator::propagation::{Options, Request, Silent};
+use propagator::variational::{propagate_with_partials, VariationalSample};
+use propagator::{Epoch, ForceModel, StateVector};
+
+/// Receives progress of a fit (for a progress display; the numerics ignore it).
+pub trait FitObserver {
+    /// After each accepted iteration: stage (1-based of `stages`), iteration, weighted RMS.
+    fn on_iteration(
+        &mut self,
+        _stage: usize,
+        _stages: usize,
+        _iteration: usize,
+        _weighted_rms: f64,
+    ) {
+    }
+}
+
+/// An observer that ignores everything.
+pub struct QuietFit;
+impl FitObserver for QuietFit {}
+
+/// Options of a fit.
+#[derive(Clone, Debug)]
+pub struct FitOptions {
+    /// Parameters to estimate besides the initial state.
+    pub estimate: Vec<Parameter>,
+    /// Integrator settings for the propagations.
+    pub settings: Settings,
+    /// Most Gauss–Newton iterations per stage.
+    pub max_iterations: usize,
+    /// Observations whose normalized residual exceeds this many (robust) σ are edited.
+    pub edit_sigma: f64,
+    /// Size α of the anomaly test (false-alarm probability when nothing is there).
+    pub alpha: f64,
+    /// Lags of the Ljung–Box test.
+    pub ljung_box_lags: usize,
+    /// Initial state at the first observation; estimated from the data when `None`.
+    pub initial_state: Option<StateVector>,
+    /// Altitude floor for the propagations, km.
+    pub altitude_floor_km: f64,
+}
+
+impl Default for FitOptions {
+    fn default() -> Self {
+        Self {
+            estimate: Vec::new(),
+            settings: Settings {
+                method: Method::Dp853,
+                rtol: 1e-12,
+                atol: 1e-12,
+                ..Settings::default()
+            },
+            max_iterations: 30,
+            edit_sigma: 5.0,
+            alpha: 1e-3,
+            ljung_box_lags: 20,
+            initial_state: None,
+            altitude_floor_km: 80.0,
+        }
+    }
+}
+
+/// Why a fit could not be done.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum FitError {
+    /// The arc or the request cannot support a fit.
+    #[error("{0}")]
+    Unfit(String),
+    /// A propagation failed.
+    #[error("propagation failed during the fit: {0}")]
+    Propagation(String),
+}
+
+/// One observation's residual (observed − computed).
+#[derive(Clone, Debug, PartialEq)]
+pub struct Residual {
+    /// Epoch.
+    pub epoch: Epoch,
+    /// Seconds from the first observation.
+    pub t_s: f64,
+    /// Position residual in RTN of the fitted state, km.
+    pub rtn_km: Vector3<f64>,
+    /// Velocity residual in ECI, km/s, when velocity was observed.
+    pub velocity_km_s: Option<Vector3<f64>>,
+    /// σ of the position, km.
+    pub sigma_km: f64,
+    /// Used in the fit (false: edited out).
+    pub used: bool,
+    /// Why it was edited.
+    pub edit_reason: Option<String>,
+}
+
+/// A fitted parameter.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Estimate {
+    /// Which.
+    pub parameter: Parameter,
+    /// Value.
+    pub value: f64,
+    /// Formal 1σ.
+    pub sigma: f64,
+}
+
+/// The Ljung–Box test on one residual component.
+#[derive(Clone, Debug, PartialEq)]
+pub struct StructureTest {
+    /// `R`, `T` or `N`.
+    pub component: &'static str,
+    /// Q statistic.
+    pub q: f64,
+    /// Lags (the χ² degrees of freedom of Q).
+    pub lags: usize,
+    /// p-value.
+    pub p_value: f64,
+}
+
+/// The anomaly verdict and the numbers behind it.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Verdict {
+    /// True when the residuals are not consistent with noise.
+    pub anomaly: bool,
+    /// Weighted sum of squared residuals.
+    pub chi2: f64,
+    /// Degrees of freedom (observations − estimated quantities).
+    pub dof: usize,
+    /// P(χ² ≥ observed) under the noise model.
+    pub p_value: f64,
+    /// Residual structure per RTN component.
+    pub structure: Vec<StructureTest>,
+    /// Test size; each of the four tests is run at α/4 (Bonferroni).
+    pub alpha: f64,
+    /// Sentences saying which tests failed.
+    pub reasons: Vec<String>,
+}
+
+/// The outcome of a fit.
+#[derive(Clone, Debug)]
+pub struct FitResult {
+    /// Epoch of the first observation (the fit's `t_s = 0`).
+    pub epoch0: Epoch,
+    /// Fitted state at the first observation.
+    pub x0: StateVector,
+    /// Formal 1σ of the six state components (km, km/s).
+    pub x0_sigma: [f64; 6],
+    /// Epoch of the last observation.
+    pub epoch_last: Epoch,
+    /// Fitted state at the last observation.
+    pub x_last: StateVector,
+    /// Fitted parameters.
+    pub estimates: Vec<Estimate>,
+    /// Formal covariance of (x0, parameters).
+    pub covariance: DMatrix<f64>,
+    /// Residuals of every observation.
+    pub residuals: Vec<Residual>,
+    /// RMS of the 3-D position residuals of the used observations, km.
+    pub rms_km: f64,
+    /// Observations edited out.
+    pub edited: usize,
+    /// Gauss–Newton iterations in all.
+    pub iterations: usize,
+    /// Whether the last stage converged.
+    pub converged: bool,
+    /// The verdict.
+    pub verdict: Verdict,
+}
+
+struct Linearized {
+    cost: f64,
+    jac: DMatrix<f64>,
+    z: DVector<f64>,
+    samples: Vec<VariationalSample>,
+}
+
+struct Problem<'a> {
+    arc: &'a Arc,
+    t: Vec<f64>,
+    options: &'a FitOptions,
+}
+
+impl Problem<'_> {
+    fn propagate(
+        &self,
+        fm: &FitModel,
+        x0: &StateVector,
+        last: usize,
+    ) -> Result<Vec<VariationalSample>, FitError> {
+        let options = Options {
+            settings: self.options.settings,
+            altitude_floor_km: self.options.altitude_floor_km,
+            ..Options::default()
+        };
+        let times = &self.t[..=last];
+        let req = Request {
+            x0: *x0,
+            t0_s: 0.0,
+            t_end_s: times[times.len() - 1].max(1e-9),
+            output_times_s: times,
+            stop_times_s: &[],
+        };
+        propagate_with_partials(fm, &req, &options, &mut Silent)
+            .map_err(|e| FitError::Propagation(e.to_string()))
+    }
+
+    /// Residuals and Jacobian over observations `0..=last` that are `used`.
+    fn linearize(
+        &self,
+        fm: &FitModel,
+        x0: &StateVector,
+        last: usize,
+        used: &[bool],
+        n_est: usize,
+    ) -> Result<Linearized, FitError> {
+        let samples = self.propagate(fm, x0, last)?;
+        let rows: usize = (0..=last)
+            .filter(|&i| used[i])
+            .map(|i| {
+                if self.arc.observations[i].v_km_s.is_some() {
+                    6
+                } else {
+                    3
+                }
+            })
+            .sum();
+        let mut jac = DMatrix::zeros(rows, n_est);
+        let mut z = DVector::zeros(rows);
+        let mut row = 0;
+        for (i, s) in samples.iter().enumerate() {
+            if !used[i] {
+                continue;
+            }
+            let o = &self.arc.observations[i];
+            let comps = if o.v_km_s.is_some() { 6 } else { 3 };
+            for c in 0..comps {
+                let (obs, sig) = if c < 3 {
+                    (o.r_km[c], o.sigma_km)
+                } else {
+                    (o.v_km_s.unwrap_or_default()[c - 3], o.sigma_km_s)
+                };
+                z[row] = (obs - s.state[c]) / sig;
+                for j in 0..6 {
+                    jac[(row, j)] = s.phi[(c, j)] / sig;
+                }
+                for k in 6..n_est {
+                    jac[(row, k)] = s.sensitivity[(c, k - 6)] / sig;
+                }
+                row += 1;
+            }
+        }
+        let cost = z.norm_squared();
+        if !cost.is_finite() {
+            return Err(FitError::Propagation("non-finite residuals".into()));
+        }
+        Ok(Linearized {
+            cost,
+            jac,
+            z,
+            samples,
+        })
+    }
+}
+
+/// Solves the damped normal equations by SVD of the column-scaled, augmented system.
+fn damped_step(jac: &DMatrix<f64>, z: &DVector<f64>, lambda: f64) -> Option<DVector<f64>> {
+    let n = jac.ncols();
+    let scale: Vec<f64> = (0..n).map(|j| jac.column(j).norm().max(1e-300)).collect();
+    let mut a = DMatrix::zeros(jac.nrows() + n, n);
+    for j in 0..n {
+        for i in 0..jac.nrows() {
+            a[(i, j)] = jac[(i, j)] / scale[j];
+        }
+        a[(jac.nrows() + j, j)] = lambda.sqrt();
+    }
+    let mut b = DVector::zeros(jac.nrows() + n);
+    b.rows_mut(0, jac.nrows()).copy_from(z);
+    let svd = a.svd(true, true);
+    let y = svd.solve(&b, 1e-14).ok()?;
+    Some(DVector::from_iterator(n, (0..n).map(|j| y[j] / scale[j])))
+}
+
+/// Rank and covariance (JᵀJ)⁻¹ of a weighted Jacobian, by SVD of the column-scaled J.
+fn covariance(jac: &DMatrix<f64>) -> (usize, DMatrix<f64>) {
+    let n = jac.ncols();
+    let scale: Vec<f64> = (0..n).map(|j| jac.column(j).norm().max(1e-300)).collect();
+    let mut a = jac.clone();
+    for j in 0..n {
+        a.column_mut(j).scale_mut(1.0 / scale[j]);
+    }
+    let svd = a.svd(false, true);
+    let smax = svd.singular_values.max();
+    let rank = svd
+        .singular_values
+        .iter()
+        .filter(|&&s| s > 1e-10 * smax)
+        .count();
+    let v_t = svd.v_t.expect("v_t requested");
+    let mut cov = DMatrix::zeros(n, n);
+    for (k, &s) in svd.singular_values.iter().enumerate() {
+        if s > 1e-10 * smax {
+            let v = v_t.row(k).transpose();
+            cov += (&v * v.transpose()) / (s * s);
+        }
+    }
+    for i in 0..n {
+        for j in 0..n {
+            cov[(i, j)] /= scale[i] * scale[j];
+        }
+    }
+    (rank, cov)
+}
+
+/// A starting state from the data: the first observed velocity, or a polynomial fit
+/// of the first positions (at most 15, within 600 s).
+fn initial_guess(arc: &Arc, t: &[f64]) -> Result<StateVector, FitError> {
+    let o0 = &arc.observations[0];
+    if let Some(v) = o0.v_km_s {
+        return Ok(StateVector::new(
+            o0.r_km[0], o0.r_km[1], o0.r_km[2], v[0], v[1], v[2],
+        ));
+    }
+    let k = t
+        .iter()
+        .take(15)
+        .take_while(|&&ti| ti <= 600.0)
+        .count()
+        .max(3.min(t.len()));
+    if k < 3 {
+        return Err(FitError::Unfit(
+            "a position-only arc needs at least 3 observations to start the fit".into(),
+        ));
+    }
+    let deg = (k - 1).min(3);
+    let mut a = DMatrix::zeros(k, deg + 1);
+    for i in 0..k {
+        for d in 0..=deg {
+            a[(i, d)] = t[i].powi(d as i32);
+        }
+    }
+    let svd = a.svd(true, true);
+    let mut x = StateVector::zeros();
+    for c in 0..3 {
+        let b = DVector::from_iterator(k, (0..k).map(|i| arc.observations[i].r_km[c]));
+        let coef = svd
+            .solve(&b, 1e-14)
+            .map_err(|e| FitError::Unfit(e.to_string()))?;
+        x[c] = coef[0];
+        x[c + 3] = if deg >= 1 { coef[1] } else { 0.0 };
+    }
+    Ok(x)
+}
+
+/// Fits `arc` with `model` (whose time axis must start at the arc's first epoch).
+pub fn fit(
+    arc: &Arc,
+    model: ForceModel,
+    options: &FitOptions,
+    observer: &mut dyn FitObserver,
+) -> Result<FitResult, FitError> {
+    let n_obs = arc.observations.len();
+    let epoch0 = arc.start();
+    let t: Vec<f64> = arc
+        .observations
+        .iter()
+        .map(|o| o.epoch.seconds_since(&epoch0))
+        .collect();
+    let n_params = options.estimate.len();
+    let n_est = 6 + n_params;
+    let n_meas: usize = arc
+        .observations
+        .iter()
+        .map(|o| if o.v_km_s.is_some() { 6 } else { 3 })
+        .sum();
+    if n_meas <= n_est {
+        return Err(FitError::Unfit(format!(
+            "the arc has {n_obs} observations ({n_meas} measurements), too few to estimate {n_est} quantities"
+        )));
+    }
+    let problem = Problem {
+        arc,
+        t: t.clone(),
+        options,
+    };
+    let mut fm = FitModel::new(model, options.estimate.clone()).map_err(FitError::Unfit)?;
+    let mut x0 = match options.initial_state {
+        Some(x) => x,
+        None => initial_guess(arc, &t)?,
+    };
+    let span = t[n_obs - 1];
+    // Stages over a growing part of the arc, so a rough start converges; parameters
+    // join in the last stage only.
+    let mut stage_ends: Vec<usize> = Vec::new();
+    if options.initial_state.is_none() {
+        for frac in [1.0 / 16.0, 0.25] {
+            let last = t.iter().rposition(|&ti| ti <= frac * span).unwrap_or(0);
+            if last + 1 >= 8 && last + 1 < n_obs && stage_ends.last() != Some(&last) {
+                stage_ends.push(last);
+            }
+        }
+    }
+    stage_ends.push(n_obs - 1);
+    let stages = stage_ends.len();
+    let mut used = vec![true; n_obs];
+    let mut reasons: Vec<Option<String>> = vec![None; n_obs];
+    let mut iterations = 0;
+    let mut converged = false;
+    let mut lin = None;
+    for (si, &last) in stage_ends.iter().enumerate() {
+        let final_stage = si + 1 == stages;
+        let n_here = if final_stage { n_est } else { 6 };
+        if !final_stage {
+            fm.parameters.clear();
+            fm.values.clear();
+        } else {
+            fm.parameters = options.estimate.clone();
+            if fm.values.len() != fm.parameters.len() {
+                fm.values = fm.parameters.iter().map(|p| p.initial_value()).collect();
+            }
+        }
+        let mut edit_passes = 0;
+        loop {
+            let (l, it, conv) = solve_stage(
+                &problem,
+                &mut fm,
+                &mut x0,
+                last,
+                &used,
+                n_here,
+                si + 1,
+                stages,
+                observer,
+            )?;
+            iterations += it;
+            converged = conv;
+            if !final_stage {
+                break;
+            }
+            // Robust editing on the final stage.
+            let new_edits = edit(&problem, &l, &mut used, &mut reasons, options.edit_sigma);
+            lin = Some(l);
+            edit_passes += 1;
+            if new_edits == 0 || edit_passes >= 5 {
+                break;
+            }
+        }
+    }
+    let lin = lin.expect("the final stage ran");
+    let (rank, cov) = covariance(&lin.jac);
+    if rank < n_est {
+        return Err(FitError::Unfit(format!(
+            "the arc does not determine the orbit: rank {rank} of {n_est} (arc too short, too few observations, or a parameter with no effect)"
+        )));
+    }
+    // Residuals of every observation (edited ones too) from the final solution.
+    let samples = &lin.samples;
+    let mut residuals = Vec::with_capacity(n_obs);
+    let (mut sum_sq, mut n_used) = (0.0, 0usize);
+    for (i, s) in samples.iter().enumerate() {
+        let o = &arc.observations[i];
+        let r = Vector3::new(s.state[0], s.state[1], s.state[2]);
+        let v = Vector3::new(s.state[3], s.state[4], s.state[5]);
+        let d = o.r_km - r;
+        let rtn = eci_to_rtn(&r, &v).map(|m| m * d).unwrap_or(d);
+        if used[i] {
+            sum_sq += d.norm_squared();
+            n_used += 1;
+        }
+        residuals.push(Residual {
+            epoch: o.epoch,
+            t_s: t[i],
+            rtn_km: rtn,
+            velocity_km_s: o.v_km_s.map(|ov| ov - v),
+            sigma_km: o.sigma_km,
+            used: used[i],
+            edit_reason: reasons[i].clone(),
+        });
+    }
+    let rms_km = (sum_sq / n_used.max(1) as f64).sqrt();
+    let dof = lin.z.len().saturating_sub(n_est);
+    let verdict = verdict(&lin.z, dof, &residuals, options);
+    let estimates = options
+        .estimate
+        .iter()
+        .enumerate()
+        .map(|(k, p)| Estimate {
+            parameter: *p,
+            value: fm.values[k],
+            sigma: cov[(6 + k, 6 + k)].sqrt(),
+        })
+        .collect();
+    let mut x0_sigma = [0.0; 6];
+    for (i, s) in x0_sigma.iter_mut().enumerate() {
+        *s = cov[(i, i)].sqrt();
+    }
+    let last = samples.last().map(|s| s.state).unwrap_or(x0);
+    Ok(FitResult {
+        epoch0,
+        x0,
+        x0_sigma,
+        epoch_last: arc.end(),
+        x_last: last,
+        estimates,
+        covariance: cov,
+        residuals,
+        rms_km,
+        edited: used.iter().filter(|u| !**u).count(),
+        iterations,
+        converged,
+        verdict,
+    })
+}
+
+#[allow(clippy::too_many_arguments)]
+fn solve_stage(
+    problem: &Problem,
+    fm: &mut FitModel,
+    x0: &mut StateVector,
+    last: usize,
+    used: &[bool],
+    n_est: usize,
+    stage: usize,
+    stages: usize,
+    observer: &mut dyn FitObserver,
+) -> Result<(Linearized, usize, bool), FitError> {
+    let mut lin = problem.linearize(fm, x0, last, used, n_est)?;
+    let mut lambda = 1e-6;
+    let mut converged = false;
+    let mut it = 0;
+    while it < problem.options.max_iterations {
+        it += 1;
+        let mut accepted = false;
+        for _ in 0..12 {
+            let Some(delta) = damped_step(&lin.jac, &lin.z, lambda) else {
+                lambda *= 10.0;
+                continue;
+            };
+            let mut x_try = *x0;
+            for j in 0..6 {
+                x_try[j] += delta[j];
+            }
+            let saved = fm.values.clone();
+            for k in 6..n_est {
+                fm.values[k - 6] += delta[k];
+            }
+            match problem.linearize(fm, &x_try, last, used, n_est) {
+                Ok(l) if l.cost <= lin.cost => {
+                    let improvement = (lin.cost - l.cost) / lin.cost.max(1e-300);
+                    // Converged when the step is tiny against the formal uncertainty.
+                    let (_, cov) = covariance(&l.jac);
+                    let step_sigma = (0..n_est)
+                        .map(|j| (delta[j] / cov[(j, j)].sqrt().max(1e-300)).abs())
+                        .fold(0.0, f64::max);
+                    *x0 = x_try;
+                    lin = l;
+                    lambda = (lambda / 10.0).max(1e-12);
+                    accepted = true;
+                    let rms = (lin.cost / lin.z.len().max(1) as f64).sqrt();
+                    observer.on_iteration(stage, stages, it, rms);
+                    if step_sigma < 1e-4 || improvement < 1e-12 {
+                        converged = true;
+                    }
+                    break;
+                }
+                _ => {
+                    fm.values = saved;
+                    lambda *= 10.0;
+                }
+            }
+        }
+        if !accepted {
+            // No downhill step at any damping: at the minimum to numerical precision.
+            converged = lin.cost.is_finite();
+            break;
+        }
+        if converged {
+            break;
+        }
+    }
+    Ok((lin, it, converged))
+}
+
+/// Edits observations beyond `k` robust σ; returns how many were newly edited.
+fn edit(
+    problem: &Problem,
+    lin: &Linearized,
+    used: &mut [bool],
+    reasons: &mut [Option<String>],
+    k: f64,
+) -> usize {
+    // Normalized residual per observation: the largest component |r|/σ.
+    let mut norm = vec![0.0; used.len()];
+    let mut all = Vec::new();
+    for (i, s) in lin.samples.iter().enumerate() {
+        let o = &problem.arc.observations[i];
+        let d = o.r_km - Vector3::new(s.state[0], s.state[1], s.state[2]);
+        let q = d.iter().map(|c| (c / o.sigma_km).abs()).fold(0.0, f64::max);
+        norm[i] = q;
+        if used[i] {
+            all.extend(d.iter().map(|c| (c / o.sigma_km).abs()));
+        }
+    }
+    all.sort_by(|a, b| a.total_cmp(b));
+    let median = all.get(all.len() / 2).copied().unwrap_or(0.0);
+    let scale = (1.4826 * median).max(1.0);
+    let threshold = k * scale;
+    let mut new = 0;
+    let max_edits = used.len() / 5;
+    let mut edited = used.iter().filter(|u| !**u).count();
+    for i in 0..used.len() {
+        if used[i] && norm[i] > threshold && edited < max_edits {
+            used[i] = false;
+            reasons[i] = Some(format!(
+                "residual {:.1}σ above the {:.1}σ editing threshold",
+                norm[i], threshold
+            ));
+            new += 1;
+            edited += 1;
+        }
+    }
+    new
+}
+
+fn verdict(z: &DVector<f64>, dof: usize, residuals: &[Residual], options: &FitOptions) -> Verdict {
+    let chi2 = z.norm_squared();
+    let p_value = stats::chi2_sf(chi2, dof.max(1) as f64);
+    let per_test = options.alpha / 4.0;
+    let mut reasons = Vec::new();
+    if p_value < per_test {
+        reasons.push(format!(
+            "χ² = {chi2:.1} on {dof} degrees of freedom (p = {p_value:.2e}): the residuals are larger than the stated noise"
+        ));
+    }
+    let mut structure = Vec::new();
+    for (c, name) in ["R", "T", "N"].iter().enumerate() {
+        let series: Vec<f64> = residuals
+            .iter()
+            .filter(|r| r.used)
+            .map(|r| r.rtn_km[c] / r.sigma_km)
+            .collect();
+        let (q, p) = stats::ljung_box(&series, options.ljung_box_lags);
+        if p < per_test {
+            reasons.push(format!(
+                "{name} residuals are correlated in time (Ljung–Box Q = {q:.1} on {} lags, p = {p:.2e})",
+                options.ljung_box_lags
+            ));
+        }
+        structure.push(StructureTest {
+            component: name,
+            q,
+            lags: options.ljung_box_lags,
+            p_value: p,
+        });
+    }
+    Verdict {
+        anomaly: !reasons.is_empty(),
+        chi2,
+        dof,
+        p_value,
+        structure,
+        alpha: options.alpha,
+        reasons,
+    }
+}

@@ -1,0 +1,489 @@
+//! Simulated scenarios: an invented object, its true forces (the known model plus an
+//! unmodelled extra), a tracking schedule and noise → a training arc, the next arc and
+//! the truth ephemeris. For demos and tests; real arcs come from tracking.
+
+use crate::arc::{Arc, Observation};
+use nalgebra::Vector3;
+use propagator::config::{ForcesFile, InitialState, ManeuverSpec, StateFile};
+use propagator::ephemeris::{Ephemeris, EphemerisPoint};
+use propagator::force::drag::Drag;
+use propagator::force::{Force, ForceError, Segment};
+use propagator::frames::eci_to_rtn;
+use propagator::integrator::{Method, Settings};
+use propagator::propagation::{output_grid, propagate, Options, Request, Silent, Termination};
+use propagator::{Epoch, ForceModel, StateVector, TimeAxis};
+use rand_chacha::ChaCha8Rng;
+use rand_core::{Rng, SeedableRng};
+use serde::Deserialize;
+use std::path::Path;
+
+/// A scenario file that is wrong, with the file named.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("{file}: {message}")]
+pub struct ScenarioError {
+    /// The file.
+    pub file: String,
+    /// What is wrong.
+    pub message: String,
+}
+
+/// The contents of a scenario file.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ScenarioSpec {
+    /// Invented object name.
+    pub object_name: String,
+    /// Epoch of the initial state, ISO 8601 UTC.
+    pub epoch_utc: String,
+    /// `r_km` + `v_km_s`, or `elements`, as in a state file.
+    pub initial: serde_yaml::Value,
+    /// The known force model (written out as `forces.yaml`).
+    pub forces: serde_yaml::Value,
+    /// What acts besides the known forces.
+    #[serde(default, with = "serde_yaml::with::singleton_map_recursive")]
+    pub truth: Vec<TruthTerm>,
+    /// Sampling, noise and seed.
+    pub tracking: Tracking,
+}
+
+/// An unmodelled force of the truth.
+#[derive(Clone, Debug, Deserialize, PartialEq)]
+#[serde(rename_all = "snake_case")]
+pub enum TruthTerm {
+    /// An RTN push decaying exponentially from a start epoch (venting gas).
+    DecayingPush {
+        /// Start, ISO 8601 UTC.
+        start_utc: String,
+        /// Acceleration at the start, RTN, km/s².
+        accel_rtn_km_s2: [f64; 3],
+        /// e-folding time, s.
+        time_constant_s: f64,
+    },
+    /// Drag multiplied by 1 + (peak_factor − 1)·exp(−((t − peak)/width)²) (a storm).
+    DensityBump {
+        /// Time of the peak, ISO 8601 UTC.
+        peak_utc: String,
+        /// Gaussian width, s.
+        width_s: f64,
+        /// Drag multiplier at the peak.
+        peak_factor: f64,
+    },
+    /// Drag multiplied by a constant factor (the atmosphere denser than modelled).
+    DragFactor {
+        /// The multiplier.
+        factor: f64,
+    },
+    /// A once-per-revolution RTN acceleration A·cos(u + phase), u the argument of latitude.
+    OncePerRev {
+        /// Amplitudes along R, T, N, km/s².
+        amplitude_rtn_km_s2: [f64; 3],
+        /// Phase, deg.
+        phase_deg: f64,
+    },
+    /// A maneuver (`impulsive` or `finite`, as in forces.yaml).
+    Maneuver(ManeuverSpec),
+}
+
+/// Tracking schedule and noise.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Tracking {
+    /// Length of the training arc, days.
+    pub train_days: f64,
+    /// Length of the next arc, days.
+    pub next_days: f64,
+    /// Sampling interval, s.
+    pub step_s: f64,
+    /// Length of a tracking pass, s (0 = continuous tracking).
+    #[serde(default)]
+    pub pass_s: f64,
+    /// Gap between passes, s.
+    #[serde(default)]
+    pub gap_s: f64,
+    /// 1σ position noise per axis, km.
+    pub sigma_km: f64,
+    /// Also observe velocity (with `sigma_km_s`).
+    #[serde(default)]
+    pub velocity: bool,
+    /// 1σ velocity noise per axis, km/s.
+    #[serde(default = "default_sigma_v")]
+    pub sigma_km_s: f64,
+    /// Seed of the noise.
+    #[serde(default)]
+    pub seed: u64,
+}
+
+fn default_sigma_v() -> f64 {
+    1e-5
+}
+
+/// What a simulation produces.
+pub struct Simulated {
+    /// Training arc.
+    pub train: Arc,
+    /// The arc after it.
+    pub next: Arc,
+    /// Truth at every sampling step over both arcs.
+    pub truth: Ephemeris,
+    /// The known forces, as YAML text for `forces.yaml`.
+    pub forces_yaml: String,
+    /// The initial condition.
+    pub initial: InitialState,
+    /// Whether the truth decayed inside the span.
+    pub decayed: bool,
+}
+
+/// The initial state and the known and true force models of a scenario.
+pub struct ScenarioModels {
+    /// Initial condition.
+    pub initial: InitialState,
+    /// The known model (what `forces.yaml` says), on the time axis of the initial epoch.
+    pub known: ForcesFile,
+    /// The truth: known + extras.
+    pub truth: ForceModel,
+    /// The known forces as YAML.
+    pub forces_yaml: String,
+}
+
+/// An RTN acceleration in ECI at state `x`.
+fn rtn_to_eci(
+    x: &StateVector,
+    a: Vector3<f64>,
+    t_s: f64,
+    name: &str,
+) -> Result<Vector3<f64>, ForceError> {
+    let r = Vector3::new(x[0], x[1], x[2]);
+    let v = Vector3::new(x[3], x[4], x[5]);
+    eci_to_rtn(&r, &v)
+        .map(|m| m.transpose() * a)
+        .ok_or_else(|| ForceError {
+            force: name.into(),
+            t_s,
+            reason: "RTN undefined".into(),
+        })
+}
+
+/// Decaying RTN push (truth only).
+pub struct DecayingPush {
+    /// Start, s on the axis.
+    pub start_s: f64,
+    /// RTN acceleration at the start, km/s².
+    pub accel_rtn_km_s2: Vector3<f64>,
+    /// e-folding time, s.
+    pub time_constant_s: f64,
+}
+
+impl Force for DecayingPush {
+    fn name(&self) -> &str {
+        "truth_decaying_push"
+    }
+    fn acceleration(&self, t_s: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
+        if t_s < self.start_s {
+            return Ok(Vector3::zeros());
+        }
+        let k = (-(t_s - self.start_s) / self.time_constant_s).exp();
+        rtn_to_eci(x, self.accel_rtn_km_s2 * k, t_s, self.name())
+    }
+    fn acceleration_in(
+        &self,
+        t_s: f64,
+        x: &StateVector,
+        seg: Segment,
+    ) -> Result<Vector3<f64>, ForceError> {
+        if 0.5 * (seg.start_s + seg.end_s) < self.start_s {
+            return Ok(Vector3::zeros());
+        }
+        let k = (-(t_s - self.start_s) / self.time_constant_s).exp();
+        rtn_to_eci(x, self.accel_rtn_km_s2 * k, t_s, self.name())
+    }
+    fn discontinuities_s(&self) -> Vec<f64> {
+        vec![self.start_s]
+    }
+}
+
+/// Extra drag (factor(t) − 1)·drag (truth only).
+pub struct ExtraDrag {
+    /// The modelled drag.
+    pub drag: Drag,
+    /// Peak time, s (ignored when `width_s` is infinite).
+    pub peak_s: f64,
+    /// Gaussian width, s (infinite: a constant factor).
+    pub width_s: f64,
+    /// Multiplier at the peak.
+    pub peak_factor: f64,
+}
+
+impl Force for ExtraDrag {
+    fn name(&self) -> &str {
+        "truth_extra_drag"
+    }
+    fn acceleration(&self, t_s: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
+        let shape = if self.width_s.is_finite() {
+            (-((t_s - self.peak_s) / self.width_s).powi(2)).exp()
+        } else {
+            1.0
+        };
+        Ok(self.drag.acceleration(t_s, x)? * ((self.peak_factor - 1.0) * shape))
+    }
+}
+
+/// Once-per-revolution RTN acceleration (truth only).
+pub struct OncePerRev {
+    /// Amplitudes, km/s².
+    pub amplitude_rtn_km_s2: Vector3<f64>,
+    /// Phase, rad.
+    pub phase_rad: f64,
+}
+
+impl Force for OncePerRev {
+    fn name(&self) -> &str {
+        "truth_once_per_rev"
+    }
+    fn acceleration(&self, t_s: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
+        let u = crate::fit::model::argument_of_latitude(x);
+        rtn_to_eci(
+            x,
+            self.amplitude_rtn_km_s2 * (u + self.phase_rad).cos(),
+            t_s,
+            self.name(),
+        )
+    }
+}
+
+impl ScenarioSpec {
+    /// Reads a scenario file.
+    pub fn load(path: &Path) -> Result<ScenarioSpec, ScenarioError> {
+        let err = |m: String| ScenarioError {
+            file: path.display().to_string(),
+            message: m,
+        };
+        let text = std::fs::read_to_string(path).map_err(|e| err(format!("cannot read: {e}")))?;
+        Self::parse(&text, path)
+    }
+
+    /// Parses scenario text; `path` names it in messages.
+    pub fn parse(text: &str, path: &Path) -> Result<ScenarioSpec, ScenarioError> {
+        let err = |m: String| ScenarioError {
+            file: path.display().to_string(),
+            message: m,
+        };
+        if text.trim().is_empty() {
+            return Err(err("the file is empty".into()));
+        }
+        let s: ScenarioSpec = serde_yaml::from_str(text).map_err(|e| err(e.to_string()))?;
+        let t = &s.tracking;
+        for (name, v, ok) in [
+            (
+                "tracking.train_days",
+                t.train_days,
+                t.train_days > 0.0 && t.train_days <= 60.0,
+            ),
+            (
+                "tracking.next_days",
+                t.next_days,
+                t.next_days >= 0.0 && t.next_days <= 60.0,
+            ),
+            ("tracking.step_s", t.step_s, t.step_s >= 0.1),
+            ("tracking.pass_s", t.pass_s, t.pass_s >= 0.0),
+            ("tracking.gap_s", t.gap_s, t.gap_s >= 0.0),
+            (
+                "tracking.sigma_km",
+                t.sigma_km,
+                t.sigma_km >= 0.0 && t.sigma_km < 100.0,
+            ),
+            ("tracking.sigma_km_s", t.sigma_km_s, t.sigma_km_s >= 0.0),
+        ] {
+            if !(v.is_finite() && ok) {
+                return Err(err(format!("{name} = {v} is out of range")));
+            }
+        }
+        Ok(s)
+    }
+
+    /// Builds the initial state and the known and true models.
+    pub fn models(&self, path: &Path) -> Result<ScenarioModels, ScenarioError> {
+        let err = |m: String| ScenarioError {
+            file: path.display().to_string(),
+            message: m,
+        };
+        let forces_yaml = serde_yaml::to_string(&self.forces).map_err(|e| err(e.to_string()))?;
+        let known =
+            ForcesFile::parse(&forces_yaml, Path::new("forces")).map_err(|e| err(e.to_string()))?;
+        let mut state_map = match &self.initial {
+            serde_yaml::Value::Mapping(m) => m.clone(),
+            _ => return Err(err("initial: expected r_km + v_km_s or elements".into())),
+        };
+        state_map.insert("epoch_utc".into(), self.epoch_utc.clone().into());
+        state_map.insert("object_name".into(), self.object_name.clone().into());
+        let state_text = serde_yaml::to_string(&state_map).map_err(|e| err(e.to_string()))?;
+        let initial = StateFile::parse(&state_text, Path::new("initial"), &known.central_body)
+            .map_err(|e| err(e.to_string()))?;
+        let axis = TimeAxis::new(initial.epoch);
+        // The truth: the known forces, their maneuvers plus the truth's, and the extras.
+        let mut truth_spec = known.clone();
+        for t in &self.truth {
+            if let TruthTerm::Maneuver(m) = t {
+                truth_spec.maneuvers.push(m.clone());
+            }
+        }
+        let mut truth = truth_spec
+            .build(Path::new("forces"), initial.epoch)
+            .map_err(|e| err(e.to_string()))?
+            .model;
+        let parse_epoch =
+            |s: &str, key: &str| Epoch::parse_utc(s).map_err(|e| err(format!("truth.{key}: {e}")));
+        for t in &self.truth {
+            match t {
+                TruthTerm::DecayingPush {
+                    start_utc,
+                    accel_rtn_km_s2,
+                    time_constant_s,
+                } => {
+                    if !(time_constant_s.is_finite() && *time_constant_s > 0.0) {
+                        return Err(err(
+                            "truth.decaying_push.time_constant_s must be positive".into()
+                        ));
+                    }
+                    truth.push(Box::new(DecayingPush {
+                        start_s: axis.seconds(&parse_epoch(start_utc, "decaying_push.start_utc")?),
+                        accel_rtn_km_s2: Vector3::from(*accel_rtn_km_s2),
+                        time_constant_s: *time_constant_s,
+                    }));
+                }
+                TruthTerm::DensityBump {
+                    peak_utc,
+                    width_s,
+                    peak_factor,
+                } => {
+                    let drag = known
+                        .drag
+                        .as_ref()
+                        .ok_or_else(|| err("truth.density_bump needs drag in forces".into()))?
+                        .build(&known.central_body)
+                        .map_err(err)?;
+                    truth.push(Box::new(ExtraDrag {
+                        drag,
+                        peak_s: axis.seconds(&parse_epoch(peak_utc, "density_bump.peak_utc")?),
+                        width_s: *width_s,
+                        peak_factor: *peak_factor,
+                    }));
+                }
+                TruthTerm::DragFactor { factor } => {
+                    let drag = known
+                        .drag
+                        .as_ref()
+                        .ok_or_else(|| err("truth.drag_factor needs drag in forces".into()))?
+                        .build(&known.central_body)
+                        .map_err(err)?;
+                    truth.push(Box::new(ExtraDrag {
+                        drag,
+                        peak_s: 0.0,
+                        width_s: f64::INFINITY,
+                        peak_factor: *factor,
+                    }));
+                }
+                TruthTerm::OncePerRev {
+                    amplitude_rtn_km_s2,
+                    phase_deg,
+                } => truth.push(Box::new(OncePerRev {
+                    amplitude_rtn_km_s2: Vector3::from(*amplitude_rtn_km_s2),
+                    phase_rad: phase_deg.to_radians(),
+                })),
+                TruthTerm::Maneuver(_) => {}
+            }
+        }
+        Ok(ScenarioModels {
+            initial,
+            known,
+            truth,
+            forces_yaml,
+        })
+    }
+
+    /// Runs the scenario: truth propagation, sampling, noise.
+    pub fn simulate(&self, path: &Path) -> Result<Simulated, ScenarioError> {
+        let err = |m: String| ScenarioError {
+            file: path.display().to_string(),
+            message: m,
+        };
+        let m = self.models(path)?;
+        let t = &self.tracking;
+        let train_end = t.train_days * 86400.0;
+        let end = train_end + t.next_days * 86400.0;
+        let grid = output_grid(0.0, end, t.step_s);
+        let options = Options {
+            settings: Settings {
+                method: Method::Dp853,
+                rtol: 1e-13,
+                atol: 1e-13,
+                ..Settings::default()
+            },
+            body: m.known.central_body,
+            ..Options::default()
+        };
+        let req = Request {
+            x0: m.initial.state,
+            t0_s: 0.0,
+            t_end_s: end,
+            output_times_s: &grid,
+            stop_times_s: &[],
+        };
+        let p = propagate(&m.truth, &req, &options, &mut Silent)
+            .map_err(|e| err(format!("truth propagation failed: {e}")))?;
+        let axis = TimeAxis::new(m.initial.epoch);
+        let mut rng = ChaCha8Rng::seed_from_u64(t.seed);
+        let mut gauss = move || {
+            // Box–Muller from two uniform doubles in (0, 1].
+            let u1 = ((rng.next_u64() >> 11) as f64 + 1.0) / (1u64 << 53) as f64;
+            let u2 = (rng.next_u64() >> 11) as f64 / (1u64 << 53) as f64;
+            (-2.0 * u1.ln()).sqrt() * (std::f64::consts::TAU * u2).cos()
+        };
+        let tracked = |ts: f64| t.pass_s <= 0.0 || ts.rem_euclid(t.pass_s + t.gap_s) < t.pass_s;
+        let (mut train, mut next) = (Arc::default(), Arc::default());
+        let mut truth = Ephemeris {
+            object_name: self.object_name.clone(),
+            object_id: String::new(),
+            points: Vec::new(),
+        };
+        for (ts, x) in &p.samples {
+            truth.points.push(EphemerisPoint {
+                epoch: axis.epoch(*ts),
+                state: *x,
+            });
+            if !tracked(*ts) {
+                continue;
+            }
+            let noise = Vector3::new(gauss(), gauss(), gauss()) * t.sigma_km;
+            let r = Vector3::new(x[0], x[1], x[2]) + noise;
+            let v = if t.velocity {
+                Some(
+                    Vector3::new(x[3], x[4], x[5])
+                        + Vector3::new(gauss(), gauss(), gauss()) * t.sigma_km_s,
+                )
+            } else {
+                None
+            };
+            let o = Observation {
+                epoch: axis.epoch(*ts),
+                r_km: r,
+                v_km_s: v,
+                sigma_km: t.sigma_km.max(1e-9),
+                sigma_km_s: t.sigma_km_s.max(1e-12),
+                line: 0,
+            };
+            if *ts <= train_end {
+                train.observations.push(o);
+            } else {
+                next.observations.push(o);
+            }
+        }
+        Ok(Simulated {
+            train,
+            next,
+            truth,
+            forces_yaml: m.forces_yaml,
+            initial: m.initial,
+            decayed: !matches!(p.termination, Termination::Completed),
+        })
+    }
+}

@@ -1,0 +1,185 @@
+//! The orbit fit on simulated arcs: recovery without noise, honest covariance with
+//! noise, false alarms and detection, and the variational equations against finite
+//! differences of full propagations.
+
+use learned_forces::arc::Arc;
+use learned_forces::fit::model::{FitModel, Parameter};
+use learned_forces::fit::{fit, FitOptions, FitResult, QuietFit};
+use learned_forces::scenario::{ScenarioSpec, TruthTerm};
+use propagator::integrator::{Method, Settings};
+use propagator::propagation::{Options, Request, Silent};
+use propagator::variational::propagate_with_partials;
+use propagator::StateVector;
+use std::path::{Path, PathBuf};
+
+fn scenario(name: &str) -> (ScenarioSpec, PathBuf) {
+    let p = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("../examples/scenarios")
+        .join(name);
+    (ScenarioSpec::load(&p).unwrap(), p)
+}
+
+fn fit_spec(
+    spec: &ScenarioSpec,
+    path: &Path,
+    estimate: Vec<Parameter>,
+) -> (FitResult, StateVector, Arc) {
+    let sim = spec.simulate(path).unwrap();
+    let models = spec.models(path).unwrap();
+    let forces = models
+        .known
+        .build(Path::new("forces"), sim.train.start())
+        .unwrap();
+    let options = FitOptions {
+        estimate,
+        ..FitOptions::default()
+    };
+    let r = fit(&sim.train, forces.model, &options, &mut QuietFit).unwrap();
+    (r, sim.initial.state, sim.train)
+}
+
+#[test]
+fn noise_free_arc_recovers_state_and_drag_scale() {
+    let (mut spec, path) = scenario("quiet.yaml");
+    spec.tracking.sigma_km = 0.0;
+    spec.truth = vec![TruthTerm::DragFactor { factor: 1.3 }];
+    let (r, truth, _) = fit_spec(&spec, &path, vec![Parameter::DragScale]);
+    let dr = (r.x0 - truth).fixed_rows::<3>(0).norm();
+    let dv = (r.x0 - truth).fixed_rows::<3>(3).norm();
+    let k = r.estimates[0].value;
+    eprintln!(
+        "noise-free: |Δr0| = {:.3e} m, |Δv0| = {:.3e} m/s, drag scale {k}",
+        dr * 1e3,
+        dv * 1e3
+    );
+    assert!(dr < 1e-5, "initial position off by {dr} km");
+    assert!(((k - 1.3) / 1.3).abs() < 1e-6, "drag scale {k}");
+    assert!(!r.verdict.anomaly || r.rms_km < 1e-6);
+}
+
+#[test]
+fn covariance_is_honest_over_20_seeds() {
+    let (mut spec, path) = scenario("quiet.yaml");
+    spec.truth = vec![TruthTerm::DragFactor { factor: 1.3 }];
+    let mut sum_sq = [0.0f64; 7];
+    for seed in 1..=20u64 {
+        spec.tracking.seed = seed;
+        let (r, truth, _) = fit_spec(&spec, &path, vec![Parameter::DragScale]);
+        for i in 0..6 {
+            sum_sq[i] += ((r.x0[i] - truth[i]) / r.x0_sigma[i]).powi(2);
+        }
+        sum_sq[6] += ((r.estimates[0].value - 1.3) / r.estimates[0].sigma).powi(2);
+    }
+    let rms: Vec<f64> = sum_sq.iter().map(|s| (s / 20.0).sqrt()).collect();
+    eprintln!("RMS of (estimate − truth)/σ over 20 seeds [x y z vx vy vz drag]: {rms:.3?}");
+    for (i, v) in rms.iter().enumerate() {
+        assert!((0.7..=1.3).contains(v), "component {i}: {v}");
+    }
+}
+
+#[test]
+fn quiet_scenario_false_alarms_at_most_one_in_20() {
+    let (mut spec, path) = scenario("quiet.yaml");
+    let mut alarms = 0;
+    for seed in 1..=20u64 {
+        spec.tracking.seed = seed;
+        let (r, _, _) = fit_spec(&spec, &path, vec![]);
+        if r.verdict.anomaly {
+            alarms += 1;
+            eprintln!("seed {seed}: {:?}", r.verdict.reasons);
+        }
+    }
+    eprintln!("quiet: {alarms} false alarms in 20");
+    assert!(alarms <= 1);
+}
+
+#[test]
+fn venting_at_1e_9_is_detected_in_every_seed() {
+    let (mut spec, path) = scenario("venting.yaml");
+    for t in &mut spec.truth {
+        if let TruthTerm::DecayingPush {
+            accel_rtn_km_s2, ..
+        } = t
+        {
+            *accel_rtn_km_s2 = [0.0, 1e-9, 0.0];
+        }
+    }
+    for seed in 1..=20u64 {
+        spec.tracking.seed = seed;
+        let (r, _, _) = fit_spec(&spec, &path, vec![]);
+        assert!(r.verdict.anomaly, "seed {seed}: missed ({:?})", r.verdict);
+    }
+}
+
+#[test]
+fn stm_and_sensitivities_match_central_differences_over_a_day() {
+    let (spec, path) = scenario("storm.yaml");
+    let models = spec.models(&path).unwrap();
+    let make = || {
+        models
+            .known
+            .build(Path::new("forces"), models.initial.epoch)
+            .unwrap()
+            .model
+    };
+    let params = vec![
+        Parameter::DragScale,
+        Parameter::EmpiricalConstant(1),
+        Parameter::EmpiricalCos(0),
+    ];
+    let mut fm = FitModel::new(make(), params.clone()).unwrap();
+    fm.values = vec![1.0, 1e-9, 5e-10];
+    let x0 = models.initial.state;
+    let options = Options {
+        settings: Settings {
+            method: Method::Dp853,
+            rtol: 1e-13,
+            atol: 1e-13,
+            ..Settings::default()
+        },
+        ..Options::default()
+    };
+    let t_end = 86400.0;
+    let run = |fm: &FitModel, x: StateVector| {
+        let req = Request {
+            x0: x,
+            t0_s: 0.0,
+            t_end_s: t_end,
+            output_times_s: &[t_end],
+            stop_times_s: &[],
+        };
+        propagate_with_partials(fm, &req, &options, &mut Silent)
+            .unwrap()
+            .remove(0)
+    };
+    let nominal = run(&fm, x0);
+    let mut worst: f64 = 0.0;
+    // State columns: steps 1 m and 1 mm/s.
+    for j in 0..6 {
+        let h = if j < 3 { 1e-3 } else { 1e-6 };
+        let (mut xp, mut xm) = (x0, x0);
+        xp[j] += h;
+        xm[j] -= h;
+        let d = (run(&fm, xp).state - run(&fm, xm).state) / (2.0 * h);
+        let col = nominal.phi.column(j);
+        eprintln!("phi col {j}: {:.2e}", (col - d).norm() / d.norm());
+        worst = worst.max((col - d).norm() / d.norm());
+    }
+    for k in 0..params.len() {
+        // Steps large enough that integration noise (rtol 1e-13) stays below 1e-7.
+        let h = [1e-3, 1e-10, 1e-10][k];
+        let mut fp = FitModel::new(make(), params.clone()).unwrap();
+        let mut fmn = FitModel::new(make(), params.clone()).unwrap();
+        fp.values = fm.values.clone();
+        fmn.values = fm.values.clone();
+        fp.values[k] += h;
+        fmn.values[k] -= h;
+        let d = (run(&fp, x0).state - run(&fmn, x0).state) / (2.0 * h);
+        let col = nominal.sensitivity.column(k);
+        let rel = (col - &d).norm() / d.norm();
+        eprintln!("S col {k}: {rel:.2e}");
+        worst = worst.max(rel);
+    }
+    eprintln!("worst relative difference of Φ and S from central differences: {worst:.2e}");
+    assert!(worst < 1e-6, "{worst}");
+}
