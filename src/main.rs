@@ -3,6 +3,7 @@
 
 mod commands;
 mod error;
+mod plot;
 mod progress;
 mod report;
 
@@ -20,6 +21,10 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
+    /// Simulate a scenario into a training arc, a next arc and the truth (demo and test data).
+    Simulate(commands::simulate::Args),
+    /// Fit an arc with the known forces: state, residuals in RTN, anomaly verdict.
+    Fit(commands::fit::Args),
     /// Propagate a state with a force model into an ephemeris (OEM or CSV).
     Propagate(commands::propagate::Args),
 }
@@ -35,6 +40,8 @@ fn main() -> ExitCode {
         }
     };
     let result: Result<(), CliError> = match cli.command {
+        Command::Simulate(args) => commands::simulate::run(args),
+        Command::Fit(args) => commands::fit::run(args),
         Command::Propagate(args) => commands::propagate::run(args),
     };
     match result {

@@ -55,3 +55,42 @@ impl Observer for PropagationProgress {
         ));
     }
 }
+
+/// A spinner for the fit: stage, iteration, weighted RMS (hidden when not a terminal).
+pub struct FitProgress {
+    bar: Option<ProgressBar>,
+}
+
+impl FitProgress {
+    /// A spinner labelled `label`.
+    pub fn new(label: &str) -> Self {
+        let bar = std::io::stderr().is_terminal().then(|| {
+            let b = ProgressBar::with_draw_target(None, ProgressDrawTarget::stderr());
+            b.set_style(
+                ProgressStyle::with_template("{prefix} {spinner} {msg}")
+                    .unwrap_or_else(|_| ProgressStyle::default_spinner()),
+            );
+            b.set_prefix(label.to_string());
+            b.enable_steady_tick(Duration::from_millis(120));
+            b
+        });
+        Self { bar }
+    }
+
+    /// Removes the spinner.
+    pub fn finish(&self) {
+        if let Some(b) = &self.bar {
+            b.finish_and_clear();
+        }
+    }
+}
+
+impl learned_forces::fit::FitObserver for FitProgress {
+    fn on_iteration(&mut self, stage: usize, stages: usize, iteration: usize, weighted_rms: f64) {
+        if let Some(b) = &self.bar {
+            b.set_message(format!(
+                "stage {stage}/{stages}, iteration {iteration}, weighted RMS {weighted_rms:.3}"
+            ));
+        }
+    }
+}

@@ -183,3 +183,71 @@ fn stm_and_sensitivities_match_central_differences_over_a_day() {
     eprintln!("worst relative difference of Φ and S from central differences: {worst:.2e}");
     assert!(worst < 1e-6, "{worst}");
 }
+
+#[test]
+fn outliers_are_edited_and_reported() {
+    let (spec, path) = scenario("quiet.yaml");
+    let mut sim = spec.simulate(&path).unwrap();
+    let bad = [100usize, 101, 500, 900, 1300];
+    for &i in &bad {
+        sim.train.observations[i].r_km[1] += 0.3; // 300 m, 30σ
+    }
+    let models = spec.models(&path).unwrap();
+    let forces = models
+        .known
+        .build(Path::new("forces"), sim.train.start())
+        .unwrap();
+    let r = fit(
+        &sim.train,
+        forces.model,
+        &FitOptions::default(),
+        &mut QuietFit,
+    )
+    .unwrap();
+    let edited: Vec<usize> = r
+        .residuals
+        .iter()
+        .enumerate()
+        .filter(|(_, x)| !x.used)
+        .map(|(i, _)| i)
+        .collect();
+    assert_eq!(edited, bad.to_vec());
+    assert!(r.residuals[500].edit_reason.as_ref().unwrap().contains("σ"));
+    assert!(!r.verdict.anomaly, "{:?}", r.verdict.reasons);
+    let dr = (r.x0 - sim.initial.state).fixed_rows::<3>(0).norm();
+    assert!(dr < 0.02, "{dr}");
+}
+
+#[test]
+fn too_short_or_degenerate_arcs_are_refused_clearly() {
+    let (spec, path) = scenario("quiet.yaml");
+    let sim = spec.simulate(&path).unwrap();
+    let models = spec.models(&path).unwrap();
+    let two = Arc {
+        observations: sim.train.observations[..2].to_vec(),
+    };
+    let forces = models
+        .known
+        .build(Path::new("forces"), two.start())
+        .unwrap();
+    let e = fit(&two, forces.model, &FitOptions::default(), &mut QuietFit)
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("too few"), "{e}");
+    // A drag scale without drag in the model.
+    let forces = propagator::config::ForcesFile::parse(
+        "gravity: { zonal_degree: 2 }\n",
+        Path::new("f.yaml"),
+    )
+    .unwrap()
+    .build(Path::new("f.yaml"), sim.train.start())
+    .unwrap();
+    let o = FitOptions {
+        estimate: vec![Parameter::DragScale],
+        ..FitOptions::default()
+    };
+    let e = fit(&sim.train, forces.model, &o, &mut QuietFit)
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("no drag"), "{e}");
+}

@@ -1,3 +1,5 @@
 //! One module per command; each parses its options into library calls.
 
+pub mod fit;
 pub mod propagate;
+pub mod simulate;

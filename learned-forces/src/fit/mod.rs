@@ -453,7 +453,7 @@ pub fn fit(
             let new_edits = edit(&problem, &l, &mut used, &mut reasons, options.edit_sigma);
             lin = Some(l);
             edit_passes += 1;
-            if new_edits == 0 || edit_passes >= 5 {
+            if new_edits == 0 || edit_passes >= 10 {
                 break;
             }
         }
@@ -594,6 +594,11 @@ fn solve_stage(
 }
 
 /// Edits observations beyond `k` robust σ; returns how many were newly edited.
+///
+/// An outlier is judged against its neighbours: each normalized residual component minus
+/// a straight line fitted to the 10 used observations around it (itself left out), so
+/// that a smooth systematic signal (an unmodelled force) is not mistaken for outliers
+/// and edited away.
 fn edit(
     problem: &Problem,
     lin: &Linearized,
@@ -601,37 +606,76 @@ fn edit(
     reasons: &mut [Option<String>],
     k: f64,
 ) -> usize {
-    // Normalized residual per observation: the largest component |r|/σ.
-    let mut norm = vec![0.0; used.len()];
-    let mut all = Vec::new();
-    for (i, s) in lin.samples.iter().enumerate() {
-        let o = &problem.arc.observations[i];
-        let d = o.r_km - Vector3::new(s.state[0], s.state[1], s.state[2]);
-        let q = d.iter().map(|c| (c / o.sigma_km).abs()).fold(0.0, f64::max);
-        norm[i] = q;
-        if used[i] {
-            all.extend(d.iter().map(|c| (c / o.sigma_km).abs()));
+    let n = used.len();
+    let z: Vec<[f64; 3]> = lin
+        .samples
+        .iter()
+        .enumerate()
+        .map(|(i, s)| {
+            let o = &problem.arc.observations[i];
+            let d = o.r_km - Vector3::new(s.state[0], s.state[1], s.state[2]);
+            [d[0] / o.sigma_km, d[1] / o.sigma_km, d[2] / o.sigma_km]
+        })
+        .collect();
+    let idx: Vec<usize> = (0..n).filter(|&i| used[i]).collect();
+    let mut dev = vec![0.0f64; n];
+    let mut all = Vec::with_capacity(3 * idx.len());
+    const HALF: usize = 5;
+    for (p, &i) in idx.iter().enumerate() {
+        let lo = p.saturating_sub(HALF);
+        let hi = (p + HALF + 1).min(idx.len());
+        let others: Vec<usize> = idx[lo..hi].iter().copied().filter(|&j| j != i).collect();
+        let mut worst: f64 = 0.0;
+        for c in 0..3 {
+            let d = (z[i][c] - line_at(&others, &problem.t, |j| z[j][c], problem.t[i])).abs();
+            worst = worst.max(d);
+            all.push(d);
         }
+        dev[i] = worst;
     }
     all.sort_by(|a, b| a.total_cmp(b));
+    // |x − line through 10 neighbours| of white noise has a median of about 0.71σ.
     let median = all.get(all.len() / 2).copied().unwrap_or(0.0);
-    let scale = (1.4826 * median).max(1.0);
+    let scale = (median / 0.71).max(1.0);
     let threshold = k * scale;
     let mut new = 0;
-    let max_edits = used.len() / 5;
+    let max_edits = n / 5;
     let mut edited = used.iter().filter(|u| !**u).count();
-    for i in 0..used.len() {
-        if used[i] && norm[i] > threshold && edited < max_edits {
+    for (p, &i) in idx.iter().enumerate() {
+        // Only the worst of a neighbourhood goes per pass: an outlier also pulls the
+        // lines of its neighbours, which must not be edited with it.
+        let lo = p.saturating_sub(HALF);
+        let hi = (p + HALF + 1).min(idx.len());
+        let local_max = idx[lo..hi]
+            .iter()
+            .all(|&j| j == i || dev[j] < dev[i] || (dev[j] == dev[i] && j > i));
+        if local_max && dev[i] > threshold && edited < max_edits {
             used[i] = false;
             reasons[i] = Some(format!(
-                "residual {:.1}σ above the {:.1}σ editing threshold",
-                norm[i], threshold
+                "residual {:.1}σ from its neighbours, above the {:.1}σ editing threshold",
+                dev[i], threshold
             ));
             new += 1;
             edited += 1;
         }
     }
     new
+}
+
+/// The least-squares line through `(t[j], y(j))` for `j` in `js`, evaluated at `at`.
+fn line_at(js: &[usize], t: &[f64], y: impl Fn(usize) -> f64, at: f64) -> f64 {
+    let n = js.len() as f64;
+    if js.is_empty() {
+        return 0.0;
+    }
+    let tm = js.iter().map(|&j| t[j]).sum::<f64>() / n;
+    let ym = js.iter().map(|&j| y(j)).sum::<f64>() / n;
+    let stt: f64 = js.iter().map(|&j| (t[j] - tm).powi(2)).sum();
+    if stt <= 0.0 {
+        return ym;
+    }
+    let sty: f64 = js.iter().map(|&j| (t[j] - tm) * (y(j) - ym)).sum();
+    ym + sty / stt * (at - tm)
 }
 
 fn verdict(z: &DVector<f64>, dof: usize, residuals: &[Residual], options: &FitOptions) -> Verdict {

@@ -1,0 +1,196 @@
+//! `arcwise fit`: an arc + forces → fitted state, residuals in RTN, anomaly verdict.
+
+use crate::error::CliError;
+use crate::plot::{write_panels, Panel, Series};
+use crate::progress::FitProgress;
+use crate::report::{state_json, write_report};
+use clap::Args as ClapArgs;
+use learned_forces::arc::{Arc, ArcDefaults};
+use learned_forces::fit::model::Parameter;
+use learned_forces::fit::{fit, FitOptions, FitResult};
+use propagator::config::ForcesFile;
+use std::path::{Path, PathBuf};
+
+/// Options of `arcwise fit`.
+#[derive(ClapArgs, Debug)]
+pub struct Args {
+    /// Observation arc (.csv or .oem).
+    #[arg(long, value_name = "ARC.csv")]
+    arc: PathBuf,
+    /// Known force model.
+    #[arg(long, value_name = "FORCES.yaml")]
+    forces: PathBuf,
+    /// Also estimate: drag_scale, srp_scale, emp_const_rtn, emp_1rev_rtn (comma-separated).
+    #[arg(long, value_delimiter = ',', value_name = "LIST")]
+    estimate: Vec<String>,
+    /// σ of observations without a sigma_km column, km.
+    #[arg(long, default_value_t = 0.01, value_name = "KM")]
+    sigma_km: f64,
+    /// Observations beyond this many (robust) σ are edited out.
+    #[arg(long, default_value_t = 5.0)]
+    edit_sigma: f64,
+    /// Size of the anomaly test (false-alarm probability).
+    #[arg(long, default_value_t = 1e-3)]
+    alpha: f64,
+    /// Write a JSON report here.
+    #[arg(long, value_name = "R.json")]
+    report: Option<PathBuf>,
+    /// Draw the RTN residuals (SVG).
+    #[arg(long, value_name = "residuals.svg")]
+    plot: Option<PathBuf>,
+}
+
+/// Parses `--estimate` items.
+pub fn parse_estimate(items: &[String]) -> Result<Vec<Parameter>, CliError> {
+    let mut out = Vec::new();
+    for item in items.iter().map(|s| s.trim()).filter(|s| !s.is_empty()) {
+        let ps = Parameter::parse_list(item).ok_or_else(|| {
+            CliError::input(format!(
+                "--estimate {item}: expected drag_scale, srp_scale, emp_const_rtn or emp_1rev_rtn"
+            ))
+        })?;
+        for p in ps {
+            if !out.contains(&p) {
+                out.push(p);
+            }
+        }
+    }
+    Ok(out)
+}
+
+/// Loads an arc and a force model on the arc's time axis, and fits.
+pub fn load_and_fit(
+    arc_path: &Path,
+    forces_path: &Path,
+    sigma_km: f64,
+    options: &FitOptions,
+) -> Result<(Arc, ForcesFile, FitResult), CliError> {
+    if !(sigma_km.is_finite() && sigma_km > 0.0) {
+        return Err(CliError::input(format!(
+            "--sigma-km {sigma_km}: must be positive (km)"
+        )));
+    }
+    let spec = ForcesFile::load(forces_path).map_err(CliError::input)?;
+    let defaults = ArcDefaults {
+        sigma_km,
+        ..ArcDefaults::default()
+    };
+    let arc = Arc::load(arc_path, defaults, &spec.central_body).map_err(CliError::input)?;
+    let loaded = spec
+        .build(forces_path, arc.start())
+        .map_err(CliError::input)?;
+    let mut progress = FitProgress::new("fit");
+    let result = fit(&arc, loaded.model, options, &mut progress);
+    progress.finish();
+    let result = result.map_err(|e| CliError::input(format!("{}: {e}", arc_path.display())))?;
+    Ok((arc, spec, result))
+}
+
+/// The JSON of a fit result (shared by `fit`, `learn` and `check`).
+pub fn fit_json(r: &FitResult) -> serde_json::Value {
+    let v = &r.verdict;
+    serde_json::json!({
+        "verdict": if v.anomaly { "anomaly" } else { "no_anomaly" },
+        "verdict_reasons": v.reasons,
+        "rms_km": r.rms_km,
+        "chi2": v.chi2,
+        "dof": v.dof,
+        "p_value": v.p_value,
+        "alpha": v.alpha,
+        "residual_structure": v.structure.iter().map(|s| serde_json::json!({
+            "component": s.component, "ljung_box_q": s.q, "lags": s.lags, "p_value": s.p_value,
+        })).collect::<Vec<_>>(),
+        "edited": r.edited,
+        "edited_observations": r.residuals.iter().filter(|x| !x.used).map(|x| serde_json::json!({
+            "epoch_utc": x.epoch.to_utc_string(), "reason": x.edit_reason,
+        })).collect::<Vec<_>>(),
+        "observations": r.residuals.len(),
+        "iterations": r.iterations,
+        "converged": r.converged,
+        "state_first": state_json(&r.epoch0, &r.x0),
+        "state_first_sigma": { "r_km": &r.x0_sigma[..3], "v_km_s": &r.x0_sigma[3..] },
+        "state_last": state_json(&r.epoch_last, &r.x_last),
+        "parameters": r.estimates.iter().map(|e| serde_json::json!({
+            "name": e.parameter.name(), "value": e.value, "sigma": e.sigma,
+        })).collect::<Vec<_>>(),
+    })
+}
+
+/// Draws R, T, N residuals (m) against hours from the first observation.
+pub fn plot_residuals(path: &Path, title: &str, r: &FitResult) -> Result<(), CliError> {
+    let panels: Vec<Panel> = ["R", "T", "N"]
+        .iter()
+        .enumerate()
+        .map(|(c, name)| Panel {
+            y_label: format!("{name} residual (m)"),
+            series: vec![Series {
+                name: format!("{name}, observed − fitted"),
+                points: r
+                    .residuals
+                    .iter()
+                    .filter(|x| x.used)
+                    .map(|x| (x.t_s / 3600.0, x.rtn_km[c] * 1e3))
+                    .collect(),
+                points_only: true,
+            }],
+        })
+        .collect();
+    write_panels(path, title, &format!("hours since {}", r.epoch0), &panels)
+}
+
+/// Runs the command.
+pub fn run(a: Args) -> Result<(), CliError> {
+    let options = FitOptions {
+        estimate: parse_estimate(&a.estimate)?,
+        edit_sigma: a.edit_sigma,
+        alpha: a.alpha,
+        ..FitOptions::default()
+    };
+    if !(a.edit_sigma.is_finite() && a.edit_sigma >= 2.0) {
+        return Err(CliError::input("--edit-sigma must be at least 2"));
+    }
+    if !(a.alpha > 0.0 && a.alpha < 0.5) {
+        return Err(CliError::input("--alpha must be between 0 and 0.5"));
+    }
+    let (_, _, r) = load_and_fit(&a.arc, &a.forces, a.sigma_km, &options)?;
+    let v = &r.verdict;
+    println!(
+        "fit of {} observations: RMS {:.2} m, χ² {:.1} on {} dof (p = {:.3}), {} edited, {} iterations{}",
+        r.residuals.len(),
+        r.rms_km * 1e3,
+        v.chi2,
+        v.dof,
+        v.p_value,
+        r.edited,
+        r.iterations,
+        if r.converged { "" } else { " (not converged)" }
+    );
+    for e in &r.estimates {
+        println!(
+            "  {} = {:.6e} ± {:.2e}",
+            e.parameter.name(),
+            e.value,
+            e.sigma
+        );
+    }
+    if v.anomaly {
+        println!("verdict: anomaly — the known forces do not explain this arc:");
+        for reason in &v.reasons {
+            println!("  {reason}");
+        }
+    } else {
+        println!("verdict: no_anomaly — the residuals are consistent with the stated noise");
+    }
+    if let Some(p) = &a.plot {
+        plot_residuals(p, &format!("Fit residuals, {}", a.arc.display()), &r)?;
+    }
+    if let Some(path) = &a.report {
+        let mut j = fit_json(&r);
+        j["command"] = "fit".into();
+        j["arcwise_version"] = env!("CARGO_PKG_VERSION").into();
+        j["arc_file"] = a.arc.display().to_string().into();
+        j["forces_file"] = a.forces.display().to_string().into();
+        write_report(path, &j)?;
+    }
+    Ok(())
+}
