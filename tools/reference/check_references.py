@@ -14,6 +14,7 @@ HERE = Path(__file__).resolve().parent
 ROOT = HERE.parents[1]
 sys.path.insert(0, str(HERE))
 
+import chi2  # noqa: E402
 import sun_moon  # noqa: E402
 import third_body_trajectories  # noqa: E402
 import trajectories  # noqa: E402
@@ -25,6 +26,7 @@ FILES = [
     "propagator/src/atmosphere/ussa1976_table.rs",
     "tests/data/reference/sun_moon_de421.json",
     "tests/data/reference/third_body_trajectories.json",
+    "tests/data/reference/chi2_sf.json",
 ]
 
 
@@ -49,6 +51,7 @@ def main():
         ussa1976_table.main(tmp)
         sun_moon.main(tmp)
         third_body_trajectories.main(tmp)
+        chi2.main(tmp)
         bad = 0
         for rel in FILES:
             new, old = (tmp / rel).read_text(), (ROOT / rel).read_text()

@@ -147,3 +147,43 @@ mod tests {
         assert!(ljung_box(&smooth, 20).1 < 1e-10);
     }
 }
+
+#[cfg(test)]
+mod reference {
+    use super::chi2_sf;
+
+    #[derive(serde::Deserialize)]
+    struct Case {
+        x: f64,
+        dof: f64,
+        sf: f64,
+    }
+    #[derive(serde::Deserialize)]
+    struct Ref {
+        source: String,
+        cases: Vec<Case>,
+    }
+
+    #[test]
+    fn chi2_tail_matches_scipy() {
+        // Reference: scipy.stats.chi2.sf (tools/reference/chi2.py).
+        let text = std::fs::read_to_string(concat!(
+            env!("CARGO_MANIFEST_DIR"),
+            "/../tests/data/reference/chi2_sf.json"
+        ))
+        .unwrap();
+        let r: Ref = serde_json::from_str(&text).unwrap();
+        assert!(r.source.contains("scipy"));
+        for c in &r.cases {
+            let ours = chi2_sf(c.x, c.dof);
+            let tol = 1e-9 * c.sf.max(1e-300) + 1e-14;
+            assert!(
+                (ours - c.sf).abs() <= tol.max(1e-12 * c.sf),
+                "x {} dof {}: {ours} vs {}",
+                c.x,
+                c.dof,
+                c.sf
+            );
+        }
+    }
+}
