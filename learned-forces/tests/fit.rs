@@ -251,3 +251,21 @@ fn too_short_or_degenerate_arcs_are_refused_clearly() {
         .to_string();
     assert!(e.contains("no drag"), "{e}");
 }
+
+#[test]
+fn velocity_observations_and_tracking_gaps() {
+    let (mut spec, path) = scenario("quiet.yaml");
+    spec.tracking.velocity = true;
+    spec.tracking.pass_s = 600.0;
+    spec.tracking.gap_s = 5400.0;
+    let (r, truth, arc) = fit_spec(&spec, &path, vec![]);
+    assert!(arc.has_velocity());
+    assert!(arc.observations.len() < 200, "{}", arc.observations.len());
+    assert!(!r.verdict.anomaly, "{:?}", r.verdict.reasons);
+    let dr = (r.x0 - truth).fixed_rows::<3>(0).norm();
+    assert!(
+        dr < 5.0 * r.x0_sigma[..3].iter().map(|s| s * s).sum::<f64>().sqrt(),
+        "{dr}"
+    );
+    assert!(r.residuals.iter().all(|x| x.velocity_km_s.is_some()));
+}
