@@ -9,3 +9,4 @@ pub mod fit;
 pub mod scenario;
 
 pub use propagator;
+pub mod expr;

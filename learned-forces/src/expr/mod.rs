@@ -1,0 +1,561 @@
+//! Strongly typed expression trees for candidate force terms, and arcwise's formula text.
+//!
+//! A term is a vector-valued expression of the satellite's state and time, in ECI,
+//! km/s² per unit coefficient. The formula text (our own) reads like the physics:
+//! `exp(-t/k0) * T` (an along-track push decaying with a time constant k0 seconds),
+//! `cos(u) * R` (a once-per-revolution radial term), `rho * norm(vrel) * vrel`.
+//!
+//! Terminals (units): `t` s since the learned file's epoch; `r` km, `v` km/s, `vrel` km/s
+//! (relative to the co-rotating atmosphere); `R`, `T`, `N` the RTN unit vectors; `h`
+//! altitude km; `rho` density kg/m³ (the handbook piecewise-exponential table, a fixed
+//! shape whose scale the coefficient absorbs); `u` argument of latitude rad; `sun` the
+//! geocentric Sun unit vector; `lit` the fraction of the Sun's disc visible (conical
+//! shadow); numbers; and nonlinear constants `k0`…`k9` (fitted, reported separately).
+//! Operators: `+ - * /`, `^n` (small integer powers), `sin cos exp sqrt norm dot cross`.
+
+pub mod num;
+mod parse;
+
+pub use parse::{parse, ParseError};
+
+use num::{add3, cross3, dot3, norm3, scale3, sub3, Dual, Num, V3};
+use propagator::atmosphere::HANDBOOK_TABLE;
+use propagator::force::srp::{sunlit_fraction, Shadow};
+use propagator::solar_system::{sun_position_km, CenturyClock};
+use propagator::StateVector;
+use std::fmt;
+
+/// Scalar or vector.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Ty {
+    /// A number.
+    Scalar,
+    /// A 3-vector.
+    Vector,
+}
+
+/// Terminals and operators.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Node {
+    /// `t`, s.
+    Time,
+    /// `h`, km.
+    Altitude,
+    /// `rho`, kg/m³.
+    Density,
+    /// `u`, rad.
+    ArgLat,
+    /// `lit`, 0–1.
+    Lit,
+    /// A number.
+    Const(f64),
+    /// `k<i>`: a nonlinear constant.
+    Param(usize),
+    /// `r`, km.
+    Pos,
+    /// `v`, km/s.
+    Vel,
+    /// `vrel`, km/s.
+    VelRel,
+    /// `R`.
+    UnitR,
+    /// `T`.
+    UnitT,
+    /// `N`.
+    UnitN,
+    /// `sun`.
+    SunDir,
+    /// a + b.
+    Add(Box<Node>, Box<Node>),
+    /// a − b.
+    Sub(Box<Node>, Box<Node>),
+    /// a × b (scalar·scalar, scalar·vector, vector·scalar).
+    Mul(Box<Node>, Box<Node>),
+    /// a ÷ b (b scalar).
+    Div(Box<Node>, Box<Node>),
+    /// −a.
+    Neg(Box<Node>),
+    /// sin a.
+    Sin(Box<Node>),
+    /// cos a.
+    Cos(Box<Node>),
+    /// exp a.
+    Exp(Box<Node>),
+    /// sqrt a.
+    Sqrt(Box<Node>),
+    /// |a|.
+    Norm(Box<Node>),
+    /// a · b.
+    Dot(Box<Node>, Box<Node>),
+    /// a × b.
+    Cross(Box<Node>, Box<Node>),
+    /// a^n, n in −4…4.
+    Pow(Box<Node>, i32),
+}
+
+/// A type error, as a sentence.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("{0}")]
+pub struct TypeError(pub String);
+
+fn b(n: Node) -> Box<Node> {
+    Box::new(n)
+}
+
+impl Node {
+    /// The type, or why the tree is ill-typed.
+    pub fn ty(&self) -> Result<Ty, TypeError> {
+        use Node::*;
+        use Ty::*;
+        let err = |m: &str| Err(TypeError(format!("{m} in `{self}`")));
+        match self {
+            Time | Altitude | Density | ArgLat | Lit | Const(_) | Param(_) => Ok(Scalar),
+            Pos | Vel | VelRel | UnitR | UnitT | UnitN | SunDir => Ok(Vector),
+            Add(a, c) | Sub(a, c) => {
+                let (x, y) = (a.ty()?, c.ty()?);
+                if x == y {
+                    Ok(x)
+                } else {
+                    err("adding a scalar to a vector")
+                }
+            }
+            Mul(a, c) => match (a.ty()?, c.ty()?) {
+                (Vector, Vector) => err("vector × vector (use dot or cross)"),
+                (Scalar, Scalar) => Ok(Scalar),
+                _ => Ok(Vector),
+            },
+            Div(a, c) => match c.ty()? {
+                Vector => err("dividing by a vector"),
+                Scalar => a.ty(),
+            },
+            Neg(a) => a.ty(),
+            Sin(a) | Cos(a) | Exp(a) | Sqrt(a) | Pow(a, _) => match a.ty()? {
+                Scalar => Ok(Scalar),
+                Vector => err("a function of a vector that needs a scalar"),
+            },
+            Norm(a) => match a.ty()? {
+                Vector => Ok(Scalar),
+                Scalar => err("norm of a scalar"),
+            },
+            Dot(a, c) => match (a.ty()?, c.ty()?) {
+                (Vector, Vector) => Ok(Scalar),
+                _ => err("dot of a scalar"),
+            },
+            Cross(a, c) => match (a.ty()?, c.ty()?) {
+                (Vector, Vector) => Ok(Vector),
+                _ => err("cross of a scalar"),
+            },
+        }
+    }
+
+    /// Number of nodes (the complexity measure).
+    pub fn complexity(&self) -> usize {
+        use Node::*;
+        match self {
+            Add(a, c) | Sub(a, c) | Mul(a, c) | Div(a, c) | Dot(a, c) | Cross(a, c) => {
+                1 + a.complexity() + c.complexity()
+            }
+            Neg(a) | Sin(a) | Cos(a) | Exp(a) | Sqrt(a) | Norm(a) | Pow(a, _) => 1 + a.complexity(),
+            _ => 1,
+        }
+    }
+
+    /// The largest `k<i>` index used, plus one (the number of constants needed).
+    pub fn n_params(&self) -> usize {
+        use Node::*;
+        match self {
+            Param(i) => i + 1,
+            Add(a, c) | Sub(a, c) | Mul(a, c) | Div(a, c) | Dot(a, c) | Cross(a, c) => {
+                a.n_params().max(c.n_params())
+            }
+            Neg(a) | Sin(a) | Cos(a) | Exp(a) | Sqrt(a) | Norm(a) | Pow(a, _) => a.n_params(),
+            _ => 0,
+        }
+    }
+
+    /// Children, for the search's tree operators.
+    pub fn children(&self) -> Vec<&Node> {
+        use Node::*;
+        match self {
+            Add(a, c) | Sub(a, c) | Mul(a, c) | Div(a, c) | Dot(a, c) | Cross(a, c) => vec![a, c],
+            Neg(a) | Sin(a) | Cos(a) | Exp(a) | Sqrt(a) | Norm(a) | Pow(a, _) => vec![a],
+            _ => vec![],
+        }
+    }
+
+    /// Mutable children.
+    pub fn children_mut(&mut self) -> Vec<&mut Node> {
+        use Node::*;
+        match self {
+            Add(a, c) | Sub(a, c) | Mul(a, c) | Div(a, c) | Dot(a, c) | Cross(a, c) => vec![a, c],
+            Neg(a) | Sin(a) | Cos(a) | Exp(a) | Sqrt(a) | Norm(a) | Pow(a, _) => vec![a],
+            _ => vec![],
+        }
+    }
+
+    fn is_const(&self) -> Option<f64> {
+        if let Node::Const(c) = self {
+            Some(*c)
+        } else {
+            None
+        }
+    }
+
+    /// Simplified copy: constant folding, x·1, x+0, 0·x (scalars), −(−x), x−x.
+    pub fn simplify(&self) -> Node {
+        use Node::*;
+        let s = |n: &Node| n.simplify();
+        match self {
+            Add(a, c) => {
+                let (a, c) = (s(a), s(c));
+                match (a.is_const(), c.is_const()) {
+                    (Some(x), Some(y)) => Const(x + y),
+                    (Some(x), _) if x == 0.0 => c,
+                    (_, Some(y)) if y == 0.0 => a,
+                    _ => Add(b(a), b(c)),
+                }
+            }
+            Sub(a, c) => {
+                let (a, c) = (s(a), s(c));
+                match (a.is_const(), c.is_const()) {
+                    (Some(x), Some(y)) => Const(x - y),
+                    (_, Some(y)) if y == 0.0 => a,
+                    _ if a == c && a.ty() == Ok(Ty::Scalar) => Const(0.0),
+                    _ => Sub(b(a), b(c)),
+                }
+            }
+            Mul(a, c) => {
+                let (a, c) = (s(a), s(c));
+                match (a.is_const(), c.is_const()) {
+                    (Some(x), Some(y)) => Const(x * y),
+                    (Some(x), _) if x == 1.0 => c,
+                    (_, Some(y)) if y == 1.0 => a,
+                    (Some(x), _) if x == 0.0 && c.ty() == Ok(Ty::Scalar) => Const(0.0),
+                    (_, Some(y)) if y == 0.0 && a.ty() == Ok(Ty::Scalar) => Const(0.0),
+                    _ => Mul(b(a), b(c)),
+                }
+            }
+            Div(a, c) => {
+                let (a, c) = (s(a), s(c));
+                match (a.is_const(), c.is_const()) {
+                    (Some(x), Some(y)) if y != 0.0 => Const(x / y),
+                    (_, Some(y)) if y == 1.0 => a,
+                    _ => Div(b(a), b(c)),
+                }
+            }
+            Neg(a) => match s(a) {
+                Const(x) => Const(-x),
+                Neg(inner) => *inner,
+                other => Neg(b(other)),
+            },
+            Sin(a) => fold1(s(a), f64::sin, Sin),
+            Cos(a) => fold1(s(a), f64::cos, Cos),
+            Exp(a) => fold1(s(a), f64::exp, Exp),
+            Sqrt(a) => fold1(s(a), f64::sqrt, Sqrt),
+            Norm(a) => Norm(b(s(a))),
+            Dot(a, c) => Dot(b(s(a)), b(s(c))),
+            Cross(a, c) => Cross(b(s(a)), b(s(c))),
+            Pow(a, n) => match (s(a), *n) {
+                (x, 1) => x,
+                (Const(x), n) => Const(x.powi(n)),
+                (x, n) => Pow(b(x), n),
+            },
+            other => other.clone(),
+        }
+    }
+
+    /// Evaluates at one point (`params` are the values of `k0`, `k1`, …).
+    pub fn eval<N: Num>(&self, p: &Terminals<N>, params: &[f64]) -> Value<N> {
+        use Node::*;
+        use Value::{S, V};
+        let e = |n: &Node| n.eval(p, params);
+        match self {
+            Time => S(N::cst(p.t)),
+            Altitude => S(p.h),
+            Density => S(p.rho),
+            ArgLat => S(p.u),
+            Lit => S(N::cst(p.lit)),
+            Const(c) => S(N::cst(*c)),
+            Param(i) => S(N::cst(params.get(*i).copied().unwrap_or(0.0))),
+            Pos => V(p.r),
+            Vel => V(p.v),
+            VelRel => V(p.vrel),
+            UnitR => V(p.rh),
+            UnitT => V(p.th),
+            UnitN => V(p.nh),
+            SunDir => V([N::cst(p.sun[0]), N::cst(p.sun[1]), N::cst(p.sun[2])]),
+            Add(a, c) => match (e(a), e(c)) {
+                (S(x), S(y)) => S(x + y),
+                (V(x), V(y)) => V(add3(x, y)),
+                _ => S(N::cst(f64::NAN)),
+            },
+            Sub(a, c) => match (e(a), e(c)) {
+                (S(x), S(y)) => S(x - y),
+                (V(x), V(y)) => V(sub3(x, y)),
+                _ => S(N::cst(f64::NAN)),
+            },
+            Mul(a, c) => match (e(a), e(c)) {
+                (S(x), S(y)) => S(x * y),
+                (S(x), V(y)) | (V(y), S(x)) => V(scale3(x, y)),
+                _ => S(N::cst(f64::NAN)),
+            },
+            Div(a, c) => match (e(a), e(c)) {
+                (S(x), S(y)) => S(x / y),
+                (V(x), S(y)) => V(scale3(N::cst(1.0) / y, x)),
+                _ => S(N::cst(f64::NAN)),
+            },
+            Neg(a) => match e(a) {
+                S(x) => S(-x),
+                V(x) => V([-x[0], -x[1], -x[2]]),
+            },
+            Sin(a) => e(a).map_s(|x| x.sin()),
+            Cos(a) => e(a).map_s(|x| x.cos()),
+            Exp(a) => e(a).map_s(|x| x.exp()),
+            Sqrt(a) => e(a).map_s(|x| x.sqrt()),
+            Pow(a, n) => e(a).map_s(|x| x.powi(*n)),
+            Norm(a) => match e(a) {
+                V(x) => S(norm3(x)),
+                S(_) => S(N::cst(f64::NAN)),
+            },
+            Dot(a, c) => match (e(a), e(c)) {
+                (V(x), V(y)) => S(dot3(x, y)),
+                _ => S(N::cst(f64::NAN)),
+            },
+            Cross(a, c) => match (e(a), e(c)) {
+                (V(x), V(y)) => V(cross3(x, y)),
+                _ => S(N::cst(f64::NAN)),
+            },
+        }
+    }
+}
+
+fn fold1(a: Node, f: fn(f64) -> f64, wrap: fn(Box<Node>) -> Node) -> Node {
+    match a {
+        Node::Const(x) => Node::Const(f(x)),
+        other => wrap(b(other)),
+    }
+}
+
+/// The value of an expression at a point.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Value<N> {
+    /// Scalar.
+    S(N),
+    /// Vector.
+    V(V3<N>),
+}
+
+impl<N: Num> Value<N> {
+    fn map_s(self, f: impl Fn(N) -> N) -> Value<N> {
+        match self {
+            Value::S(x) => Value::S(f(x)),
+            Value::V(_) => Value::S(N::cst(f64::NAN)),
+        }
+    }
+
+    /// The vector, or zero for a scalar (a term must be a vector; checked at parse).
+    pub fn vector(self) -> V3<N> {
+        match self {
+            Value::V(v) => v,
+            Value::S(_) => [N::cst(f64::NAN); 3],
+        }
+    }
+}
+
+/// Constants the terminals need.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Context {
+    /// Earth radius (altitude, shadow), km.
+    pub radius_km: f64,
+    /// Earth rotation (co-rotating atmosphere), rad/s.
+    pub rotation_rad_s: f64,
+    /// Maps `t` to the Sun series' time argument.
+    pub clock: CenturyClock,
+}
+
+/// All terminal values at one point, computed once and shared by every node.
+#[derive(Clone, Copy, Debug)]
+pub struct Terminals<N> {
+    /// s.
+    pub t: f64,
+    /// km.
+    pub r: V3<N>,
+    /// km/s.
+    pub v: V3<N>,
+    /// km/s.
+    pub vrel: V3<N>,
+    /// R̂.
+    pub rh: V3<N>,
+    /// T̂.
+    pub th: V3<N>,
+    /// N̂.
+    pub nh: V3<N>,
+    /// km.
+    pub h: N,
+    /// kg/m³.
+    pub rho: N,
+    /// rad.
+    pub u: N,
+    /// Sun unit vector.
+    pub sun: [f64; 3],
+    /// Sunlit fraction.
+    pub lit: f64,
+}
+
+/// Handbook-table density and its band, generic in the number type.
+fn density<N: Num>(h: N) -> N {
+    let hv = h.val();
+    let i = HANDBOOK_TABLE.partition_point(|b| b.base_km <= hv).max(1) - 1;
+    let band = &HANDBOOK_TABLE[i];
+    N::cst(band.rho_kg_m3) * (-(h - N::cst(band.base_km)) / N::cst(band.scale_height_km)).exp()
+}
+
+impl<N: Num> Terminals<N> {
+    /// Terminals at time `t` (s) and position/velocity given as numbers of type `N`.
+    pub fn new(t: f64, r: V3<N>, v: V3<N>, ctx: &Context) -> Self {
+        let w = N::cst(ctx.rotation_rad_s);
+        let vrel = [v[0] + w * r[1], v[1] - w * r[0], v[2]];
+        let rn = norm3(r);
+        let rh = scale3(N::cst(1.0) / rn, r);
+        let hv = cross3(r, v);
+        let nh = scale3(N::cst(1.0) / norm3(hv), hv);
+        let th = cross3(nh, rh);
+        // Argument of latitude from the node line ẑ × h (x axis for an equatorial orbit).
+        let node = [-hv[1], hv[0], N::cst(0.0)];
+        let nn = norm3(node);
+        let nhat = if nn.val() < 1e-10 * norm3(hv).val() {
+            [N::cst(1.0), N::cst(0.0), N::cst(0.0)]
+        } else {
+            scale3(N::cst(1.0) / nn, node)
+        };
+        let u = dot3(nh, cross3(nhat, r)).atan2(dot3(nhat, r));
+        let h = rn - N::cst(ctx.radius_km);
+        let s = sun_position_km(ctx.clock.centuries(t));
+        let sn = s.norm();
+        let rv = nalgebra::Vector3::new(r[0].val(), r[1].val(), r[2].val());
+        Terminals {
+            t,
+            r,
+            v,
+            vrel,
+            rh,
+            th,
+            nh,
+            h,
+            rho: density(h),
+            u,
+            sun: [s[0] / sn, s[1] / sn, s[2] / sn],
+            lit: sunlit_fraction(&rv, &s, ctx.radius_km, Shadow::Conical),
+        }
+    }
+}
+
+impl Terminals<f64> {
+    /// Plain-number terminals of a state.
+    pub fn of_state(t: f64, x: &StateVector, ctx: &Context) -> Self {
+        Terminals::new(t, [x[0], x[1], x[2]], [x[3], x[4], x[5]], ctx)
+    }
+}
+
+impl Terminals<Dual> {
+    /// Terminals carrying derivatives with respect to the state.
+    pub fn of_state_dual(t: f64, x: &StateVector, ctx: &Context) -> Self {
+        let d = |k: usize| Dual::var(x[k], k);
+        Terminals::new(t, [d(0), d(1), d(2)], [d(3), d(4), d(5)], ctx)
+    }
+}
+
+/// Binding strength for printing.
+fn prec(n: &Node) -> u8 {
+    use Node::*;
+    match n {
+        Add(..) | Sub(..) => 1,
+        Mul(..) | Div(..) => 2,
+        Neg(..) => 3,
+        Pow(..) => 4,
+        Const(c) if *c < 0.0 => 3,
+        _ => 5,
+    }
+}
+
+fn fmt_num(c: f64) -> String {
+    // Shortest round-trip text; exponent form for very small or large magnitudes.
+    let plain = format!("{c}");
+    let exp = format!("{c:e}");
+    if exp.len() < plain.len() {
+        exp
+    } else {
+        plain
+    }
+}
+
+impl fmt::Display for Node {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use Node::*;
+        let wrap = |n: &Node, min: u8, f: &mut fmt::Formatter<'_>| -> fmt::Result {
+            if prec(n) < min {
+                write!(f, "({n})")
+            } else {
+                write!(f, "{n}")
+            }
+        };
+        match self {
+            Time => f.write_str("t"),
+            Altitude => f.write_str("h"),
+            Density => f.write_str("rho"),
+            ArgLat => f.write_str("u"),
+            Lit => f.write_str("lit"),
+            Const(c) => f.write_str(&fmt_num(*c)),
+            Param(i) => write!(f, "k{i}"),
+            Pos => f.write_str("r"),
+            Vel => f.write_str("v"),
+            VelRel => f.write_str("vrel"),
+            UnitR => f.write_str("R"),
+            UnitT => f.write_str("T"),
+            UnitN => f.write_str("N"),
+            SunDir => f.write_str("sun"),
+            Add(a, c) => {
+                wrap(a, 1, f)?;
+                f.write_str(" + ")?;
+                wrap(c, 2, f)
+            }
+            Sub(a, c) => {
+                wrap(a, 1, f)?;
+                f.write_str(" - ")?;
+                wrap(c, 2, f)
+            }
+            Mul(a, c) => {
+                wrap(a, 2, f)?;
+                f.write_str(" * ")?;
+                wrap(c, 3, f)
+            }
+            Div(a, c) => {
+                wrap(a, 2, f)?;
+                f.write_str(" / ")?;
+                wrap(c, 3, f)
+            }
+            Neg(a) => {
+                f.write_str("-")?;
+                wrap(a, 4, f)
+            }
+            Pow(a, n) => {
+                wrap(a, 5, f)?;
+                if *n < 0 {
+                    write!(f, "^({n})")
+                } else {
+                    write!(f, "^{n}")
+                }
+            }
+            Sin(a) => write!(f, "sin({a})"),
+            Cos(a) => write!(f, "cos({a})"),
+            Exp(a) => write!(f, "exp({a})"),
+            Sqrt(a) => write!(f, "sqrt({a})"),
+            Norm(a) => write!(f, "norm({a})"),
+            Dot(a, c) => write!(f, "dot({a}, {c})"),
+            Cross(a, c) => write!(f, "cross({a}, {c})"),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests;

@@ -1,0 +1,131 @@
+use super::*;
+
+fn ctx() -> Context {
+    Context {
+        radius_km: 6378.1363,
+        rotation_rad_s: 7.292115e-5,
+        clock: CenturyClock { t0_centuries: 0.31 },
+    }
+}
+
+#[test]
+fn parses_prints_and_round_trips() {
+    for text in [
+        "exp(-t / k0) * T",
+        "cos(u) * R + sin(u) * R",
+        "rho * norm(vrel) * vrel",
+        "2.5e-9 * T - -3 * N",
+        "cross(r, v) / norm(cross(r, v))",
+        "dot(sun, R) * lit * sun",
+        "(h - 400)^2 * exp(-h / 58.5) * T",
+        "-(cos(u) * R)",
+        "t^(-2) * R",
+    ] {
+        let n = parse(text).unwrap().simplify();
+        let printed = n.to_string();
+        let again = parse(&printed).unwrap();
+        assert_eq!(again, n, "{text} → {printed}");
+        assert_eq!(again.to_string(), printed);
+    }
+}
+
+#[test]
+fn type_and_syntax_errors_are_named() {
+    for (bad, needle) in [
+        ("T * R", "vector × vector"),
+        ("t + T", "adding a scalar"),
+        ("exp(T)", "needs a scalar"),
+        ("t", "must be a vector"),
+        ("foo * T", "unknown name `foo`"),
+        ("exp(t * T", "expected `)`"),
+        ("T / R", "dividing by a vector"),
+        ("t^9 * T", "small non-zero"),
+        ("", "end of the formula"),
+        ("T $", "unexpected `$`"),
+    ] {
+        let e = parse(bad).unwrap_err().to_string();
+        assert!(e.contains(needle), "{bad}: {e}");
+    }
+    let deep = format!("{}T{}", "(".repeat(200), ")".repeat(200));
+    assert!(parse(&deep)
+        .unwrap_err()
+        .to_string()
+        .contains("nested deeper"));
+}
+
+#[test]
+fn simplification_folds_and_drops_identities() {
+    let n = parse("(1 * T + 0 * t * R) * exp(0)").unwrap();
+    // 0 * t is folded; the vector 0 * R stays (a vector zero has no literal).
+    assert_eq!(parse("1 * T * 1").unwrap().simplify().to_string(), "T");
+    assert_eq!(parse("--T").unwrap().simplify().to_string(), "T");
+    assert_eq!(
+        parse("(2 + 3) * T").unwrap().simplify().to_string(),
+        "5 * T"
+    );
+    assert!(n.simplify().complexity() < n.complexity());
+}
+
+#[test]
+fn terminals_are_the_physics() {
+    let c = ctx();
+    let x = StateVector::new(6878.0, 10.0, -20.0, 0.01, 5.0, 5.5);
+    let p = Terminals::of_state(100.0, &x, &c);
+    let v = |s: &str| parse(s).unwrap().eval(&p, &[]).vector();
+    // R, T, N are orthonormal and right-handed; T is along the velocity for this orbit.
+    let (r, t, n) = (v("R"), v("T"), v("N"));
+    assert!((dot3(r, t)).abs() < 1e-15 && (norm3(n) - 1.0).abs() < 1e-15);
+    assert!((cross3(r, t)[0] - n[0]).abs() < 1e-15);
+    assert!(dot3(t, [x[3], x[4], x[5]]) > 0.0);
+    // h = |r| − R; rho from the handbook table at h.
+    assert!((p.h - (norm3([6878.0, 10.0, -20.0]) - 6378.1363)).abs() < 1e-12);
+    let table = propagator::atmosphere::PiecewiseExponential::handbook();
+    use propagator::atmosphere::Atmosphere;
+    assert!((p.rho / table.density_kg_m3(p.h).unwrap() - 1.0).abs() < 1e-14);
+    // u of a point on the ascending node is 0.
+    let node = StateVector::new(7000.0, 0.0, 0.0, 0.0, 5.0, 5.0);
+    assert!(Terminals::of_state(0.0, &node, &c).u.abs() < 1e-12);
+}
+
+#[test]
+fn dual_partials_match_central_differences() {
+    let c = ctx();
+    let x = StateVector::new(5000.0, -4000.0, 2000.0, 3.0, 4.0, 5.0);
+    for text in [
+        "exp(-t / k0) * T",
+        "cos(u) * R + sin(u) * N",
+        "rho * norm(vrel) * vrel",
+        "cross(R, sun) * lit / h",
+    ] {
+        let n = parse(text).unwrap();
+        let params = [21600.0];
+        let d = n
+            .eval(&Terminals::of_state_dual(1000.0, &x, &c), &params)
+            .vector();
+        for k in 0..6 {
+            let h = if k < 3 { 1e-3 } else { 1e-6 };
+            let (mut xp, mut xm) = (x, x);
+            xp[k] += h;
+            xm[k] -= h;
+            let fp = n
+                .eval(&Terminals::of_state(1000.0, &xp, &c), &params)
+                .vector();
+            let fm = n
+                .eval(&Terminals::of_state(1000.0, &xm, &c), &params)
+                .vector();
+            for i in 0..3 {
+                let fd = (fp[i] - fm[i]) / (2.0 * h);
+                let scale = d
+                    .iter()
+                    .map(|q| q.d[k].abs())
+                    .fold(0.0, f64::max)
+                    .max(1e-30);
+                assert!(
+                    (d[i].d[k] - fd).abs() < 1e-5 * scale + 1e-18,
+                    "{text}: ∂{i}/∂x{k} {} vs {fd}",
+                    d[i].d[k]
+                );
+            }
+        }
+    }
+}
