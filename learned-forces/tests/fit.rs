@@ -176,7 +176,7 @@ fn stm_and_sensitivities_match_central_differences_over_a_day() {
         fmn.values[k] -= h;
         let d = (run(&fp, x0).state - run(&fmn, x0).state) / (2.0 * h);
         let col = nominal.sensitivity.column(k);
-        let rel = (col - &d).norm() / d.norm();
+        let rel = (col - d).norm() / d.norm();
         eprintln!("S col {k}: {rel:.2e}");
         worst = worst.max(rel);
     }

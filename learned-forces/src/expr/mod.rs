@@ -210,8 +210,8 @@ impl Node {
                 let (a, c) = (s(a), s(c));
                 match (a.is_const(), c.is_const()) {
                     (Some(x), Some(y)) => Const(x + y),
-                    (Some(x), _) if x == 0.0 => c,
-                    (_, Some(y)) if y == 0.0 => a,
+                    (Some(0.0), _) => c,
+                    (_, Some(0.0)) => a,
                     _ => Add(b(a), b(c)),
                 }
             }
@@ -219,7 +219,7 @@ impl Node {
                 let (a, c) = (s(a), s(c));
                 match (a.is_const(), c.is_const()) {
                     (Some(x), Some(y)) => Const(x - y),
-                    (_, Some(y)) if y == 0.0 => a,
+                    (_, Some(0.0)) => a,
                     _ if a == c && a.ty() == Ok(Ty::Scalar) => Const(0.0),
                     _ => Sub(b(a), b(c)),
                 }
@@ -228,10 +228,10 @@ impl Node {
                 let (a, c) = (s(a), s(c));
                 match (a.is_const(), c.is_const()) {
                     (Some(x), Some(y)) => Const(x * y),
-                    (Some(x), _) if x == 1.0 => c,
-                    (_, Some(y)) if y == 1.0 => a,
-                    (Some(x), _) if x == 0.0 && c.ty() == Ok(Ty::Scalar) => Const(0.0),
-                    (_, Some(y)) if y == 0.0 && a.ty() == Ok(Ty::Scalar) => Const(0.0),
+                    (Some(1.0), _) => c,
+                    (_, Some(1.0)) => a,
+                    (Some(0.0), _) if c.ty() == Ok(Ty::Scalar) => Const(0.0),
+                    (_, Some(0.0)) if a.ty() == Ok(Ty::Scalar) => Const(0.0),
                     _ => Mul(b(a), b(c)),
                 }
             }
@@ -239,7 +239,7 @@ impl Node {
                 let (a, c) = (s(a), s(c));
                 match (a.is_const(), c.is_const()) {
                     (Some(x), Some(y)) if y != 0.0 => Const(x / y),
-                    (_, Some(y)) if y == 1.0 => a,
+                    (_, Some(1.0)) => a,
                     _ => Div(b(a), b(c)),
                 }
             }
