@@ -10,3 +10,4 @@ pub mod scenario;
 
 pub use propagator;
 pub mod expr;
+pub mod learned_file;

@@ -130,6 +130,22 @@ pub struct ForcesFile {
     pub plugins: Vec<PluginSpec>,
 }
 
+/// Turns a `plugins:` entry into a force, for kinds other than native libraries.
+pub trait PluginResolver {
+    /// `None` when the entry is not of this resolver's kind (it is then loaded as a
+    /// native plugin); otherwise the force or a sentence saying why not.
+    fn resolve(&self, path: &Path, checksum: Option<&str>, reference: &Epoch) -> Option<Result<Box<dyn crate::force::Force>, String>>;
+}
+
+/// Resolves nothing: every plugin entry is a native library.
+pub struct NativeOnly;
+
+impl PluginResolver for NativeOnly {
+    fn resolve(&self, _p: &Path, _c: Option<&str>, _r: &Epoch) -> Option<Result<Box<dyn crate::force::Force>, String>> {
+        None
+    }
+}
+
 /// One entry of `plugins:`.
 #[derive(Clone, Debug, Deserialize, PartialEq)]
 #[serde(untagged)]
@@ -394,8 +410,15 @@ impl ForcesFile {
     }
 
     /// Builds the force model. `reference` is the epoch where the model's time axis
-    /// starts (forces that depend on absolute time are placed on it).
+    /// starts (forces that depend on absolute time are placed on it). Plugins are loaded
+    /// as native libraries; see [`ForcesFile::build_with`] for other kinds.
     pub fn build(&self, path: &Path, reference: Epoch) -> Result<LoadedForces, ConfigError> {
+        self.build_with(path, reference, &NativeOnly)
+    }
+
+    /// As [`ForcesFile::build`], asking `resolver` first about each plugin entry (the
+    /// learner registers learned-force files this way, keeping this crate unaware of it).
+    pub fn build_with(&self, path: &Path, reference: Epoch, resolver: &dyn PluginResolver) -> Result<LoadedForces, ConfigError> {
         let body = self.central_body;
         let mut model = ForceModel::new().with(TwoBody {
             mu_km3_s2: body.mu_km3_s2,
@@ -515,9 +538,15 @@ impl ForcesFile {
             } else {
                 base.join(p)
             };
-            let force = PluginForce::load(&resolved, &reference, spec.checksum())
-                .map_err(|e| config_error(path, format!("plugins: {e}")))?;
-            model.push(Box::new(force));
+            match resolver.resolve(&resolved, spec.checksum(), &reference) {
+                Some(Ok(force)) => model.push(force),
+                Some(Err(e)) => return Err(config_error(path, format!("plugins: {e}"))),
+                None => {
+                    let force = PluginForce::load(&resolved, &reference, spec.checksum())
+                        .map_err(|e| config_error(path, format!("plugins: {e}")))?;
+                    model.push(Box::new(force));
+                }
+            }
         }
         Ok(LoadedForces {
             model,

@@ -54,6 +54,11 @@ pub struct FitOptions {
     pub initial_state: Option<StateVector>,
     /// Altitude floor for the propagations, km.
     pub altitude_floor_km: f64,
+    /// Formula terms added to the dynamics (their coefficients and constants can be
+    /// estimated as `TermCoefficient`/`TermConstant` parameters).
+    pub extra: Option<model::ExtraTerms>,
+    /// Starting values of the parameters (same order as `estimate`).
+    pub initial_values: Option<Vec<f64>>,
 }
 
 impl Default for FitOptions {
@@ -72,6 +77,8 @@ impl Default for FitOptions {
             ljung_box_lags: 20,
             initial_state: None,
             altitude_floor_km: 80.0,
+            extra: None,
+            initial_values: None,
         }
     }
 }
@@ -396,6 +403,13 @@ pub fn fit(
         options,
     };
     let mut fm = FitModel::new(model, options.estimate.clone()).map_err(FitError::Unfit)?;
+    fm.extra = options.extra.clone();
+    let start_values: Vec<f64> = match &options.initial_values {
+        Some(v) if v.len() == options.estimate.len() => v.clone(),
+        Some(_) => return Err(FitError::Unfit("initial_values must match estimate".into())),
+        None => options.estimate.iter().map(|p| p.initial_value()).collect(),
+    };
+    fm.values = start_values.clone();
     let mut x0 = match options.initial_state {
         Some(x) => x,
         None => initial_guess(arc, &t)?,
@@ -428,7 +442,7 @@ pub fn fit(
         } else {
             fm.parameters = options.estimate.clone();
             if fm.values.len() != fm.parameters.len() {
-                fm.values = fm.parameters.iter().map(|p| p.initial_value()).collect();
+                fm.values = start_values.clone();
             }
         }
         let mut edit_passes = 0;

@@ -10,6 +10,10 @@ use propagator::{ForceModel, StateVector};
 /// A parameter the fit can estimate besides the initial state.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 pub enum Parameter {
+    /// Linear coefficient of extra term `i` (km/s² per unit of the formula).
+    TermCoefficient(usize),
+    /// Nonlinear constant `k<i>` of the extra terms.
+    TermConstant(usize),
     /// Multiplier on the `drag` force (1 = as configured).
     DragScale,
     /// Multiplier on the `srp` force.
@@ -33,6 +37,8 @@ impl Parameter {
             Parameter::EmpiricalConstant(a) => format!("emp_const_{}_km_s2", AXES[*a]),
             Parameter::EmpiricalCos(a) => format!("emp_cos_{}_km_s2", AXES[*a]),
             Parameter::EmpiricalSin(a) => format!("emp_sin_{}_km_s2", AXES[*a]),
+            Parameter::TermCoefficient(i) => format!("term{i}_coefficient"),
+            Parameter::TermConstant(i) => format!("k{i}"),
         }
     }
 
@@ -79,6 +85,9 @@ pub fn argument_of_latitude(x: &StateVector) -> f64 {
 /// A force model with multipliers and empirical accelerations that a fit adjusts.
 pub struct FitModel {
     model: ForceModel,
+    /// Extra formula terms Σ c_i g_i(t, x; k) whose coefficients and constants are
+    /// `TermCoefficient`/`TermConstant` parameters (the learner's refinement).
+    pub extra: Option<ExtraTerms>,
     /// The estimated parameters, in order.
     pub parameters: Vec<Parameter>,
     /// Their current values.
@@ -108,6 +117,7 @@ impl FitModel {
         let values = parameters.iter().map(|p| p.initial_value()).collect();
         Ok(Self {
             model,
+            extra: None,
             parameters,
             values,
             drag_index,
@@ -132,10 +142,25 @@ impl FitModel {
     }
 
     fn has_empirical(&self) -> bool {
-        self.parameters
-            .iter()
-            .zip(&self.values)
-            .any(|(p, v)| !matches!(p, Parameter::DragScale | Parameter::SrpScale) && *v != 0.0)
+        self.parameters.iter().zip(&self.values).any(|(p, v)| {
+            matches!(p, Parameter::EmpiricalConstant(_) | Parameter::EmpiricalCos(_) | Parameter::EmpiricalSin(_)) && *v != 0.0
+        })
+    }
+
+    /// Current coefficients and constants of the extra terms (parameters override the
+    /// values stored in `extra`).
+    fn extra_values(&self) -> Option<(&ExtraTerms, Vec<f64>, Vec<f64>)> {
+        let e = self.extra.as_ref()?;
+        let mut c = e.coefficients.clone();
+        let mut k = e.constants.clone();
+        for (p, v) in self.parameters.iter().zip(&self.values) {
+            match p {
+                Parameter::TermCoefficient(i) if *i < c.len() => c[*i] = *v,
+                Parameter::TermConstant(i) if *i < k.len() => k[*i] = *v,
+                _ => {}
+            }
+        }
+        Some((e, c, k))
     }
 
     /// The empirical acceleration (ECI, km/s²) at state `x`.
@@ -212,6 +237,9 @@ impl Dynamics for FitModel {
         if self.has_empirical() {
             p += central_difference_partials(&EmpiricalTerm(self), t_s, x)?;
         }
+        if let Some((e, c, k)) = self.extra_values() {
+            p += e.partials(t_s, x, &c, &k);
+        }
         Ok(p)
     }
 
@@ -229,6 +257,20 @@ impl Dynamics for FitModel {
                     .acceleration_in(t_s, x, segment)?,
                 Parameter::SrpScale => self.model.forces()[self.srp_index.unwrap_or(0)]
                     .acceleration_in(t_s, x, segment)?,
+                Parameter::TermCoefficient(i) => match self.extra_values() {
+                    Some((e, _, kv)) => e.term(*i, t_s, x, &kv),
+                    None => Vector3::zeros(),
+                },
+                Parameter::TermConstant(j) => match self.extra_values() {
+                    Some((e, c, kv)) => {
+                        let h = 1e-6 * kv[*j].abs().max(1e-12);
+                        let (mut kp, mut km) = (kv.clone(), kv.clone());
+                        kp[*j] += h;
+                        km[*j] -= h;
+                        (e.acceleration(t_s, x, &c, &kp) - e.acceleration(t_s, x, &c, &km)) / (2.0 * h)
+                    }
+                    None => Vector3::zeros(),
+                },
                 Parameter::EmpiricalConstant(a)
                 | Parameter::EmpiricalCos(a)
                 | Parameter::EmpiricalSin(a) => {
@@ -246,5 +288,53 @@ impl Dynamics for FitModel {
             };
         }
         Ok(())
+    }
+}
+
+/// Formula terms added to a fit's dynamics: Σ c_i g_i(t, x; k).
+#[derive(Clone, Debug)]
+pub struct ExtraTerms {
+    /// The formulas (vector-valued, ECI).
+    pub nodes: Vec<crate::expr::Node>,
+    /// Coefficients, km/s² per unit of g_i.
+    pub coefficients: Vec<f64>,
+    /// Values of k0, k1, …
+    pub constants: Vec<f64>,
+    /// Terminal constants; `t` of the formulas is the fit's `t_s`.
+    pub context: crate::expr::Context,
+}
+
+impl ExtraTerms {
+    /// g_i at (t, x) with constants `k`.
+    pub fn term(&self, i: usize, t_s: f64, x: &StateVector, k: &[f64]) -> Vector3<f64> {
+        let p = crate::expr::Terminals::of_state(t_s, x, &self.context);
+        let v = self.nodes[i].eval(&p, k).vector();
+        Vector3::new(v[0], v[1], v[2])
+    }
+
+    /// Σ c_i g_i.
+    pub fn acceleration(&self, t_s: f64, x: &StateVector, c: &[f64], k: &[f64]) -> Vector3<f64> {
+        let p = crate::expr::Terminals::of_state(t_s, x, &self.context);
+        let mut a = Vector3::zeros();
+        for (n, ci) in self.nodes.iter().zip(c) {
+            let v = n.eval(&p, k).vector();
+            a += Vector3::new(v[0], v[1], v[2]) * *ci;
+        }
+        a
+    }
+
+    /// ∂(Σ c_i g_i)/∂x by dual numbers.
+    pub fn partials(&self, t_s: f64, x: &StateVector, c: &[f64], k: &[f64]) -> Matrix3x6<f64> {
+        let p = crate::expr::Terminals::of_state_dual(t_s, x, &self.context);
+        let mut m = Matrix3x6::zeros();
+        for (n, ci) in self.nodes.iter().zip(c) {
+            let v = n.eval(&p, k).vector();
+            for i in 0..3 {
+                for j in 0..6 {
+                    m[(i, j)] += ci * v[i].d[j];
+                }
+            }
+        }
+        m
     }
 }

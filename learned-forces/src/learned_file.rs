@@ -1,0 +1,424 @@
+//! The learned-force file (YAML, versioned) and the force it describes.
+//!
+//! A learned force is Σ_k c_k g_k(t, x; θ): formulas g_k in the formula text, linear
+//! coefficients c_k (km/s² per unit of g_k) with 1σ, and nonlinear constants θ (`k0`…)
+//! with 1σ. The file also carries where it is valid and what to do outside, the fit
+//! statistics, provenance (hashes of the inputs, seed, tool version), the fitted state
+//! at the end of the training arc, and a SHA-256 checksum of its canonical content.
+
+use crate::expr::{parse, Context, Node, Terminals};
+use nalgebra::{Matrix3x6, Vector3};
+use propagator::force::{Force, ForceError};
+use propagator::solar_system::CenturyClock;
+use propagator::{Epoch, StateVector};
+use serde::{Deserialize, Serialize};
+use sha2::{Digest, Sha256};
+use std::path::Path;
+use std::sync::atomic::{AtomicBool, Ordering};
+
+/// The format version this arcwise writes and reads.
+pub const FORMAT_VERSION: u32 = 1;
+
+/// One term.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TermEntry {
+    /// The formula (a vector expression, ECI components).
+    pub formula: String,
+    /// Linear coefficient, km/s² per unit of the formula.
+    pub coefficient: f64,
+    /// Its 1σ.
+    pub sigma: f64,
+}
+
+/// One nonlinear constant.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ConstantEntry {
+    /// `k0`, `k1`, …
+    pub name: String,
+    /// Value (unit as the formula uses it: seconds for a time constant).
+    pub value: f64,
+    /// Its 1σ.
+    pub sigma: f64,
+}
+
+/// Where the force was learned, and what to do outside.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ValidityEntry {
+    /// Start of the training arc, ISO 8601 UTC.
+    pub start_utc: String,
+    /// End of the training arc, ISO 8601 UTC.
+    pub end_utc: String,
+    /// Lowest altitude seen, km.
+    pub min_altitude_km: f64,
+    /// Highest altitude seen, km.
+    pub max_altitude_km: f64,
+    /// `warn` (evaluate, and say so), `zero` (no acceleration) or `refuse` (an error).
+    pub outside: OutsidePolicy,
+    /// Extra time after the end still considered inside, s (prediction needs some).
+    pub time_margin_s: f64,
+    /// Extra altitude margin either side, km.
+    pub altitude_margin_km: f64,
+}
+
+/// Behaviour outside the validity window.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum OutsidePolicy {
+    /// Evaluate anyway; the caller reports that it happened.
+    Warn,
+    /// Contribute nothing.
+    Zero,
+    /// Stop with an error.
+    Refuse,
+}
+
+/// Fit statistics of the learning.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FitEntry {
+    /// Observations in the training arc.
+    pub observations: usize,
+    /// Position RMS with the known forces only, km.
+    pub rms_km_before: f64,
+    /// Position RMS with the learned force, km.
+    pub rms_km_after: f64,
+    /// Position RMS on the held-out tail, km.
+    pub held_out_rms_km: f64,
+    /// χ² after.
+    pub chi2: f64,
+    /// Degrees of freedom after.
+    pub dof: usize,
+}
+
+/// Where the file came from.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ProvenanceEntry {
+    /// `sha256:` of the arc file.
+    pub arc_sha256: String,
+    /// `sha256:` of the forces file.
+    pub forces_sha256: String,
+    /// Search seed.
+    pub seed: u64,
+    /// arcwise version.
+    pub tool_version: String,
+}
+
+/// A state (for `check` to predict from).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct StateEntry {
+    /// ISO 8601 UTC.
+    pub epoch_utc: String,
+    /// ECI position, km.
+    pub r_km: [f64; 3],
+    /// ECI velocity, km/s.
+    pub v_km_s: [f64; 3],
+}
+
+/// Earth constants the terminals use.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct EarthEntry {
+    /// km.
+    pub radius_km: f64,
+    /// rad/s.
+    pub rotation_rad_s: f64,
+}
+
+/// The whole file.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LearnedFile {
+    /// [`FORMAT_VERSION`].
+    pub format_version: u32,
+    /// A name for the force.
+    pub name: String,
+    /// `ECI`: each formula gives ECI components (R, T, N inside them are RTN axes).
+    pub frame: String,
+    /// `t = 0` of the formulas, ISO 8601 UTC.
+    pub epoch_utc: String,
+    /// Earth constants of the terminals.
+    pub earth: EarthEntry,
+    /// Terms (empty when nothing was learned).
+    pub terms: Vec<TermEntry>,
+    /// Nonlinear constants.
+    pub constants: Vec<ConstantEntry>,
+    /// Validity.
+    pub validity: ValidityEntry,
+    /// Fit statistics.
+    pub fit: FitEntry,
+    /// Provenance.
+    pub provenance: ProvenanceEntry,
+    /// Fitted state at the end of the training arc (with the learned force).
+    pub state_at_end: StateEntry,
+    /// Notes for the reader (degenerate terms, verdicts).
+    #[serde(default)]
+    pub notes: Vec<String>,
+    /// `sha256:<hex>` of the canonical content (everything but this field).
+    #[serde(default)]
+    pub checksum: String,
+}
+
+/// A learned file that cannot be used.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("{path}: {message}")]
+pub struct LearnedFileError {
+    /// The file.
+    pub path: String,
+    /// Why.
+    pub message: String,
+}
+
+/// `sha256:<hex>` of bytes.
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    let d = Sha256::digest(bytes);
+    let mut s = String::from("sha256:");
+    for b in d.iter() {
+        s.push_str(&format!("{b:02x}"));
+    }
+    s
+}
+
+impl LearnedFile {
+    /// The checksum of the canonical content: SHA-256 of the JSON of the file with an
+    /// empty checksum field (field order fixed by the struct, numbers shortest round-trip).
+    pub fn compute_checksum(&self) -> String {
+        let mut c = self.clone();
+        c.checksum.clear();
+        let json = serde_json::to_string(&c).unwrap_or_default();
+        sha256_hex(json.as_bytes())
+    }
+
+    /// Sets the checksum and returns the YAML text.
+    pub fn to_yaml(&mut self) -> String {
+        self.checksum = self.compute_checksum();
+        let body = serde_yaml::to_string(&*self).unwrap_or_default();
+        format!("# arcwise learned force (format {FORMAT_VERSION}). Edit nothing: the checksum covers the content.\n{body}")
+    }
+
+    /// Reads and checks a learned file: version, checksum, formulas, constants.
+    pub fn load(path: &Path) -> Result<LearnedFile, LearnedFileError> {
+        let err = |m: String| LearnedFileError {
+            path: path.display().to_string(),
+            message: m,
+        };
+        let text = std::fs::read_to_string(path).map_err(|e| err(format!("cannot read: {e}")))?;
+        Self::parse(&text).map_err(|m| err(m))
+    }
+
+    /// Parses and checks learned-file text.
+    pub fn parse(text: &str) -> Result<LearnedFile, String> {
+        if text.trim().is_empty() {
+            return Err("the file is empty".into());
+        }
+        let f: LearnedFile = serde_yaml::from_str(text).map_err(|e| e.to_string())?;
+        if f.format_version != FORMAT_VERSION {
+            return Err(format!("format_version {} is not supported (this arcwise reads {FORMAT_VERSION})", f.format_version));
+        }
+        let want = f.compute_checksum();
+        if f.checksum != want {
+            return Err(format!("checksum {} does not match the content ({want}): the file was changed after it was written", f.checksum));
+        }
+        f.compile().map(|_| f)
+    }
+
+    /// Parses the formulas and checks the constants; the compiled force's parts.
+    pub fn compile(&self) -> Result<(Vec<Node>, Vec<f64>, Vec<f64>), String> {
+        if self.frame != "ECI" {
+            return Err(format!("frame `{}`: only ECI is supported", self.frame));
+        }
+        let mut nodes = Vec::new();
+        let mut coefs = Vec::new();
+        let mut n_params = 0;
+        for (i, t) in self.terms.iter().enumerate() {
+            let n = parse(&t.formula).map_err(|e| format!("terms[{i}]: {e}"))?;
+            if !t.coefficient.is_finite() {
+                return Err(format!("terms[{i}].coefficient is not finite"));
+            }
+            n_params = n_params.max(n.n_params());
+            nodes.push(n);
+            coefs.push(t.coefficient);
+        }
+        let mut params = vec![f64::NAN; n_params];
+        for c in &self.constants {
+            let idx = c
+                .name
+                .strip_prefix('k')
+                .and_then(|d| d.parse::<usize>().ok())
+                .filter(|i| *i < 10)
+                .ok_or_else(|| format!("constant name `{}` must be k0…k9", c.name))?;
+            if !c.value.is_finite() {
+                return Err(format!("constant {} is not finite", c.name));
+            }
+            if idx < params.len() {
+                params[idx] = c.value;
+            }
+        }
+        if let Some(i) = params.iter().position(|v| v.is_nan()) {
+            return Err(format!("the formulas use k{i} but the constants do not give it"));
+        }
+        Epoch::parse_utc(&self.epoch_utc).map_err(|e| format!("epoch_utc: {e}"))?;
+        Ok((nodes, coefs, params))
+    }
+
+    /// The force, on a time axis whose `t_s = 0` is `reference`.
+    pub fn force(&self, reference: &Epoch) -> Result<LearnedForce, String> {
+        let (nodes, coefs, params) = self.compile()?;
+        let epoch = Epoch::parse_utc(&self.epoch_utc).map_err(|e| e.to_string())?;
+        let start = Epoch::parse_utc(&self.validity.start_utc).map_err(|e| format!("validity.start_utc: {e}"))?;
+        let end = Epoch::parse_utc(&self.validity.end_utc).map_err(|e| format!("validity.end_utc: {e}"))?;
+        Ok(LearnedForce {
+            name: format!("learned:{}", self.name),
+            nodes,
+            coefficients: coefs,
+            params,
+            context: Context {
+                radius_km: self.earth.radius_km,
+                rotation_rad_s: self.earth.rotation_rad_s,
+                clock: CenturyClock::new(&epoch),
+            },
+            offset_s: reference.seconds_since(&epoch),
+            window_s: (
+                start.seconds_since(&epoch),
+                end.seconds_since(&epoch) + self.validity.time_margin_s,
+            ),
+            altitude_km: (
+                self.validity.min_altitude_km - self.validity.altitude_margin_km,
+                self.validity.max_altitude_km + self.validity.altitude_margin_km,
+            ),
+            policy: self.validity.outside,
+            outside_seen: AtomicBool::new(false),
+        })
+    }
+}
+
+/// A learned force evaluated in process (tree evaluation).
+pub struct LearnedForce {
+    name: String,
+    /// The formulas.
+    pub nodes: Vec<Node>,
+    /// Their coefficients, km/s².
+    pub coefficients: Vec<f64>,
+    /// Values of k0, k1, …
+    pub params: Vec<f64>,
+    /// Terminal constants.
+    pub context: Context,
+    /// Formula time = our `t_s` + this, s.
+    pub offset_s: f64,
+    /// Valid formula times, s.
+    pub window_s: (f64, f64),
+    /// Valid altitudes, km.
+    pub altitude_km: (f64, f64),
+    /// Outside policy.
+    pub policy: OutsidePolicy,
+    outside_seen: AtomicBool,
+}
+
+impl LearnedForce {
+    /// Whether a `warn` force was evaluated outside its window at least once.
+    pub fn was_used_outside(&self) -> bool {
+        self.outside_seen.load(Ordering::Relaxed)
+    }
+
+    fn inside(&self, tf: f64, x: &StateVector) -> bool {
+        let h = (x[0] * x[0] + x[1] * x[1] + x[2] * x[2]).sqrt() - self.context.radius_km;
+        tf >= self.window_s.0 && tf <= self.window_s.1 && h >= self.altitude_km.0 && h <= self.altitude_km.1
+    }
+
+    /// Applies the outside policy: `Ok(true)` evaluate, `Ok(false)` contribute zero.
+    fn gate(&self, t_s: f64, tf: f64, x: &StateVector) -> Result<bool, ForceError> {
+        if self.inside(tf, x) {
+            return Ok(true);
+        }
+        match self.policy {
+            OutsidePolicy::Warn => {
+                self.outside_seen.store(true, Ordering::Relaxed);
+                Ok(true)
+            }
+            OutsidePolicy::Zero => Ok(false),
+            OutsidePolicy::Refuse => Err(ForceError {
+                force: self.name.clone(),
+                t_s,
+                reason: "outside the validity window of the learned force (time or altitude)".into(),
+            }),
+        }
+    }
+
+    /// The unscaled term vectors g_k at formula time `tf` (for the learner).
+    pub fn terms_at(&self, tf: f64, x: &StateVector) -> Vec<Vector3<f64>> {
+        let p = Terminals::of_state(tf, x, &self.context);
+        self.nodes
+            .iter()
+            .map(|n| {
+                let v = n.eval(&p, &self.params).vector();
+                Vector3::new(v[0], v[1], v[2])
+            })
+            .collect()
+    }
+}
+
+impl Force for LearnedForce {
+    fn name(&self) -> &str {
+        &self.name
+    }
+
+    fn acceleration(&self, t_s: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
+        let tf = t_s + self.offset_s;
+        if !self.gate(t_s, tf, x)? {
+            return Ok(Vector3::zeros());
+        }
+        let p = Terminals::of_state(tf, x, &self.context);
+        let mut a = Vector3::zeros();
+        for (n, c) in self.nodes.iter().zip(&self.coefficients) {
+            let v = n.eval(&p, &self.params).vector();
+            a += Vector3::new(v[0], v[1], v[2]) * *c;
+        }
+        propagator::force::finite_or_error(&self.name, t_s, a)
+    }
+
+    /// Exact partials by dual-number evaluation.
+    fn partials(&self, t_s: f64, x: &StateVector) -> Result<Matrix3x6<f64>, ForceError> {
+        let tf = t_s + self.offset_s;
+        if !self.gate(t_s, tf, x)? {
+            return Ok(Matrix3x6::zeros());
+        }
+        let p = Terminals::of_state_dual(tf, x, &self.context);
+        let mut m = Matrix3x6::zeros();
+        for (n, c) in self.nodes.iter().zip(&self.coefficients) {
+            let v = n.eval(&p, &self.params).vector();
+            for i in 0..3 {
+                for j in 0..6 {
+                    m[(i, j)] += c * v[i].d[j];
+                }
+            }
+        }
+        Ok(m)
+    }
+}
+
+/// Lets `forces.yaml` `plugins:` name learned-force files (`.yaml`/`.yml`), evaluated in
+/// process.
+pub struct LearnedResolver;
+
+impl propagator::config::PluginResolver for LearnedResolver {
+    fn resolve(&self, path: &Path, checksum: Option<&str>, reference: &Epoch) -> Option<Result<Box<dyn Force>, String>> {
+        let ext = path.extension().and_then(|e| e.to_str())?.to_ascii_lowercase();
+        if ext != "yaml" && ext != "yml" {
+            return None;
+        }
+        Some((|| {
+            let f = LearnedFile::load(path).map_err(|e| e.to_string())?;
+            if let Some(want) = checksum {
+                if f.checksum != want {
+                    return Err(format!("{}: checksum {} is not the expected {want}", path.display(), f.checksum));
+                }
+            }
+            let force = f.force(reference).map_err(|e| format!("{}: {e}", path.display()))?;
+            Ok(Box::new(force) as Box<dyn Force>)
+        })())
+    }
+}
