@@ -19,6 +19,9 @@ use std::sync::atomic::{AtomicBool, Ordering};
 /// The format version this arcwise writes and reads.
 pub const FORMAT_VERSION: u32 = 1;
 
+/// The parts of a compiled learned force: formulas, coefficients, constants.
+pub type Compiled = (Vec<Node>, Vec<f64>, Vec<f64>);
+
 /// One term.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -207,7 +210,7 @@ impl LearnedFile {
             message: m,
         };
         let text = std::fs::read_to_string(path).map_err(|e| err(format!("cannot read: {e}")))?;
-        Self::parse(&text).map_err(|m| err(m))
+        Self::parse(&text).map_err(err)
     }
 
     /// Parses and checks learned-file text.
@@ -217,7 +220,10 @@ impl LearnedFile {
         }
         let f: LearnedFile = serde_yaml::from_str(text).map_err(|e| e.to_string())?;
         if f.format_version != FORMAT_VERSION {
-            return Err(format!("format_version {} is not supported (this arcwise reads {FORMAT_VERSION})", f.format_version));
+            return Err(format!(
+                "format_version {} is not supported (this arcwise reads {FORMAT_VERSION})",
+                f.format_version
+            ));
         }
         let want = f.compute_checksum();
         if f.checksum != want {
@@ -227,7 +233,7 @@ impl LearnedFile {
     }
 
     /// Parses the formulas and checks the constants; the compiled force's parts.
-    pub fn compile(&self) -> Result<(Vec<Node>, Vec<f64>, Vec<f64>), String> {
+    pub fn compile(&self) -> Result<Compiled, String> {
         if self.frame != "ECI" {
             return Err(format!("frame `{}`: only ECI is supported", self.frame));
         }
@@ -259,7 +265,9 @@ impl LearnedFile {
             }
         }
         if let Some(i) = params.iter().position(|v| v.is_nan()) {
-            return Err(format!("the formulas use k{i} but the constants do not give it"));
+            return Err(format!(
+                "the formulas use k{i} but the constants do not give it"
+            ));
         }
         Epoch::parse_utc(&self.epoch_utc).map_err(|e| format!("epoch_utc: {e}"))?;
         Ok((nodes, coefs, params))
@@ -269,8 +277,10 @@ impl LearnedFile {
     pub fn force(&self, reference: &Epoch) -> Result<LearnedForce, String> {
         let (nodes, coefs, params) = self.compile()?;
         let epoch = Epoch::parse_utc(&self.epoch_utc).map_err(|e| e.to_string())?;
-        let start = Epoch::parse_utc(&self.validity.start_utc).map_err(|e| format!("validity.start_utc: {e}"))?;
-        let end = Epoch::parse_utc(&self.validity.end_utc).map_err(|e| format!("validity.end_utc: {e}"))?;
+        let start = Epoch::parse_utc(&self.validity.start_utc)
+            .map_err(|e| format!("validity.start_utc: {e}"))?;
+        let end = Epoch::parse_utc(&self.validity.end_utc)
+            .map_err(|e| format!("validity.end_utc: {e}"))?;
         Ok(LearnedForce {
             name: format!("learned:{}", self.name),
             nodes,
@@ -326,7 +336,10 @@ impl LearnedForce {
 
     fn inside(&self, tf: f64, x: &StateVector) -> bool {
         let h = (x[0] * x[0] + x[1] * x[1] + x[2] * x[2]).sqrt() - self.context.radius_km;
-        tf >= self.window_s.0 && tf <= self.window_s.1 && h >= self.altitude_km.0 && h <= self.altitude_km.1
+        tf >= self.window_s.0
+            && tf <= self.window_s.1
+            && h >= self.altitude_km.0
+            && h <= self.altitude_km.1
     }
 
     /// Applies the outside policy: `Ok(true)` evaluate, `Ok(false)` contribute zero.
@@ -343,7 +356,8 @@ impl LearnedForce {
             OutsidePolicy::Refuse => Err(ForceError {
                 force: self.name.clone(),
                 t_s,
-                reason: "outside the validity window of the learned force (time or altitude)".into(),
+                reason: "outside the validity window of the learned force (time or altitude)"
+                    .into(),
             }),
         }
     }
@@ -405,8 +419,16 @@ impl Force for LearnedForce {
 pub struct LearnedResolver;
 
 impl propagator::config::PluginResolver for LearnedResolver {
-    fn resolve(&self, path: &Path, checksum: Option<&str>, reference: &Epoch) -> Option<Result<Box<dyn Force>, String>> {
-        let ext = path.extension().and_then(|e| e.to_str())?.to_ascii_lowercase();
+    fn resolve(
+        &self,
+        path: &Path,
+        checksum: Option<&str>,
+        reference: &Epoch,
+    ) -> Option<Result<Box<dyn Force>, String>> {
+        let ext = path
+            .extension()
+            .and_then(|e| e.to_str())?
+            .to_ascii_lowercase();
         if ext != "yaml" && ext != "yml" {
             return None;
         }
@@ -414,10 +436,16 @@ impl propagator::config::PluginResolver for LearnedResolver {
             let f = LearnedFile::load(path).map_err(|e| e.to_string())?;
             if let Some(want) = checksum {
                 if f.checksum != want {
-                    return Err(format!("{}: checksum {} is not the expected {want}", path.display(), f.checksum));
+                    return Err(format!(
+                        "{}: checksum {} is not the expected {want}",
+                        path.display(),
+                        f.checksum
+                    ));
                 }
             }
-            let force = f.force(reference).map_err(|e| format!("{}: {e}", path.display()))?;
+            let force = f
+                .force(reference)
+                .map_err(|e| format!("{}: {e}", path.display()))?;
             Ok(Box::new(force) as Box<dyn Force>)
         })())
     }

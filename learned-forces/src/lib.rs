@@ -10,4 +10,5 @@ pub mod scenario;
 
 pub use propagator;
 pub mod expr;
+pub mod learn;
 pub mod learned_file;

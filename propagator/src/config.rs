@@ -134,14 +134,24 @@ pub struct ForcesFile {
 pub trait PluginResolver {
     /// `None` when the entry is not of this resolver's kind (it is then loaded as a
     /// native plugin); otherwise the force or a sentence saying why not.
-    fn resolve(&self, path: &Path, checksum: Option<&str>, reference: &Epoch) -> Option<Result<Box<dyn crate::force::Force>, String>>;
+    fn resolve(
+        &self,
+        path: &Path,
+        checksum: Option<&str>,
+        reference: &Epoch,
+    ) -> Option<Result<Box<dyn crate::force::Force>, String>>;
 }
 
 /// Resolves nothing: every plugin entry is a native library.
 pub struct NativeOnly;
 
 impl PluginResolver for NativeOnly {
-    fn resolve(&self, _p: &Path, _c: Option<&str>, _r: &Epoch) -> Option<Result<Box<dyn crate::force::Force>, String>> {
+    fn resolve(
+        &self,
+        _p: &Path,
+        _c: Option<&str>,
+        _r: &Epoch,
+    ) -> Option<Result<Box<dyn crate::force::Force>, String>> {
         None
     }
 }
@@ -418,7 +428,12 @@ impl ForcesFile {
 
     /// As [`ForcesFile::build`], asking `resolver` first about each plugin entry (the
     /// learner registers learned-force files this way, keeping this crate unaware of it).
-    pub fn build_with(&self, path: &Path, reference: Epoch, resolver: &dyn PluginResolver) -> Result<LoadedForces, ConfigError> {
+    pub fn build_with(
+        &self,
+        path: &Path,
+        reference: Epoch,
+        resolver: &dyn PluginResolver,
+    ) -> Result<LoadedForces, ConfigError> {
         let body = self.central_body;
         let mut model = ForceModel::new().with(TwoBody {
             mu_km3_s2: body.mu_km3_s2,

@@ -77,7 +77,11 @@ pub fn load_and_fit(
     };
     let arc = Arc::load(arc_path, defaults, &spec.central_body).map_err(CliError::input)?;
     let loaded = spec
-        .build_with(forces_path, arc.start(), &learned_forces::learned_file::LearnedResolver)
+        .build_with(
+            forces_path,
+            arc.start(),
+            &learned_forces::learned_file::LearnedResolver,
+        )
         .map_err(CliError::input)?;
     let mut progress = FitProgress::new("fit");
     let result = fit(&arc, loaded.model, options, &mut progress);

@@ -102,7 +102,11 @@ pub fn run(a: Args) -> Result<(), CliError> {
     let initial = load_initial(&a.state, &spec.central_body)?;
     let axis = TimeAxis::new(initial.epoch);
     let loaded = spec
-        .build_with(&a.forces, initial.epoch, &learned_forces::learned_file::LearnedResolver)
+        .build_with(
+            &a.forces,
+            initial.epoch,
+            &learned_forces::learned_file::LearnedResolver,
+        )
         .map_err(CliError::input)?;
     let t_end = axis.seconds(&to);
     if t_end == 0.0 {

@@ -14,7 +14,7 @@
 //! Operators: `+ - * /`, `^n` (small integer powers), `sin cos exp sqrt norm dot cross`.
 
 pub mod num;
-mod parse;
+pub mod parse;
 
 pub use parse::{parse, ParseError};
 

@@ -185,6 +185,13 @@ pub struct FitResult {
     pub converged: bool,
     /// The verdict.
     pub verdict: Verdict,
+    /// Weighted Jacobian of the used measurements at the solution (rows as the stacked
+    /// residual; columns x0 then parameters).
+    pub jacobian: DMatrix<f64>,
+    /// Weighted residual (observed − computed)/σ of the used measurements.
+    pub weighted_residual: DVector<f64>,
+    /// Final values of the estimated parameters (same order as `estimates`).
+    pub values: Vec<f64>,
 }
 
 struct Linearized {
@@ -463,11 +470,16 @@ pub fn fit(
             if !final_stage {
                 break;
             }
-            // Robust editing on the final stage.
+            // Robust editing on the final stage; the last pass only solves, so the
+            // solution always matches the final set of used observations.
+            if edit_passes >= 8 {
+                lin = Some(l);
+                break;
+            }
             let new_edits = edit(&problem, &l, &mut used, &mut reasons, options.edit_sigma);
             lin = Some(l);
             edit_passes += 1;
-            if new_edits == 0 || edit_passes >= 10 {
+            if new_edits == 0 {
                 break;
             }
         }
@@ -535,6 +547,9 @@ pub fn fit(
         iterations,
         converged,
         verdict,
+        jacobian: lin.jac.clone(),
+        weighted_residual: lin.z.clone(),
+        values: fm.values.clone(),
     })
 }
 

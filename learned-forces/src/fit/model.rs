@@ -143,7 +143,12 @@ impl FitModel {
 
     fn has_empirical(&self) -> bool {
         self.parameters.iter().zip(&self.values).any(|(p, v)| {
-            matches!(p, Parameter::EmpiricalConstant(_) | Parameter::EmpiricalCos(_) | Parameter::EmpiricalSin(_)) && *v != 0.0
+            matches!(
+                p,
+                Parameter::EmpiricalConstant(_)
+                    | Parameter::EmpiricalCos(_)
+                    | Parameter::EmpiricalSin(_)
+            ) && *v != 0.0
         })
     }
 
@@ -221,6 +226,9 @@ impl Dynamics for FitModel {
         for (i, f) in self.model.forces().iter().enumerate() {
             a += f.acceleration_in(t_s, x, segment)? * self.multiplier(i);
         }
+        if let Some((e, c, k)) = self.extra_values() {
+            a += e.acceleration(t_s, x, &c, &k);
+        }
         Ok(a + self.empirical(x))
     }
 
@@ -267,7 +275,8 @@ impl Dynamics for FitModel {
                         let (mut kp, mut km) = (kv.clone(), kv.clone());
                         kp[*j] += h;
                         km[*j] -= h;
-                        (e.acceleration(t_s, x, &c, &kp) - e.acceleration(t_s, x, &c, &km)) / (2.0 * h)
+                        (e.acceleration(t_s, x, &c, &kp) - e.acceleration(t_s, x, &c, &km))
+                            / (2.0 * h)
                     }
                     None => Vector3::zeros(),
                 },

@@ -1,0 +1,383 @@
+//! The linearized problem the search works on.
+//!
+//! Around the base fit's reference trajectory, an extra acceleration Σ c_k g_k changes the
+//! observed state by δx(t_i) = Φ(t_i) ∫_{t0}^{t_i} Φ(τ)⁻¹ B Σ c_k g_k(τ) dτ, B = [0; I].
+//! The integral is a cumulative trapezoid on a fine grid through every observation time,
+//! so a candidate costs one pass of its own formulas over the grid and a small
+//! least-squares solve: no new integration. The directions the base fit already
+//! estimated (initial state, classical parameters) are projected out once.
+//! Coefficients: sequentially thresholded least squares on significance |c|/σ on
+//! column-scaled matrices; nonlinear constants by variable projection.
+
+use crate::expr::{Context, Node, Terminals};
+use nalgebra::{DMatrix, DVector, Matrix6};
+use std::collections::HashMap;
+use std::sync::Mutex;
+
+/// One used observation's place in the linearized problem.
+#[derive(Clone, Debug)]
+pub struct ObsRow {
+    /// Index in the grid.
+    pub grid_index: usize,
+    /// Φ(t_i, t0).
+    pub phi: Matrix6<f64>,
+    /// First row in the stacked residual.
+    pub row: usize,
+    /// Measured components: 3 (position) or 6 (position and velocity).
+    pub comps: usize,
+    /// 1σ of each component.
+    pub sigma: [f64; 6],
+}
+
+/// The precomputed linearized problem.
+pub struct Problem {
+    /// Grid times, s from the arc's start.
+    pub grid_t: Vec<f64>,
+    /// Terminals along the reference trajectory at the grid times.
+    pub terminals: Vec<Terminals<f64>>,
+    /// Φ(τ)⁻¹ B at the grid times (6×3 column-major).
+    pub phi_inv_b: Vec<[f64; 18]>,
+    /// The used observations.
+    pub obs: Vec<ObsRow>,
+    /// Orthonormal basis of the base fit's directions (m × p).
+    pub basis: DMatrix<f64>,
+    /// Weighted residual of the base fit (m), projected.
+    pub z: DVector<f64>,
+    /// Terminal constants.
+    pub context: Context,
+    cache: Mutex<HashMap<String, DVector<f64>>>,
+}
+
+/// A solved candidate.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Solution {
+    /// Kept formulas (simplified), in order.
+    pub nodes: Vec<Node>,
+    /// Their coefficients, km/s² per unit.
+    pub coefficients: Vec<f64>,
+    /// Their 1σ.
+    pub sigmas: Vec<f64>,
+    /// Values of k0, k1, …
+    pub constants: Vec<f64>,
+    /// Their 1σ.
+    pub constant_sigmas: Vec<f64>,
+    /// Weighted sum of squared residuals left.
+    pub cost: f64,
+    /// Complexity: nodes of the kept formulas plus one per coefficient.
+    pub complexity: usize,
+    /// Fraction of each kept column's signature that the base fit's directions absorb
+    /// (near 1: nearly indistinguishable from a change of the initial state).
+    pub absorbed: Vec<f64>,
+}
+
+const CACHE_LIMIT: usize = 3000;
+
+impl Problem {
+    /// Assembles the problem. `phi_grid[k]` is Φ at `grid_t[k]`; `states[k]` the reference
+    /// state there; `jac` the base fit's weighted Jacobian and `z` its weighted residual.
+    #[allow(clippy::too_many_arguments)]
+    pub fn new(
+        grid_t: Vec<f64>,
+        states: &[propagator::StateVector],
+        phi_grid: &[Matrix6<f64>],
+        obs: Vec<ObsRow>,
+        jac: &DMatrix<f64>,
+        z: DVector<f64>,
+        context: Context,
+    ) -> Option<Problem> {
+        let terminals = grid_t
+            .iter()
+            .zip(states)
+            .map(|(t, x)| Terminals::of_state(*t, x, &context))
+            .collect();
+        let mut phi_inv_b = Vec::with_capacity(phi_grid.len());
+        for p in phi_grid {
+            let inv = p.try_inverse()?;
+            let mut m = [0.0; 18];
+            for j in 0..3 {
+                for i in 0..6 {
+                    m[j * 6 + i] = inv[(i, 3 + j)];
+                }
+            }
+            phi_inv_b.push(m);
+        }
+        let basis = jac.clone().qr().q();
+        let mut problem = Problem {
+            grid_t,
+            terminals,
+            phi_inv_b,
+            obs,
+            basis,
+            z,
+            context,
+            cache: Mutex::new(HashMap::new()),
+        };
+        let z = problem.project(problem.z.clone());
+        problem.z = z;
+        Some(problem)
+    }
+
+    /// Rows of the stacked residual.
+    pub fn rows(&self) -> usize {
+        self.z.len()
+    }
+
+    fn project(&self, mut a: DVector<f64>) -> DVector<f64> {
+        let c = self.basis.transpose() * &a;
+        a -= &self.basis * c;
+        a
+    }
+
+    /// The unprojected, weighted column of a formula with constants `k`; `None` if the
+    /// formula is not finite along the trajectory.
+    fn raw_column(&self, node: &Node, k: &[f64]) -> Option<DVector<f64>> {
+        let n = self.grid_t.len();
+        let mut cum = vec![[0.0f64; 6]; n];
+        let mut prev = [0.0f64; 6];
+        let mut acc = [0.0f64; 6];
+        for g in 0..n {
+            let v = node.eval(&self.terminals[g], k).vector();
+            if !(v[0].is_finite() && v[1].is_finite() && v[2].is_finite()) {
+                return None;
+            }
+            let m = &self.phi_inv_b[g];
+            let mut f = [0.0f64; 6];
+            for (i, fi) in f.iter_mut().enumerate() {
+                *fi = m[i] * v[0] + m[6 + i] * v[1] + m[12 + i] * v[2];
+            }
+            if g > 0 {
+                let h = 0.5 * (self.grid_t[g] - self.grid_t[g - 1]);
+                for i in 0..6 {
+                    acc[i] += h * (prev[i] + f[i]);
+                }
+            }
+            cum[g] = acc;
+            prev = f;
+        }
+        let mut col = DVector::zeros(self.rows());
+        for o in &self.obs {
+            let f = &cum[o.grid_index];
+            for c in 0..o.comps {
+                let mut s = 0.0;
+                for (j, fj) in f.iter().enumerate() {
+                    s += o.phi[(c, j)] * fj;
+                }
+                col[o.row + c] = s / o.sigma[c];
+            }
+        }
+        Some(col)
+    }
+
+    /// The projected column (cached for formulas without constants).
+    pub fn column(&self, node: &Node, k: &[f64]) -> Option<DVector<f64>> {
+        let cacheable = node.n_params() == 0;
+        let key = node.to_string();
+        if cacheable {
+            if let Ok(c) = self.cache.lock() {
+                if let Some(v) = c.get(&key) {
+                    return Some(v.clone());
+                }
+            }
+        }
+        let col = self.project(self.raw_column(node, k)?);
+        if cacheable {
+            if let Ok(mut c) = self.cache.lock() {
+                if c.len() < CACHE_LIMIT {
+                    c.insert(key, col.clone());
+                }
+            }
+        }
+        Some(col)
+    }
+
+    /// Fraction of a formula's signature absorbed by the base fit's directions.
+    pub fn absorbed_fraction(&self, node: &Node, k: &[f64]) -> f64 {
+        match self.raw_column(node, k) {
+            Some(raw) => {
+                let n0 = raw.norm();
+                if n0 == 0.0 {
+                    return 1.0;
+                }
+                1.0 - (self.project(raw).norm() / n0).powi(2)
+            }
+            None => 1.0,
+        }
+    }
+
+    /// Least squares for fixed constants: coefficients, their covariance diagonal, cost.
+    fn linear(&self, cols: &[DVector<f64>]) -> Option<(Vec<f64>, Vec<f64>, f64)> {
+        let m = self.rows();
+        let n = cols.len();
+        if n == 0 {
+            return Some((vec![], vec![], self.z.norm_squared()));
+        }
+        let scale: Vec<f64> = cols.iter().map(|c| c.norm()).collect();
+        if scale.iter().any(|s| !(s.is_finite() && *s > 0.0)) {
+            return None;
+        }
+        let mut a = DMatrix::zeros(m, n);
+        for (j, c) in cols.iter().enumerate() {
+            a.set_column(j, &(c / scale[j]));
+        }
+        let svd = a.clone().svd(true, true);
+        let smax = svd.singular_values.max();
+        if svd.singular_values.iter().any(|s| *s < 1e-9 * smax) {
+            return None; // columns (nearly) dependent: a duplicate term
+        }
+        let y = svd.solve(&self.z, 1e-12).ok()?;
+        let resid = &self.z - &a * &y;
+        let cost = resid.norm_squared();
+        let dof = (m as f64 - n as f64).max(1.0);
+        let inflate = (cost / dof).max(1.0);
+        let v_t = svd.v_t.as_ref()?;
+        let mut var = vec![0.0; n];
+        for (k, s) in svd.singular_values.iter().enumerate() {
+            for (j, vj) in var.iter_mut().enumerate() {
+                *vj += (v_t[(k, j)] / s).powi(2);
+            }
+        }
+        let c: Vec<f64> = (0..n).map(|j| y[j] / scale[j]).collect();
+        let sig: Vec<f64> = (0..n)
+            .map(|j| (var[j] * inflate).sqrt() / scale[j])
+            .collect();
+        Some((c, sig, cost))
+    }
+
+    fn columns(&self, nodes: &[Node], k: &[f64]) -> Option<Vec<DVector<f64>>> {
+        nodes.iter().map(|n| self.column(n, k)).collect()
+    }
+
+    /// Variable projection: optimizes the constants on the reduced residual (LM with
+    /// finite-difference Jacobian, relative steps); returns constants, their σ, cost.
+    fn varpro(&self, nodes: &[Node], k0: &[f64]) -> Option<(Vec<f64>, Vec<f64>, f64)> {
+        let np = k0.len();
+        let reduced = |k: &[f64]| -> Option<(DVector<f64>, f64)> {
+            let cols = self.columns(nodes, k)?;
+            let (c, _, cost) = self.linear(&cols)?;
+            let mut r = self.z.clone();
+            for (col, ci) in cols.iter().zip(&c) {
+                r -= col * *ci;
+            }
+            Some((r, cost))
+        };
+        let mut k = k0.to_vec();
+        let (mut r, mut cost) = reduced(&k)?;
+        if np == 0 {
+            return Some((k, vec![], cost));
+        }
+        let mut lambda = 1e-3;
+        let mut jac = DMatrix::zeros(r.len(), np);
+        for _ in 0..30 {
+            for j in 0..np {
+                let h = 1e-5 * k[j].abs().max(1e-9);
+                let mut kp = k.clone();
+                kp[j] += h;
+                let (rp, _) = reduced(&kp)?;
+                jac.set_column(j, &((&rp - &r) / h));
+            }
+            let jtj = jac.transpose() * &jac;
+            let g = jac.transpose() * &r;
+            let mut improved = false;
+            for _ in 0..8 {
+                let mut a = jtj.clone();
+                for d in 0..np {
+                    a[(d, d)] += lambda * jtj[(d, d)].max(1e-300);
+                }
+                let Some(step) = a.lu().solve(&(-&g)) else {
+                    lambda *= 10.0;
+                    continue;
+                };
+                let kt: Vec<f64> = k.iter().zip(step.iter()).map(|(a, b)| a + b).collect();
+                match reduced(&kt) {
+                    Some((rt, ct)) if ct < cost => {
+                        let rel = (cost - ct) / cost.max(1e-300);
+                        k = kt;
+                        r = rt;
+                        cost = ct;
+                        lambda = (lambda / 10.0).max(1e-12);
+                        improved = rel > 1e-10;
+                        break;
+                    }
+                    _ => lambda *= 10.0,
+                }
+            }
+            if !improved {
+                break;
+            }
+        }
+        // σ of the constants from the reduced Jacobian (Golub–Pereyra), inflated by the
+        // misfit like the coefficients.
+        let dof = (r.len() as f64 - np as f64).max(1.0);
+        let inflate = (cost / dof).max(1.0);
+        let sig = (jac.transpose() * &jac)
+            .try_inverse()
+            .map(|inv| (0..np).map(|j| (inv[(j, j)] * inflate).sqrt()).collect())
+            .unwrap_or_else(|| vec![f64::INFINITY; np]);
+        Some((k, sig, cost))
+    }
+
+    /// Solves a candidate: variable projection for its constants, then sequentially
+    /// thresholded least squares on significance, re-running variable projection after
+    /// every change of the term set.
+    pub fn solve(&self, candidate: &[Node], k0: &[f64], threshold: f64) -> Option<Solution> {
+        let mut nodes: Vec<Node> = Vec::new();
+        for n in candidate {
+            if bare_angle(n, false) {
+                // `u` jumps by 2π once a revolution: only sin(u) and cos(u) are physical.
+                return None;
+            }
+            let s = n.simplify();
+            if s.ty() == Ok(crate::expr::Ty::Vector) && !nodes.contains(&s) {
+                nodes.push(s);
+            }
+        }
+        if nodes.is_empty() {
+            return None;
+        }
+        let mut k = k0.to_vec();
+        loop {
+            let used = nodes.iter().map(|n| n.n_params()).max().unwrap_or(0);
+            k.resize(used.max(k.len()), 1.0);
+            let (kk, ksig, cost) = self.varpro(&nodes, &k[..used])?;
+            let cols = self.columns(&nodes, &kk)?;
+            let (c, sig, _) = self.linear(&cols)?;
+            let signif: Vec<f64> = c.iter().zip(&sig).map(|(a, s)| a.abs() / s).collect();
+            let (worst, &wv) = signif
+                .iter()
+                .enumerate()
+                .min_by(|a, b| a.1.total_cmp(b.1))
+                .expect("non-empty");
+            if wv >= threshold {
+                let complexity = nodes.iter().map(|n| n.complexity() + 1).sum();
+                let absorbed = nodes
+                    .iter()
+                    .map(|n| self.absorbed_fraction(n, &kk))
+                    .collect();
+                return Some(Solution {
+                    nodes,
+                    coefficients: c,
+                    sigmas: sig,
+                    constants: kk,
+                    constant_sigmas: ksig,
+                    cost,
+                    complexity,
+                    absorbed,
+                });
+            }
+            nodes.remove(worst);
+            if nodes.is_empty() {
+                return None;
+            }
+            k = kk;
+        }
+    }
+}
+
+/// Whether the argument of latitude appears other than as the argument of sin or cos.
+fn bare_angle(n: &Node, inside_trig: bool) -> bool {
+    match n {
+        Node::ArgLat => !inside_trig,
+        Node::Sin(a) | Node::Cos(a) => bare_angle(a, matches!(**a, Node::ArgLat)),
+        other => other.children().into_iter().any(|c| bare_angle(c, false)),
+    }
+}

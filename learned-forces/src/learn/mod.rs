@@ -1,0 +1,593 @@
+//! The learner: from an arc the known forces cannot explain, a short formula for the
+//! missing force, with honest uncertainties, chosen by how well it predicts.
+
+// Numeric kernels index several arrays in step.
+#![allow(clippy::needless_range_loop)]
+
+pub mod linearized;
+pub mod search;
+
+use crate::arc::Arc;
+use crate::expr::{Context, Node};
+use crate::fit::model::{ExtraTerms, FitModel, Parameter};
+use crate::fit::{fit, FitError, FitObserver, FitOptions, FitResult};
+use linearized::{ObsRow, Problem, Solution};
+use nalgebra::{Matrix6, Vector3};
+use propagator::propagation::{output_grid, Options, Request, Silent};
+use propagator::variational::propagate_with_partials;
+use propagator::{Epoch, ForceModel};
+use search::{search, SearchObserver, SearchOptions};
+use std::collections::BTreeSet;
+
+/// Options of the learner.
+#[derive(Clone, Debug)]
+pub struct LearnOptions {
+    /// The base fit (its `estimate` list is kept in every later fit).
+    pub fit: FitOptions,
+    /// The search.
+    pub search: SearchOptions,
+    /// Fraction of the arc (by time, at the end) held out for selection.
+    pub holdout_fraction: f64,
+    /// How many front candidates are refined with the force in the dynamics.
+    pub refine_top: usize,
+    /// The simplest model within this fraction of the best held-out RMS is chosen.
+    pub selection_tolerance: f64,
+    /// Grid spacing of the linearized problem, s.
+    pub grid_step_s: f64,
+}
+
+impl Default for LearnOptions {
+    fn default() -> Self {
+        Self {
+            fit: FitOptions::default(),
+            search: SearchOptions::default(),
+            holdout_fraction: 0.25,
+            refine_top: 5,
+            selection_tolerance: 0.15,
+            grid_step_s: 20.0,
+        }
+    }
+}
+
+/// One entry of the reported front.
+#[derive(Clone, Debug, PartialEq)]
+pub struct FrontEntry {
+    /// Complexity (nodes plus coefficients).
+    pub complexity: usize,
+    /// The model as text: `c0 * (g0) + c1 * (g1)` with the constants substituted.
+    pub formula: String,
+    /// Weighted cost left on the training arc, linearized.
+    pub cost: f64,
+    /// Held-out position RMS after refinement, km (refined candidates only).
+    pub held_out_rms_km: Option<f64>,
+}
+
+/// The chosen model, fitted on the whole arc.
+#[derive(Clone, Debug)]
+pub struct Chosen {
+    /// The formulas.
+    pub nodes: Vec<Node>,
+    /// Coefficients, km/s² per unit.
+    pub coefficients: Vec<f64>,
+    /// Their 1σ.
+    pub sigmas: Vec<f64>,
+    /// k0, k1, … (unused ones are NaN).
+    pub constants: Vec<f64>,
+    /// Their 1σ.
+    pub constant_sigmas: Vec<f64>,
+    /// The fit of the whole arc with the learned force in the dynamics.
+    pub fit: FitResult,
+    /// Held-out RMS of this model (trained on the early part), km.
+    pub held_out_rms_km: f64,
+    /// Fraction of each term's signature absorbed by the initial-state directions.
+    pub absorbed: Vec<f64>,
+}
+
+/// Everything the learner found.
+#[derive(Clone, Debug)]
+pub struct Learned {
+    /// Base fit of the whole arc with the known forces.
+    pub base: FitResult,
+    /// The chosen model; `None` when nothing is anomalous or nothing helps.
+    pub chosen: Option<Chosen>,
+    /// The front, simplest first.
+    pub front: Vec<FrontEntry>,
+    /// Held-out RMS of the base model, km.
+    pub held_out_rms_base_km: Option<f64>,
+    /// Sentences for the report.
+    pub notes: Vec<String>,
+    /// Candidate evaluations, generations, seconds of the search.
+    pub search_stats: Option<(usize, usize, f64)>,
+}
+
+/// Why learning could not be done.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum LearnError {
+    /// A fit failed.
+    #[error(transparent)]
+    Fit(#[from] FitError),
+    /// The inputs cannot support learning.
+    #[error("{0}")]
+    Unfit(String),
+}
+
+fn used_params(n: &Node, out: &mut BTreeSet<usize>) {
+    if let Node::Param(i) = n {
+        out.insert(*i);
+    }
+    for c in n.children() {
+        used_params(c, out);
+    }
+}
+
+/// The model as text with numbers: `2.1e-9 * (exp(-t / k0) * T)` and `k0 = …`.
+pub fn model_text(nodes: &[Node], c: &[f64], k: &[f64]) -> String {
+    let mut used = BTreeSet::new();
+    for n in nodes {
+        used_params(n, &mut used);
+    }
+    let terms: Vec<String> = nodes
+        .iter()
+        .zip(c)
+        .map(|(n, ci)| format!("{ci:.4e} * ({n})"))
+        .collect();
+    let consts: Vec<String> = used
+        .iter()
+        .map(|i| format!("k{i} = {:.6e}", k.get(*i).copied().unwrap_or(f64::NAN)))
+        .collect();
+    if consts.is_empty() {
+        terms.join(" + ")
+    } else {
+        format!("{}; {}", terms.join(" + "), consts.join(", "))
+    }
+}
+
+struct Learner<'a> {
+    arc: &'a Arc,
+    make_model: &'a (dyn Fn(Epoch) -> Result<ForceModel, String> + Sync),
+    options: &'a LearnOptions,
+    context: Context,
+}
+
+impl Learner<'_> {
+    fn model(&self) -> Result<ForceModel, LearnError> {
+        (self.make_model)(self.arc.start()).map_err(LearnError::Unfit)
+    }
+
+    /// Fits `arc` with extra terms (coefficients and used constants estimated).
+    #[allow(clippy::too_many_arguments)]
+    fn refine(
+        &self,
+        arc: &Arc,
+        x0: propagator::StateVector,
+        base_values: &[f64],
+        nodes: &[Node],
+        c0: &[f64],
+        k0: &[f64],
+        observer: &mut dyn FitObserver,
+    ) -> Result<FitResult, LearnError> {
+        let mut used = BTreeSet::new();
+        for n in nodes {
+            used_params(n, &mut used);
+        }
+        let mut estimate = self.options.fit.estimate.clone();
+        let mut init = base_values.to_vec();
+        for (i, c) in c0.iter().enumerate() {
+            estimate.push(Parameter::TermCoefficient(i));
+            init.push(*c);
+        }
+        for &j in &used {
+            estimate.push(Parameter::TermConstant(j));
+            init.push(k0.get(j).copied().unwrap_or(1.0));
+        }
+        let mut constants = k0.to_vec();
+        constants.resize(
+            used.iter()
+                .max()
+                .map(|m| m + 1)
+                .unwrap_or(0)
+                .max(constants.len()),
+            1.0,
+        );
+        let options = FitOptions {
+            estimate,
+            initial_values: Some(init),
+            initial_state: Some(x0),
+            extra: Some(ExtraTerms {
+                nodes: nodes.to_vec(),
+                coefficients: c0.to_vec(),
+                constants,
+                context: self.context,
+            }),
+            ..self.options.fit.clone()
+        };
+        Ok(fit(arc, self.model()?, &options, observer)?)
+    }
+
+    /// Position RMS of the prediction of `arc` by a fitted model, km.
+    fn predict_rms(
+        &self,
+        fitted: &FitResult,
+        nodes: &[Node],
+        held: &Arc,
+    ) -> Result<f64, LearnError> {
+        prediction_rms(
+            self.model()?,
+            fitted,
+            nodes,
+            self.context,
+            held,
+            &self.options.fit,
+        )
+    }
+}
+
+/// Position RMS (km) of `target`'s observations as predicted from a fit: the fit's state
+/// at its first observation, its parameters, and `nodes` as extra terms (coefficients and
+/// constants from the fit's estimates), propagated under `model`.
+pub fn prediction_rms(
+    model: ForceModel,
+    fitted: &FitResult,
+    nodes: &[Node],
+    context: Context,
+    target: &Arc,
+    fit_options: &FitOptions,
+) -> Result<f64, LearnError> {
+    {
+        let mut fm = FitModel::new(
+            model,
+            fitted.estimates.iter().map(|e| e.parameter).collect(),
+        )
+        .map_err(LearnError::Unfit)?;
+        fm.values = fitted.values.clone();
+        if !nodes.is_empty() {
+            let n_k = fitted
+                .estimates
+                .iter()
+                .filter_map(|e| {
+                    if let Parameter::TermConstant(j) = e.parameter {
+                        Some(j + 1)
+                    } else {
+                        None
+                    }
+                })
+                .max()
+                .unwrap_or(0);
+            fm.extra = Some(ExtraTerms {
+                nodes: nodes.to_vec(),
+                coefficients: vec![0.0; nodes.len()],
+                constants: vec![1.0; n_k],
+                context,
+            });
+        }
+        let held = target;
+        let times: Vec<f64> = held
+            .observations
+            .iter()
+            .map(|o| o.epoch.seconds_since(&fitted.epoch0))
+            .collect();
+        let options = Options {
+            settings: fit_options.settings,
+            altitude_floor_km: fit_options.altitude_floor_km,
+            ..Options::default()
+        };
+        let req = Request {
+            x0: fitted.x0,
+            t0_s: 0.0,
+            t_end_s: *times.last().unwrap_or(&0.0),
+            output_times_s: &times,
+            stop_times_s: &[],
+        };
+        let samples = propagate_with_partials(&fm, &req, &options, &mut Silent)
+            .map_err(|e| LearnError::Unfit(e.to_string()))?;
+        let mut ss = 0.0;
+        for (s, o) in samples.iter().zip(&held.observations) {
+            ss += (o.r_km - Vector3::new(s.state[0], s.state[1], s.state[2])).norm_squared();
+        }
+        Ok((ss / samples.len().max(1) as f64).sqrt())
+    }
+}
+
+impl Learner<'_> {
+    /// The linearized problem around a fit of `train`.
+    fn problem(&self, train: &Arc, base: &FitResult) -> Result<Problem, LearnError> {
+        let t_obs: Vec<f64> = train
+            .observations
+            .iter()
+            .map(|o| o.epoch.seconds_since(&train.start()))
+            .collect();
+        let span = *t_obs.last().unwrap_or(&0.0);
+        let mut grid = output_grid(0.0, span, self.options.grid_step_s);
+        grid.extend(&t_obs);
+        grid.sort_by(|a, b| a.total_cmp(b));
+        grid.dedup_by(|a, b| (*a - *b).abs() < 1e-6);
+        let mut fm = FitModel::new(
+            self.model()?,
+            base.estimates.iter().map(|e| e.parameter).collect(),
+        )
+        .map_err(LearnError::Unfit)?;
+        fm.values = base.values.clone();
+        let options = Options {
+            settings: self.options.fit.settings,
+            altitude_floor_km: self.options.fit.altitude_floor_km,
+            ..Options::default()
+        };
+        let req = Request {
+            x0: base.x0,
+            t0_s: 0.0,
+            t_end_s: span,
+            output_times_s: &grid,
+            stop_times_s: &[],
+        };
+        let samples = propagate_with_partials(&fm, &req, &options, &mut Silent)
+            .map_err(|e| LearnError::Unfit(e.to_string()))?;
+        let states: Vec<_> = samples.iter().map(|s| s.state).collect();
+        let phis: Vec<Matrix6<f64>> = samples.iter().map(|s| s.phi).collect();
+        let mut rows = Vec::new();
+        let mut row = 0;
+        for (i, o) in train.observations.iter().enumerate() {
+            if !base.residuals[i].used {
+                continue;
+            }
+            let gi = grid.partition_point(|g| *g < t_obs[i] - 1e-6);
+            let comps = if o.v_km_s.is_some() { 6 } else { 3 };
+            let mut sigma = [o.sigma_km; 6];
+            for s in sigma.iter_mut().skip(3) {
+                *s = o.sigma_km_s;
+            }
+            rows.push(ObsRow {
+                grid_index: gi,
+                phi: phis[gi],
+                row,
+                comps,
+                sigma,
+            });
+            row += comps;
+        }
+        if row != base.weighted_residual.len() {
+            return Err(LearnError::Unfit(
+                "internal: residual rows do not match".into(),
+            ));
+        }
+        Problem::new(
+            grid,
+            &states,
+            &phis,
+            rows,
+            &base.jacobian,
+            base.weighted_residual.clone(),
+            self.context,
+        )
+        .ok_or_else(|| LearnError::Unfit("the transition matrix is singular along the arc".into()))
+    }
+}
+
+/// Learns the missing force of `arc` under the known forces `make_model(epoch)` builds.
+pub fn learn(
+    arc: &Arc,
+    make_model: &(dyn Fn(Epoch) -> Result<ForceModel, String> + Sync),
+    context: Context,
+    options: &LearnOptions,
+    fit_observer: &mut dyn FitObserver,
+    search_observer: &dyn SearchObserver,
+) -> Result<Learned, LearnError> {
+    let l = Learner {
+        arc,
+        make_model,
+        options,
+        context,
+    };
+    let base = fit(arc, l.model()?, &options.fit, fit_observer)?;
+    let mut notes = Vec::new();
+    if !base.verdict.anomaly {
+        notes.push("the base fit's verdict is no_anomaly: the known forces explain the arc; nothing was learned".into());
+        return Ok(Learned {
+            base,
+            chosen: None,
+            front: vec![],
+            held_out_rms_base_km: None,
+            notes,
+            search_stats: None,
+        });
+    }
+    // Train on the early part, hold out the tail.
+    let span = arc.end().seconds_since(&arc.start());
+    let cut = (1.0 - options.holdout_fraction) * span;
+    let (train_obs, held_obs): (Vec<_>, Vec<_>) = arc
+        .observations
+        .iter()
+        .partition(|o| o.epoch.seconds_since(&arc.start()) <= cut);
+    let train = Arc {
+        observations: train_obs.into_iter().copied().collect(),
+    };
+    let held = Arc {
+        observations: held_obs.into_iter().copied().collect(),
+    };
+    if train.observations.len() < 10 || held.observations.is_empty() {
+        return Err(LearnError::Unfit(
+            "the arc is too short to hold out a part for selection".into(),
+        ));
+    }
+    let base_train = fit(
+        &train,
+        l.model()?,
+        &FitOptions {
+            initial_state: Some(base.x0),
+            ..options.fit.clone()
+        },
+        fit_observer,
+    )?;
+    let held_out_base = l.predict_rms(&base_train, &[], &held)?;
+    let problem = l.problem(&train, &base_train)?;
+    let sopts = SearchOptions {
+        span_s: cut,
+        ..options.search.clone()
+    };
+    let found = search(&problem, &sopts, search_observer);
+    let mut front: Vec<FrontEntry> = found
+        .front
+        .iter()
+        .map(|s| FrontEntry {
+            complexity: s.complexity,
+            formula: model_text(&s.nodes, &s.coefficients, &s.constants),
+            cost: s.cost,
+            held_out_rms_km: None,
+        })
+        .collect();
+    // Refine the most promising front members with the force in the dynamics, then
+    // re-test each term's significance around the refined solution.
+    let mut refined: Vec<(usize, Solution, FitResult, f64)> = Vec::new();
+    let mut order: Vec<usize> = (0..found.front.len()).collect();
+    order.sort_by(|&a, &b| found.front[a].cost.total_cmp(&found.front[b].cost));
+    order.truncate(options.refine_top);
+    order.sort();
+    for idx in order {
+        let mut sol = found.front[idx].clone();
+        let mut result = None;
+        for _ in 0..sol.nodes.len() {
+            let r = match l.refine(
+                &train,
+                base_train.x0,
+                &base_train.values,
+                &sol.nodes,
+                &sol.coefficients,
+                &sol.constants,
+                fit_observer,
+            ) {
+                Ok(r) => r,
+                Err(_) => break,
+            };
+            let nb = options.fit.estimate.len();
+            let signif: Vec<f64> = (0..sol.nodes.len())
+                .map(|i| {
+                    let e = &r.estimates[nb + i];
+                    e.value.abs() / e.sigma.max(1e-300)
+                })
+                .collect();
+            let (worst, wv) = signif
+                .iter()
+                .copied()
+                .enumerate()
+                .min_by(|a, b| a.1.total_cmp(&b.1))
+                .unwrap_or((0, f64::INFINITY));
+            if wv >= options.search.threshold || sol.nodes.len() == 1 {
+                if wv >= options.search.threshold {
+                    result = Some(r);
+                }
+                break;
+            }
+            sol.nodes.remove(worst);
+            sol.coefficients.remove(worst);
+        }
+        let Some(r) = result else { continue };
+        let rms = l.predict_rms(&r, &sol.nodes, &held)?;
+        if let Some(f) = front
+            .iter_mut()
+            .find(|f| f.complexity == found.front[idx].complexity)
+        {
+            f.held_out_rms_km = Some(rms);
+        }
+        refined.push((idx, sol, r, rms));
+    }
+    let best = refined.iter().map(|r| r.3).fold(f64::INFINITY, f64::min);
+    let chosen_one = refined
+        .iter()
+        .filter(|r| r.3 <= best * (1.0 + options.selection_tolerance))
+        .min_by_key(|r| r.1.nodes.iter().map(|n| n.complexity() + 1).sum::<usize>());
+    let stats = Some((found.evaluations, found.generations, found.seconds));
+    let Some((_, sol, train_fit, rms)) = chosen_one.cloned() else {
+        notes.push("no candidate survived refinement with significant terms".into());
+        return Ok(Learned {
+            base,
+            chosen: None,
+            front,
+            held_out_rms_base_km: Some(held_out_base),
+            notes,
+            search_stats: stats,
+        });
+    };
+    if rms >= held_out_base {
+        notes.push(format!(
+            "the best model predicts the held-out tail no better than the known forces ({:.1} m vs {:.1} m): nothing learned",
+            rms * 1e3,
+            held_out_base * 1e3
+        ));
+        return Ok(Learned {
+            base,
+            chosen: None,
+            front,
+            held_out_rms_base_km: Some(held_out_base),
+            notes,
+            search_stats: stats,
+        });
+    }
+    // Final fit on the whole arc.
+    let nb = options.fit.estimate.len();
+    let c0: Vec<f64> = (0..sol.nodes.len())
+        .map(|i| train_fit.values[nb + i])
+        .collect();
+    let mut k0 = sol.constants.clone();
+    for e in &train_fit.estimates {
+        if let Parameter::TermConstant(j) = e.parameter {
+            if j < k0.len() {
+                k0[j] = e.value;
+            }
+        }
+    }
+    let full = l.refine(
+        arc,
+        base.x0,
+        &base.values,
+        &sol.nodes,
+        &c0,
+        &k0,
+        fit_observer,
+    )?;
+    let mut coefficients = Vec::new();
+    let mut sigmas = Vec::new();
+    let mut constants = vec![f64::NAN; k0.len()];
+    let mut constant_sigmas = vec![f64::NAN; k0.len()];
+    for e in &full.estimates {
+        match e.parameter {
+            Parameter::TermCoefficient(_) => {
+                coefficients.push(e.value);
+                sigmas.push(e.sigma);
+            }
+            Parameter::TermConstant(j) if j < constants.len() => {
+                constants[j] = e.value;
+                constant_sigmas[j] = e.sigma;
+            }
+            _ => {}
+        }
+    }
+    let absorbed: Vec<f64> = sol
+        .nodes
+        .iter()
+        .map(|n| problem.absorbed_fraction(n, &k0))
+        .collect();
+    for (n, a) in sol.nodes.iter().zip(&absorbed) {
+        if *a > 0.999 {
+            notes.push(format!(
+                "term `{n}`: {:.0}% of its signature on this arc is indistinguishable from a change of the initial state; its coefficient rests on the rest",
+                a * 100.0
+            ));
+        }
+    }
+    Ok(Learned {
+        base,
+        chosen: Some(Chosen {
+            nodes: sol.nodes,
+            coefficients,
+            sigmas,
+            constants,
+            constant_sigmas,
+            fit: full,
+            held_out_rms_km: rms,
+            absorbed,
+        }),
+        front,
+        held_out_rms_base_km: Some(held_out_base),
+        notes,
+        search_stats: stats,
+    })
+}
