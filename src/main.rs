@@ -25,6 +25,8 @@ enum Command {
     Simulate(commands::simulate::Args),
     /// Fit an arc with the known forces: state, residuals in RTN, anomaly verdict.
     Fit(commands::fit::Args),
+    /// Learn the missing force of an arc as a formula: a learned-force file and a report.
+    Learn(commands::learn::Args),
     /// Propagate a state with a force model into an ephemeris (OEM or CSV).
     Propagate(commands::propagate::Args),
 }
@@ -42,6 +44,7 @@ fn main() -> ExitCode {
     let result: Result<(), CliError> = match cli.command {
         Command::Simulate(args) => commands::simulate::run(args),
         Command::Fit(args) => commands::fit::run(args),
+        Command::Learn(args) => commands::learn::run(args),
         Command::Propagate(args) => commands::propagate::run(args),
     };
     match result {

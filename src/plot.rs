@@ -81,8 +81,18 @@ pub fn write_panels(
                 .y_label_area_size(80)
                 .build_cartesian_2d(x0..x1, (y0 - pad)..(y1 + pad))
                 .map_err(|e| fail(e.to_string()))?;
+            let span = (y1 - y0).abs().max(y1.abs()).max(y0.abs());
+            let exponent = !(1e-2..1e5).contains(&span);
+            let fmt_y = move |v: &f64| {
+                if exponent {
+                    format!("{v:.2e}")
+                } else {
+                    format!("{v:.1}")
+                }
+            };
             chart
                 .configure_mesh()
+                .y_label_formatter(&fmt_y)
                 .x_desc(x_label)
                 .y_desc(panel.y_label.as_str())
                 .label_style(("sans-serif", 14))

@@ -94,3 +94,53 @@ impl learned_forces::fit::FitObserver for FitProgress {
         }
     }
 }
+
+/// A bar over search generations: best cost, front size, candidates per second.
+pub struct SearchProgress {
+    bar: Option<ProgressBar>,
+}
+
+impl SearchProgress {
+    /// A bar labelled `label` over `generations`.
+    pub fn new(label: &str, generations: usize) -> Self {
+        let bar = std::io::stderr().is_terminal().then(|| {
+            let b = ProgressBar::with_draw_target(
+                Some(generations as u64),
+                ProgressDrawTarget::stderr(),
+            );
+            b.set_style(
+                ProgressStyle::with_template("{prefix} [{bar:30}] generation {pos}/{len} {msg}")
+                    .unwrap_or_else(|_| ProgressStyle::default_bar())
+                    .progress_chars("=> "),
+            );
+            b.set_prefix(label.to_string());
+            b
+        });
+        Self { bar }
+    }
+
+    /// Removes the bar.
+    pub fn finish(&self) {
+        if let Some(b) = &self.bar {
+            b.finish_and_clear();
+        }
+    }
+}
+
+impl learned_forces::learn::search::SearchObserver for SearchProgress {
+    fn on_generation(
+        &self,
+        generation: usize,
+        _generations: usize,
+        best_cost: f64,
+        front: usize,
+        evals_per_s: f64,
+    ) {
+        if let Some(b) = &self.bar {
+            b.set_position(generation as u64);
+            b.set_message(format!(
+                "best cost {best_cost:.1}, front {front}, {evals_per_s:.0} candidates/s"
+            ));
+        }
+    }
+}

@@ -1,0 +1,425 @@
+//! `arcwise learn`: an arc + forces → a learned-force file, the Pareto front, a report,
+//! plots.
+
+use crate::commands::fit::{fit_json, parse_estimate, plot_residuals};
+use crate::error::CliError;
+use crate::plot::{write_panels, Panel, Series};
+use crate::progress::{FitProgress, SearchProgress};
+use crate::report::write_report;
+use clap::Args as ClapArgs;
+use learned_forces::arc::{Arc, ArcDefaults};
+use learned_forces::expr::Context;
+use learned_forces::fit::FitOptions;
+use learned_forces::learn::search::SearchOptions;
+use learned_forces::learn::{learn, model_text, trajectory, LearnOptions, Learned};
+use learned_forces::learned_file::{
+    sha256_hex, ConstantEntry, EarthEntry, FitEntry, LearnedFile, LearnedResolver, OutsidePolicy,
+    ProvenanceEntry, StateEntry, TermEntry, ValidityEntry, FORMAT_VERSION,
+};
+use propagator::config::ForcesFile;
+use propagator::ephemeris::write_atomically;
+use propagator::frames::eci_to_rtn;
+use propagator::solar_system::CenturyClock;
+use std::path::{Path, PathBuf};
+use std::time::Duration;
+
+/// Options of `arcwise learn`.
+#[derive(ClapArgs, Debug)]
+pub struct Args {
+    /// Observation arc (.csv or .oem).
+    #[arg(long, value_name = "ARC.csv")]
+    arc: PathBuf,
+    /// Known force model.
+    #[arg(long, value_name = "FORCES.yaml")]
+    forces: PathBuf,
+    /// The learned-force file to write.
+    #[arg(long, value_name = "LEARNED.yaml")]
+    out: PathBuf,
+    /// Write a JSON report here.
+    #[arg(long, value_name = "R.json")]
+    report: Option<PathBuf>,
+    /// Write plots (SVG) into this folder.
+    #[arg(long, value_name = "DIR")]
+    plot: Option<PathBuf>,
+    /// Search seed.
+    #[arg(long, default_value_t = 1)]
+    seed: u64,
+    /// Wall-clock budget of the search, s (stops at a generation boundary; results then
+    /// depend on the machine's speed).
+    #[arg(long, value_name = "SECONDS")]
+    time_limit: Option<f64>,
+    /// Threads for the search (default: all cores). Results do not depend on it.
+    #[arg(long)]
+    threads: Option<usize>,
+    /// Generations of the search.
+    #[arg(long, default_value_t = 16)]
+    generations: usize,
+    /// Individuals per generation.
+    #[arg(long, default_value_t = 96)]
+    population: usize,
+    /// Classical parameters estimated with the state in every fit.
+    #[arg(long, value_delimiter = ',', value_name = "LIST")]
+    estimate: Vec<String>,
+    /// σ of observations without a sigma_km column, km.
+    #[arg(long, default_value_t = 0.01, value_name = "KM")]
+    sigma_km: f64,
+    /// What the learned force does outside its validity window: warn, zero or refuse.
+    #[arg(long, default_value = "warn")]
+    outside: String,
+    /// A name for the learned force (default: from the arc file).
+    #[arg(long)]
+    name: Option<String>,
+}
+
+/// Runs the command.
+pub fn run(a: Args) -> Result<(), CliError> {
+    let outside = match a.outside.as_str() {
+        "warn" => OutsidePolicy::Warn,
+        "zero" => OutsidePolicy::Zero,
+        "refuse" => OutsidePolicy::Refuse,
+        o => {
+            return Err(CliError::input(format!(
+                "--outside {o}: expected warn, zero or refuse"
+            )))
+        }
+    };
+    if a.generations == 0 || a.population < 8 {
+        return Err(CliError::input(
+            "--generations must be at least 1 and --population at least 8",
+        ));
+    }
+    if let Some(t) = a.time_limit {
+        if !(t.is_finite() && t > 0.0) {
+            return Err(CliError::input(
+                "--time-limit must be a positive number of seconds",
+            ));
+        }
+    }
+    if !(a.sigma_km.is_finite() && a.sigma_km > 0.0) {
+        return Err(CliError::input("--sigma-km must be positive (km)"));
+    }
+    let estimate = parse_estimate(&a.estimate)?;
+    let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
+    let defaults = ArcDefaults {
+        sigma_km: a.sigma_km,
+        ..ArcDefaults::default()
+    };
+    let arc = Arc::load(&a.arc, defaults, &spec.central_body).map_err(CliError::input)?;
+    // Check the model builds before the long work.
+    spec.build_with(&a.forces, arc.start(), &LearnedResolver)
+        .map_err(CliError::input)?;
+    let forces_path = a.forces.clone();
+    let spec_for_build = spec.clone();
+    let make = move |e: propagator::Epoch| {
+        spec_for_build
+            .build_with(&forces_path, e, &LearnedResolver)
+            .map(|l| l.model)
+            .map_err(|e| e.to_string())
+    };
+    let context = Context {
+        radius_km: spec.central_body.radius_km,
+        rotation_rad_s: spec.central_body.rotation_rad_s,
+        clock: CenturyClock::new(&arc.start()),
+    };
+    let options = LearnOptions {
+        fit: FitOptions {
+            estimate,
+            ..FitOptions::default()
+        },
+        search: SearchOptions {
+            population: a.population,
+            generations: a.generations,
+            seed: a.seed,
+            time_limit: a.time_limit.map(Duration::from_secs_f64),
+            ..SearchOptions::default()
+        },
+        ..LearnOptions::default()
+    };
+    let mut builder = rayon::ThreadPoolBuilder::new();
+    if let Some(n) = a.threads {
+        if n == 0 {
+            return Err(CliError::input("--threads must be at least 1"));
+        }
+        builder = builder.num_threads(n);
+    }
+    let pool = builder
+        .build()
+        .map_err(|e| CliError::input(format!("--threads: {e}")))?;
+    let mut fit_progress = FitProgress::new("learn: fit");
+    let search_progress = SearchProgress::new("learn: search", a.generations);
+    let learned = pool.install(|| {
+        learn(
+            &arc,
+            &make,
+            context,
+            &options,
+            &mut fit_progress,
+            &search_progress,
+        )
+    });
+    fit_progress.finish();
+    search_progress.finish();
+    let learned = learned.map_err(|e| CliError::input(format!("{}: {e}", a.arc.display())))?;
+
+    let name = a.name.clone().unwrap_or_else(|| {
+        a.arc
+            .file_stem()
+            .map(|s| s.to_string_lossy().to_string())
+            .unwrap_or_else(|| "learned".into())
+    });
+    let mut file = learned_file(&a, &arc, &spec, &learned, &name, outside)?;
+    write_atomically(&a.out, file.to_yaml().as_bytes()).map_err(CliError::input)?;
+    summarize(&learned, &a.out);
+    if let Some(dir) = &a.plot {
+        plots(dir, &learned, &make, context, &options.fit)?;
+    }
+    if let Some(path) = &a.report {
+        write_report(path, &report(&a, &learned, &file))?;
+    }
+    Ok(())
+}
+
+fn learned_file(
+    a: &Args,
+    arc: &Arc,
+    spec: &ForcesFile,
+    l: &Learned,
+    name: &str,
+    outside: OutsidePolicy,
+) -> Result<LearnedFile, CliError> {
+    let read = |p: &Path| {
+        std::fs::read(p)
+            .map(|b| sha256_hex(&b))
+            .map_err(|e| CliError::input(format!("{}: {e}", p.display())))
+    };
+    let r = spec.central_body.radius_km;
+    let heights: Vec<f64> = arc.observations.iter().map(|o| o.r_km.norm() - r).collect();
+    let span = arc.end().seconds_since(&arc.start());
+    let (terms, constants, fit, end) = match &l.chosen {
+        Some(c) => {
+            let terms = c
+                .nodes
+                .iter()
+                .zip(c.coefficients.iter().zip(&c.sigmas))
+                .map(|(n, (v, s))| TermEntry {
+                    formula: n.to_string(),
+                    coefficient: *v,
+                    sigma: *s,
+                })
+                .collect();
+            let constants = c
+                .constants
+                .iter()
+                .zip(&c.constant_sigmas)
+                .enumerate()
+                .filter(|(_, (v, _))| v.is_finite())
+                .map(|(i, (v, s))| ConstantEntry {
+                    name: format!("k{i}"),
+                    value: *v,
+                    sigma: *s,
+                })
+                .collect();
+            let fit = FitEntry {
+                observations: arc.observations.len(),
+                rms_km_before: l.base.rms_km,
+                rms_km_after: c.fit.rms_km,
+                held_out_rms_km: c.held_out_rms_km,
+                chi2: c.fit.verdict.chi2,
+                dof: c.fit.verdict.dof,
+            };
+            (terms, constants, fit, (&c.fit.epoch_last, c.fit.x_last))
+        }
+        None => (
+            vec![],
+            vec![],
+            FitEntry {
+                observations: arc.observations.len(),
+                rms_km_before: l.base.rms_km,
+                rms_km_after: l.base.rms_km,
+                held_out_rms_km: l.held_out_rms_base_km.unwrap_or(f64::NAN).max(0.0),
+                chi2: l.base.verdict.chi2,
+                dof: l.base.verdict.dof,
+            },
+            (&l.base.epoch_last, l.base.x_last),
+        ),
+    };
+    let mut fit = fit;
+    if !fit.held_out_rms_km.is_finite() {
+        fit.held_out_rms_km = 0.0;
+    }
+    Ok(LearnedFile {
+        format_version: FORMAT_VERSION,
+        name: name.to_string(),
+        frame: "ECI".into(),
+        epoch_utc: arc.start().to_utc_string(),
+        earth: EarthEntry {
+            radius_km: r,
+            rotation_rad_s: spec.central_body.rotation_rad_s,
+        },
+        terms,
+        constants,
+        validity: ValidityEntry {
+            start_utc: arc.start().to_utc_string(),
+            end_utc: arc.end().to_utc_string(),
+            min_altitude_km: heights.iter().copied().fold(f64::INFINITY, f64::min),
+            max_altitude_km: heights.iter().copied().fold(f64::NEG_INFINITY, f64::max),
+            outside,
+            time_margin_s: span,
+            altitude_margin_km: 20.0,
+        },
+        fit,
+        provenance: ProvenanceEntry {
+            arc_sha256: read(&a.arc)?,
+            forces_sha256: read(&a.forces)?,
+            seed: a.seed,
+            tool_version: env!("CARGO_PKG_VERSION").into(),
+        },
+        state_at_end: StateEntry {
+            epoch_utc: end.0.to_utc_string(),
+            r_km: [end.1[0], end.1[1], end.1[2]],
+            v_km_s: [end.1[3], end.1[4], end.1[5]],
+        },
+        notes: l.notes.clone(),
+        checksum: String::new(),
+    })
+}
+
+fn summarize(l: &Learned, out: &Path) {
+    let v = &l.base.verdict;
+    println!(
+        "base fit: RMS {:.2} m, χ² {:.1} on {} dof, verdict {}",
+        l.base.rms_km * 1e3,
+        v.chi2,
+        v.dof,
+        if v.anomaly { "anomaly" } else { "no_anomaly" }
+    );
+    if let Some((n, g, s)) = l.search_stats {
+        println!(
+            "search: {n} candidates in {g} generations, {s:.1} s ({:.0} per second)",
+            n as f64 / s.max(1e-9)
+        );
+    }
+    for f in &l.front {
+        let held = f
+            .held_out_rms_km
+            .map(|h| format!(", held-out {:.2} m", h * 1e3))
+            .unwrap_or_default();
+        println!(
+            "  front [{}] cost {:.1}{held}: {}",
+            f.complexity, f.cost, f.formula
+        );
+    }
+    match &l.chosen {
+        Some(c) => {
+            println!(
+                "learned: {}\n  RMS {:.2} m → {:.2} m; held-out {:.2} m (known forces: {:.2} m)",
+                model_text(&c.nodes, &c.coefficients, &c.constants),
+                l.base.rms_km * 1e3,
+                c.fit.rms_km * 1e3,
+                c.held_out_rms_km * 1e3,
+                l.held_out_rms_base_km.unwrap_or(f64::NAN) * 1e3
+            );
+            for (n, (v, s)) in c.nodes.iter().zip(c.coefficients.iter().zip(&c.sigmas)) {
+                println!("  {n}: {v:.6e} ± {s:.2e} km/s² per unit");
+            }
+            for (i, (v, s)) in c.constants.iter().zip(&c.constant_sigmas).enumerate() {
+                if v.is_finite() {
+                    println!("  k{i} = {v:.6e} ± {s:.2e}");
+                }
+            }
+        }
+        None => println!("learned: no terms"),
+    }
+    for n in &l.notes {
+        println!("note: {n}");
+    }
+    println!("wrote {}", out.display());
+}
+
+fn report(a: &Args, l: &Learned, file: &LearnedFile) -> serde_json::Value {
+    let chosen = l.chosen.as_ref();
+    serde_json::json!({
+        "command": "learn",
+        "arcwise_version": env!("CARGO_PKG_VERSION"),
+        "arc_file": a.arc.display().to_string(),
+        "forces_file": a.forces.display().to_string(),
+        "learned_file": a.out.display().to_string(),
+        "checksum": file.checksum,
+        "seed": a.seed,
+        "verdict": if l.base.verdict.anomaly { "anomaly" } else { "no_anomaly" },
+        "base_fit": fit_json(&l.base),
+        "model": chosen.map(|c| model_text(&c.nodes, &c.coefficients, &c.constants)),
+        "terms": file.terms.iter().map(|t| serde_json::json!({"formula": t.formula, "coefficient": t.coefficient, "sigma": t.sigma})).collect::<Vec<_>>(),
+        "constants": file.constants.iter().map(|c| serde_json::json!({"name": c.name, "value": c.value, "sigma": c.sigma})).collect::<Vec<_>>(),
+        "rms_km_before": l.base.rms_km,
+        "rms_km_after": chosen.map(|c| c.fit.rms_km).unwrap_or(l.base.rms_km),
+        "held_out_rms_km": chosen.map(|c| c.held_out_rms_km),
+        "held_out_rms_km_known_forces": l.held_out_rms_base_km,
+        "pareto_front": l.front.iter().map(|f| serde_json::json!({
+            "complexity": f.complexity, "cost": f.cost, "formula": f.formula, "held_out_rms_km": f.held_out_rms_km,
+        })).collect::<Vec<_>>(),
+        "search": l.search_stats.map(|(n, g, s)| serde_json::json!({"candidates": n, "generations": g, "seconds": s})),
+        "notes": l.notes,
+        "learned_fit": chosen.map(|c| fit_json(&c.fit)),
+    })
+}
+
+fn plots(
+    dir: &Path,
+    l: &Learned,
+    make: &(dyn Fn(propagator::Epoch) -> Result<propagator::ForceModel, String> + Sync),
+    context: Context,
+    fit: &FitOptions,
+) -> Result<(), CliError> {
+    plot_residuals(
+        &dir.join("residuals_before.svg"),
+        "Residuals with the known forces",
+        &l.base,
+    )?;
+    let Some(c) = &l.chosen else { return Ok(()) };
+    plot_residuals(
+        &dir.join("residuals_after.svg"),
+        "Residuals with the learned force",
+        &c.fit,
+    )?;
+    let times: Vec<f64> = c.fit.residuals.iter().map(|r| r.t_s).collect();
+    let model = make(c.fit.epoch0).map_err(CliError::input)?;
+    let states = trajectory(model, &c.fit, &c.nodes, context, &times, fit)
+        .map_err(|e| CliError::input(e.to_string()))?;
+    let mut rtn: Vec<[f64; 3]> = Vec::new();
+    for (t, x) in times.iter().zip(&states) {
+        let p = learned_forces::expr::Terminals::of_state(*t, x, &context);
+        let mut a = nalgebra::Vector3::zeros();
+        for (n, ci) in c.nodes.iter().zip(&c.coefficients) {
+            let v = n.eval(&p, &c.constants).vector();
+            a += nalgebra::Vector3::new(v[0], v[1], v[2]) * *ci;
+        }
+        let r = nalgebra::Vector3::new(x[0], x[1], x[2]);
+        let v = nalgebra::Vector3::new(x[3], x[4], x[5]);
+        let m = eci_to_rtn(&r, &v).unwrap_or_else(nalgebra::Matrix3::identity);
+        let q = m * a;
+        rtn.push([q[0], q[1], q[2]]);
+    }
+    let panels: Vec<Panel> = ["R", "T", "N"]
+        .iter()
+        .enumerate()
+        .map(|(k, name)| Panel {
+            y_label: format!("{name} (km/s²)"),
+            series: vec![Series {
+                name: format!("learned acceleration, {name}"),
+                points: times
+                    .iter()
+                    .zip(&rtn)
+                    .map(|(t, q)| (t / 3600.0, q[k]))
+                    .collect(),
+                points_only: false,
+            }],
+        })
+        .collect();
+    write_panels(
+        &dir.join("learned_acceleration.svg"),
+        "Learned acceleration in RTN",
+        &format!("hours since {}", c.fit.epoch0),
+        &panels,
+    )
+}

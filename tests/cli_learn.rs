@@ -1,0 +1,174 @@
+//! End-to-end `arcwise learn`: learned files written, used by `propagate`, identical for
+//! 1 and 2 threads, nothing learned on a quiet arc, tampered files refused.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+fn arcwise(args: &[&str]) -> (i32, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_arcwise"))
+        .args(args)
+        .output()
+        .unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+fn s(p: &Path) -> &str {
+    p.to_str().unwrap()
+}
+
+fn simulate(dir: &Path, name: &str) -> PathBuf {
+    let out = dir.join(name);
+    let sc = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("examples/scenarios")
+        .join(format!("{name}.yaml"));
+    assert_eq!(arcwise(&["simulate", s(&sc), "--out", s(&out)]).0, 0);
+    out
+}
+
+#[test]
+fn venting_learned_file_is_deterministic_and_usable() {
+    let dir = tempfile::tempdir().unwrap();
+    let v = simulate(dir.path(), "venting");
+    let mut files = Vec::new();
+    for threads in ["1", "2"] {
+        let out = v.join(format!("learned-{threads}.yaml"));
+        let rep = v.join(format!("learn-{threads}.json"));
+        let (code, stdout, stderr) = arcwise(&[
+            "learn",
+            "--arc",
+            s(&v.join("train.csv")),
+            "--forces",
+            s(&v.join("forces.yaml")),
+            "--out",
+            s(&out),
+            "--report",
+            s(&rep),
+            "--plot",
+            s(&v.join("plots")),
+            "--generations",
+            "4",
+            "--threads",
+            threads,
+            "--seed",
+            "7",
+        ]);
+        assert_eq!(code, 0, "{stderr}");
+        assert!(stdout.contains("learned:"), "{stdout}");
+        let r: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&rep).unwrap()).unwrap();
+        for key in [
+            "verdict",
+            "model",
+            "rms_km_before",
+            "rms_km_after",
+            "held_out_rms_km",
+            "pareto_front",
+        ] {
+            assert!(!r[key].is_null(), "{key}");
+        }
+        assert!(r["rms_km_after"].as_f64().unwrap() * 10.0 < r["rms_km_before"].as_f64().unwrap());
+        files.push(std::fs::read(&out).unwrap());
+    }
+    assert_eq!(files[0], files[1], "1 and 2 threads gave different files");
+    for svg in [
+        "residuals_before.svg",
+        "residuals_after.svg",
+        "learned_acceleration.svg",
+    ] {
+        assert!(v.join("plots").join(svg).exists(), "{svg}");
+    }
+    // The learned file in forces.yaml `plugins:` is used by propagate.
+    let learned = v.join("learned-1.yaml");
+    let forces = std::fs::read_to_string(v.join("forces.yaml")).unwrap();
+    let f2 = v.join("forces-learned.yaml");
+    std::fs::write(&f2, format!("{forces}plugins: [learned-1.yaml]\n")).unwrap();
+    let file: serde_yaml::Value =
+        serde_yaml::from_str(&std::fs::read_to_string(&learned).unwrap()).unwrap();
+    let end = &file["state_at_end"];
+    let state = v.join("end.yaml");
+    std::fs::write(
+        &state,
+        format!(
+            "epoch_utc: {}\nr_km: {}\nv_km_s: {}\n",
+            serde_json::to_string(&end["epoch_utc"]).unwrap(),
+            serde_json::to_string(&end["r_km"]).unwrap(),
+            serde_json::to_string(&end["v_km_s"]).unwrap()
+        ),
+    )
+    .unwrap();
+    let (code, stdout, stderr) = arcwise(&[
+        "propagate",
+        "--forces",
+        s(&f2),
+        "--state",
+        s(&state),
+        "--to",
+        "2031-05-05T06:00:00Z",
+        "--step",
+        "600",
+        "--out",
+        s(&v.join("p.csv")),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(stdout.contains("learned:"), "{stdout}");
+    // A tampered learned file is refused, naming the checksum.
+    let text = std::fs::read_to_string(&learned).unwrap();
+    let bad = text.replacen("coefficient: ", "coefficient: 1", 1);
+    std::fs::write(&learned, bad).unwrap();
+    let (code, _, stderr) = arcwise(&[
+        "propagate",
+        "--forces",
+        s(&f2),
+        "--state",
+        s(&state),
+        "--to",
+        "2031-05-05T06:00:00Z",
+        "--step",
+        "600",
+        "--out",
+        s(&v.join("q.csv")),
+    ]);
+    assert_eq!(code, 2);
+    assert!(stderr.contains("checksum"), "{stderr}");
+    assert!(!v.join("q.csv").exists());
+}
+
+#[test]
+fn quiet_arc_learns_nothing_and_exits_0() {
+    let dir = tempfile::tempdir().unwrap();
+    let q = simulate(dir.path(), "quiet");
+    let out = q.join("learned.yaml");
+    let (code, stdout, stderr) = arcwise(&[
+        "learn",
+        "--arc",
+        s(&q.join("train.csv")),
+        "--forces",
+        s(&q.join("forces.yaml")),
+        "--out",
+        s(&out),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(
+        stdout.contains("no_anomaly") && stdout.contains("no terms"),
+        "{stdout}"
+    );
+    let f = learned_forces::learned_file::LearnedFile::load(&out).unwrap();
+    assert!(f.terms.is_empty());
+    let (code, _, stderr) = arcwise(&[
+        "learn",
+        "--arc",
+        s(&q.join("train.csv")),
+        "--forces",
+        s(&q.join("forces.yaml")),
+        "--out",
+        s(&out),
+        "--outside",
+        "sometimes",
+    ]);
+    assert_eq!(code, 2);
+    assert!(stderr.contains("--outside"));
+}
