@@ -27,6 +27,8 @@ enum Command {
     Fit(commands::fit::Args),
     /// Learn the missing force of an arc as a formula: a learned-force file and a report.
     Learn(commands::learn::Args),
+    /// Compile a learned-force file into a native force plugin.
+    Build(commands::build::Args),
     /// Propagate a state with a force model into an ephemeris (OEM or CSV).
     Propagate(commands::propagate::Args),
 }
@@ -45,6 +47,7 @@ fn main() -> ExitCode {
         Command::Simulate(args) => commands::simulate::run(args),
         Command::Fit(args) => commands::fit::run(args),
         Command::Learn(args) => commands::learn::run(args),
+        Command::Build(args) => commands::build::run(args),
         Command::Propagate(args) => commands::propagate::run(args),
     };
     match result {

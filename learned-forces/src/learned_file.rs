@@ -6,6 +6,7 @@
 //! statistics, provenance (hashes of the inputs, seed, tool version), the fitted state
 //! at the end of the training arc, and a SHA-256 checksum of its canonical content.
 
+use crate::expr::compiled::{Needs, Program};
 use crate::expr::{parse, Context, Node, Terminals};
 use nalgebra::{Matrix3x6, Vector3};
 use propagator::force::{Force, ForceError};
@@ -281,8 +282,12 @@ impl LearnedFile {
             .map_err(|e| format!("validity.start_utc: {e}"))?;
         let end = Epoch::parse_utc(&self.validity.end_utc)
             .map_err(|e| format!("validity.end_utc: {e}"))?;
+        let program = Program::compile(&nodes, &coefs, &params);
+        let needs = program.needs();
         Ok(LearnedForce {
             name: format!("learned:{}", self.name),
+            program,
+            needs,
             nodes,
             coefficients: coefs,
             params,
@@ -309,6 +314,9 @@ impl LearnedFile {
 /// A learned force evaluated in process (tree evaluation).
 pub struct LearnedForce {
     name: String,
+    /// The compiled sum Σ c_k g_k (the in-process evaluator).
+    pub program: Program,
+    needs: Needs,
     /// The formulas.
     pub nodes: Vec<Node>,
     /// Their coefficients, km/s².
@@ -385,13 +393,16 @@ impl Force for LearnedForce {
         if !self.gate(t_s, tf, x)? {
             return Ok(Vector3::zeros());
         }
-        let p = Terminals::of_state(tf, x, &self.context);
-        let mut a = Vector3::zeros();
-        for (n, c) in self.nodes.iter().zip(&self.coefficients) {
-            let v = n.eval(&p, &self.params).vector();
-            a += Vector3::new(v[0], v[1], v[2]) * *c;
-        }
-        propagator::force::finite_or_error(&self.name, t_s, a)
+        let p = Terminals::with_sun(
+            tf,
+            [x[0], x[1], x[2]],
+            [x[3], x[4], x[5]],
+            &self.context,
+            self.needs.sun,
+            self.needs.lit,
+        );
+        let v = self.program.eval(&p);
+        propagator::force::finite_or_error(&self.name, t_s, Vector3::new(v[0], v[1], v[2]))
     }
 
     /// Exact partials by dual-number evaluation.
@@ -400,14 +411,20 @@ impl Force for LearnedForce {
         if !self.gate(t_s, tf, x)? {
             return Ok(Matrix3x6::zeros());
         }
-        let p = Terminals::of_state_dual(tf, x, &self.context);
+        let d = |k: usize| crate::expr::num::Dual::var(x[k], k);
+        let p = Terminals::with_sun(
+            tf,
+            [d(0), d(1), d(2)],
+            [d(3), d(4), d(5)],
+            &self.context,
+            self.needs.sun,
+            self.needs.lit,
+        );
+        let v = self.program.eval(&p);
         let mut m = Matrix3x6::zeros();
-        for (n, c) in self.nodes.iter().zip(&self.coefficients) {
-            let v = n.eval(&p, &self.params).vector();
-            for i in 0..3 {
-                for j in 0..6 {
-                    m[(i, j)] += c * v[i].d[j];
-                }
+        for i in 0..3 {
+            for j in 0..6 {
+                m[(i, j)] = v[i].d[j];
             }
         }
         Ok(m)

@@ -5,6 +5,7 @@
 //! reaches the dynamics only through its `Force` and `Dynamics` traits.
 
 pub mod arc;
+pub mod codegen;
 pub mod fit;
 pub mod scenario;
 

@@ -67,6 +67,13 @@ int32_t arcwise_plugin_acceleration(double t_s, const double state[6], double ou
 int32_t arcwise_plugin_acceleration_batch(size_t n, const double *t_s, const double *states,
                                           double *out);
 
+/*
+ * Optional: the partial derivatives of the acceleration with respect to the state,
+ * out[18] row-major 3x6 (d a_i / d state_j; 1/s^2 for position, 1/s for velocity). Hosts
+ * that integrate variational equations use it instead of finite differences.
+ */
+int32_t arcwise_plugin_partials(double t_s, const double state[6], double out[18]);
+
 #ifdef __cplusplus
 }
 #endif

@@ -1,5 +1,6 @@
 //! One module per command; each parses its options into library calls.
 
+pub mod build;
 pub mod fit;
 pub mod learn;
 pub mod propagate;

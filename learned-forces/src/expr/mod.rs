@@ -13,8 +13,10 @@
 //! shadow); numbers; and nonlinear constants `k0`…`k9` (fitted, reported separately).
 //! Operators: `+ - * /`, `^n` (small integer powers), `sin cos exp sqrt norm dot cross`.
 
+pub mod compiled;
 pub mod num;
 pub mod parse;
+pub mod random;
 
 pub use parse::{parse, ParseError};
 
@@ -413,6 +415,19 @@ fn density<N: Num>(h: N) -> N {
 impl<N: Num> Terminals<N> {
     /// Terminals at time `t` (s) and position/velocity given as numbers of type `N`.
     pub fn new(t: f64, r: V3<N>, v: V3<N>, ctx: &Context) -> Self {
+        Self::with_sun(t, r, v, ctx, true, true)
+    }
+
+    /// As [`Terminals::new`], skipping the Sun series (`sun`) and the shadow (`lit`)
+    /// when the formulas do not use them (they are then left at zero and one).
+    pub fn with_sun(
+        t: f64,
+        r: V3<N>,
+        v: V3<N>,
+        ctx: &Context,
+        need_sun: bool,
+        need_lit: bool,
+    ) -> Self {
         let w = N::cst(ctx.rotation_rad_s);
         let vrel = [v[0] + w * r[1], v[1] - w * r[0], v[2]];
         let rn = norm3(r);
@@ -430,9 +445,21 @@ impl<N: Num> Terminals<N> {
         };
         let u = dot3(nh, cross3(nhat, r)).atan2(dot3(nhat, r));
         let h = rn - N::cst(ctx.radius_km);
-        let s = sun_position_km(ctx.clock.centuries(t));
-        let sn = s.norm();
-        let rv = nalgebra::Vector3::new(r[0].val(), r[1].val(), r[2].val());
+        let (sun, lit) = if need_sun || need_lit {
+            let s = sun_position_km(ctx.clock.centuries(t));
+            let sn = s.norm();
+            let rv = nalgebra::Vector3::new(r[0].val(), r[1].val(), r[2].val());
+            (
+                [s[0] / sn, s[1] / sn, s[2] / sn],
+                if need_lit {
+                    sunlit_fraction(&rv, &s, ctx.radius_km, Shadow::Conical)
+                } else {
+                    1.0
+                },
+            )
+        } else {
+            ([0.0; 3], 1.0)
+        };
         Terminals {
             t,
             r,
@@ -444,8 +471,8 @@ impl<N: Num> Terminals<N> {
             h,
             rho: density(h),
             u,
-            sun: [s[0] / sn, s[1] / sn, s[2] / sn],
-            lit: sunlit_fraction(&rv, &s, ctx.radius_km, Shadow::Conical),
+            sun,
+            lit,
         }
     }
 }

@@ -22,6 +22,7 @@ type AbiVersionFn = unsafe extern "C" fn() -> u32;
 type MetadataFn = unsafe extern "C" fn() -> *const c_char;
 type AccelerationFn = unsafe extern "C" fn(f64, *const f64, *mut f64) -> i32;
 type BatchFn = unsafe extern "C" fn(usize, *const f64, *const f64, *mut f64) -> i32;
+type PartialsFn = unsafe extern "C" fn(f64, *const f64, *mut f64) -> i32;
 
 /// Why a plugin was refused.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -47,6 +48,7 @@ pub struct PluginForce {
     metadata: Metadata,
     acceleration: AccelerationFn,
     batch: Option<BatchFn>,
+    partials: Option<PartialsFn>,
     /// Plugin time = our `t_s` + this offset, s.
     offset_s: f64,
     // Declared last: dropped after the function pointers above are no longer usable.
@@ -129,7 +131,7 @@ impl PluginForce {
         let library =
             unsafe { Library::new(&abs) }.map_err(|e| refuse(path, format!("cannot load: {e}")))?;
         // SAFETY: the symbol types are those of arcwise_force_plugin.h.
-        let (abi, metadata_fn, acceleration, batch) = unsafe {
+        let (abi, metadata_fn, acceleration, batch, partials) = unsafe {
             let get = |name: &str| -> Result<(), PluginError> {
                 library
                     .get::<unsafe extern "C" fn()>(name.as_bytes())
@@ -152,7 +154,11 @@ impl PluginForce {
                 .get::<BatchFn>(b"arcwise_plugin_acceleration_batch")
                 .ok()
                 .map(|s| *s);
-            (abi, metadata_fn, acceleration, batch)
+            let partials: Option<PartialsFn> = library
+                .get::<PartialsFn>(b"arcwise_plugin_partials")
+                .ok()
+                .map(|s| *s);
+            (abi, metadata_fn, acceleration, batch, partials)
         };
         // SAFETY: a plain function of the ABI.
         let version = unsafe { abi() };
@@ -205,6 +211,7 @@ impl PluginForce {
             metadata,
             acceleration,
             batch,
+            partials,
             _library: Arc::new(library),
         })
     }
@@ -212,6 +219,11 @@ impl PluginForce {
     /// The plugin's metadata.
     pub fn metadata(&self) -> &Metadata {
         &self.metadata
+    }
+
+    /// Whether the plugin exports analytic partials.
+    pub fn has_partials(&self) -> bool {
+        self.partials.is_some()
     }
 
     /// Whether the plugin exports the batch entry point.
@@ -284,5 +296,22 @@ impl Force for PluginForce {
             return Err(self.status_error(t_s, super::status::NON_FINITE));
         }
         Ok(a)
+    }
+
+    /// The plugin's analytic partials when it exports them; central differences otherwise.
+    fn partials(&self, t_s: f64, x: &StateVector) -> Result<nalgebra::Matrix3x6<f64>, ForceError> {
+        let Some(p) = self.partials else {
+            return crate::force::central_difference_partials(self, t_s, x);
+        };
+        let mut out = [0.0f64; 18];
+        // SAFETY: 6 readable and 18 writable doubles.
+        let code = unsafe { p(t_s + self.offset_s, x.as_ptr(), out.as_mut_ptr()) };
+        if code != 0 {
+            return Err(self.status_error(t_s, code));
+        }
+        if !out.iter().all(|c| c.is_finite()) {
+            return Err(self.status_error(t_s, super::status::NON_FINITE));
+        }
+        Ok(nalgebra::Matrix3x6::from_row_slice(&out))
     }
 }

@@ -1,0 +1,372 @@
+//! Compiling a learned-force file into a native plugin: generated Rust source (the
+//! formula as straight-line code over the self-contained [`runtime`], with exact
+//! partials by dual numbers), built as a cdylib by the machine's cargo, offline and with
+//! no dependencies.
+
+#[path = "runtime.rs"]
+pub mod runtime;
+
+use crate::expr::compiled::{Instr, Program};
+use crate::learned_file::{LearnedFile, OutsidePolicy};
+use propagator::plugin::{Metadata, Units, Validity, ABI_VERSION};
+use propagator::Epoch;
+use std::fmt::Write as _;
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+/// The runtime's source text, copied into every generated crate.
+pub const RUNTIME_SOURCE: &str = include_str!("runtime.rs");
+
+/// Why a plugin could not be built.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("{0}")]
+pub struct BuildError(pub String);
+
+fn lit(v: f64) -> String {
+    // Debug formatting of f64 is a valid, exactly round-tripping Rust literal.
+    let s = format!("{v:?}");
+    if s.contains('.') || s.contains('e') || s.contains("inf") || s.contains("NaN") {
+        s
+    } else {
+        format!("{s}.0")
+    }
+}
+
+/// The body of `fn eval<N: Num>(p: &P<N>) -> [N; 3]`: one `let` per instruction.
+pub fn straight_line(program: &Program) -> String {
+    let mut s = String::new();
+    for (i, ins) in program.instrs.iter().enumerate() {
+        use Instr::*;
+        let e = match ins {
+            Time => "N::c(p.t)".to_string(),
+            Alt => "p.h".into(),
+            Rho => "p.rho".into(),
+            ArgLat => "p.u".into(),
+            Lit => "N::c(p.lit)".into(),
+            Const(c) => format!("N::c({})", lit(*c)),
+            Pos => "p.r".into(),
+            Vel => "p.v".into(),
+            VelRel => "p.vrel".into(),
+            UnitR => "p.rh".into(),
+            UnitT => "p.th".into(),
+            UnitN => "p.nh".into(),
+            Sun => "[N::c(p.sun[0]), N::c(p.sun[1]), N::c(p.sun[2])]".into(),
+            AddS(a, b) => format!("x{a} + x{b}"),
+            SubS(a, b) => format!("x{a} - x{b}"),
+            MulS(a, b) => format!("x{a} * x{b}"),
+            DivS(a, b) => format!("x{a} / x{b}"),
+            NegS(a) => format!("-x{a}"),
+            Sin(a) => format!("x{a}.sin()"),
+            Cos(a) => format!("x{a}.cos()"),
+            Exp(a) => format!("x{a}.exp()"),
+            Sqrt(a) => format!("x{a}.sqrt()"),
+            Pow(a, k) => format!("x{a}.powi({k})"),
+            Norm(a) => format!("norm3(x{a})"),
+            Dot(a, b) => format!("dot3(x{a}, x{b})"),
+            AddV(a, b) => format!("add3(x{a}, x{b})"),
+            SubV(a, b) => format!("sub3(x{a}, x{b})"),
+            Scale(a, b) => format!("scale3(x{a}, x{b})"),
+            DivV(a, b) => format!("scale3(N::c(1.0) / x{b}, x{a})"),
+            NegV(a) => format!("neg3(x{a})"),
+            Cross(a, b) => format!("cross3(x{a}, x{b})"),
+        };
+        let _ = writeln!(s, "    let x{i} = {e};");
+    }
+    let _ = writeln!(s, "    x{}", program.instrs.len() - 1);
+    s
+}
+
+/// The plugin metadata for a learned file.
+pub fn metadata(file: &LearnedFile, name: &str) -> Metadata {
+    Metadata {
+        abi_version: ABI_VERSION,
+        name: name.to_string(),
+        frame: "ECI".into(),
+        reference_epoch_utc: file.epoch_utc.clone(),
+        source_checksum: Some(file.checksum.clone()),
+        validity: Some(Validity {
+            start_utc: file.validity.start_utc.clone(),
+            end_utc: file.validity.end_utc.clone(),
+            min_altitude_km: file.validity.min_altitude_km,
+            max_altitude_km: file.validity.max_altitude_km,
+            outside: match file.validity.outside {
+                OutsidePolicy::Warn => "warn",
+                OutsidePolicy::Zero => "zero",
+                OutsidePolicy::Refuse => "refuse",
+            }
+            .into(),
+        }),
+        units: Units::default(),
+    }
+}
+
+/// The generated crate's `lib.rs`.
+pub fn generate(file: &LearnedFile, name: &str) -> Result<String, BuildError> {
+    let (nodes, coefs, params) = file.compile().map_err(BuildError)?;
+    let program = Program::compile(&nodes, &coefs, &params);
+    let needs = program.needs();
+    let epoch = Epoch::parse_utc(&file.epoch_utc).map_err(|e| BuildError(e.to_string()))?;
+    let start =
+        Epoch::parse_utc(&file.validity.start_utc).map_err(|e| BuildError(e.to_string()))?;
+    let end = Epoch::parse_utc(&file.validity.end_utc).map_err(|e| BuildError(e.to_string()))?;
+    let window = (
+        start.seconds_since(&epoch),
+        end.seconds_since(&epoch) + file.validity.time_margin_s,
+    );
+    let alt = (
+        file.validity.min_altitude_km - file.validity.altitude_margin_km,
+        file.validity.max_altitude_km + file.validity.altitude_margin_km,
+    );
+    let policy = match file.validity.outside {
+        OutsidePolicy::Warn => 0,
+        OutsidePolicy::Zero => 1,
+        OutsidePolicy::Refuse => 2,
+    };
+    let meta =
+        serde_json::to_string(&metadata(file, name)).map_err(|e| BuildError(e.to_string()))?;
+    let formulas: Vec<String> = file
+        .terms
+        .iter()
+        .map(|t| format!("//   {:?} * ({})", t.coefficient, t.formula))
+        .collect();
+    let mut src = String::new();
+    let _ = write!(
+        src,
+        r#"//! arcwise force plugin generated from the learned-force file `{name}`
+//! (checksum {checksum}). Do not edit: rebuild with `arcwise build`.
+//!
+//! The force, km/s² in ECI, t in s from {epoch}:
+{formulas}
+#![allow(clippy::all, unused_parens, unused_variables, non_upper_case_globals)]
+
+#[path = "runtime.rs"]
+mod runtime;
+use runtime::*;
+use std::ffi::c_char;
+use std::panic::{{catch_unwind, AssertUnwindSafe}};
+
+const META: &str = concat!({meta:?}, "\0");
+const RE: f64 = {re};
+const W: f64 = {w};
+const T0C: f64 = {t0c};
+const WINDOW: (f64, f64) = ({w0}, {w1});
+const ALT: (f64, f64) = ({a0}, {a1});
+// 0 warn (evaluate), 1 zero, 2 refuse.
+const POLICY: u8 = {policy};
+
+fn eval<N: Num>(p: &P<N>) -> [N; 3] {{
+{body}}}
+
+fn inside(t: f64, s: &[f64]) -> bool {{
+    let h = (s[0] * s[0] + s[1] * s[1] + s[2] * s[2]).sqrt() - RE;
+    t >= WINDOW.0 && t <= WINDOW.1 && h >= ALT.0 && h <= ALT.1
+}}
+
+/// 0: evaluate; 1: zero; 2: refuse.
+fn gate(t: f64, s: &[f64]) -> u8 {{
+    if inside(t, s) {{ 0 }} else {{ POLICY }}
+}}
+
+#[no_mangle]
+pub extern "C" fn arcwise_plugin_abi_version() -> u32 {{
+    {abi}
+}}
+
+#[no_mangle]
+pub extern "C" fn arcwise_plugin_metadata() -> *const c_char {{
+    META.as_ptr() as *const c_char
+}}
+
+fn accel(t: f64, s: &[f64], out: &mut [f64]) -> i32 {{
+    if !t.is_finite() || !s.iter().all(|v| v.is_finite()) {{
+        return 4;
+    }}
+    match gate(t, s) {{
+        1 => {{
+            out[0] = 0.0;
+            out[1] = 0.0;
+            out[2] = 0.0;
+            return 0;
+        }}
+        2 => return 1,
+        _ => {{}}
+    }}
+    let p = terminals::<f64>(t, [s[0], s[1], s[2]], [s[3], s[4], s[5]], RE, W, T0C, {need_sun}, {need_lit});
+    let a = eval(&p);
+    if !(a[0].is_finite() && a[1].is_finite() && a[2].is_finite()) {{
+        return 2;
+    }}
+    out[0] = a[0];
+    out[1] = a[1];
+    out[2] = a[2];
+    0
+}}
+
+/// # Safety
+/// `state` points to 6 doubles, `out` to 3 writable doubles.
+#[no_mangle]
+pub unsafe extern "C" fn arcwise_plugin_acceleration(t: f64, state: *const f64, out: *mut f64) -> i32 {{
+    if state.is_null() || out.is_null() {{
+        return 4;
+    }}
+    let s = unsafe {{ std::slice::from_raw_parts(state, 6) }};
+    let o = unsafe {{ std::slice::from_raw_parts_mut(out, 3) }};
+    catch_unwind(AssertUnwindSafe(|| accel(t, s, o))).unwrap_or(3)
+}}
+
+/// # Safety
+/// `t` points to `n` doubles, `states` to `6 n`, `out` to `3 n` writable doubles.
+#[no_mangle]
+pub unsafe extern "C" fn arcwise_plugin_acceleration_batch(n: usize, t: *const f64, states: *const f64, out: *mut f64) -> i32 {{
+    if n > 0 && (t.is_null() || states.is_null() || out.is_null()) {{
+        return 4;
+    }}
+    for k in 0..n {{
+        let code = unsafe {{ arcwise_plugin_acceleration(*t.add(k), states.add(6 * k), out.add(3 * k)) }};
+        if code != 0 {{
+            return code;
+        }}
+    }}
+    0
+}}
+
+/// ∂a/∂(r, v), 3×6 row-major, by dual numbers.
+///
+/// # Safety
+/// `state` points to 6 doubles, `out` to 18 writable doubles.
+#[no_mangle]
+pub unsafe extern "C" fn arcwise_plugin_partials(t: f64, state: *const f64, out: *mut f64) -> i32 {{
+    if state.is_null() || out.is_null() {{
+        return 4;
+    }}
+    let s = unsafe {{ std::slice::from_raw_parts(state, 6) }};
+    let o = unsafe {{ std::slice::from_raw_parts_mut(out, 18) }};
+    catch_unwind(AssertUnwindSafe(|| {{
+        if !t.is_finite() || !s.iter().all(|v| v.is_finite()) {{
+            return 4;
+        }}
+        match gate(t, s) {{
+            1 => {{
+                o.iter_mut().for_each(|x| *x = 0.0);
+                return 0;
+            }}
+            2 => return 1,
+            _ => {{}}
+        }}
+        let d = |k: usize| D::var(s[k], k);
+        let p = terminals::<D>(t, [d(0), d(1), d(2)], [d(3), d(4), d(5)], RE, W, T0C, {need_sun}, {need_lit});
+        let a = eval(&p);
+        for i in 0..3 {{
+            for j in 0..6 {{
+                o[i * 6 + j] = a[i].d[j];
+            }}
+        }}
+        if o.iter().all(|x| x.is_finite()) {{ 0 }} else {{ 2 }}
+    }}))
+    .unwrap_or(3)
+}}
+"#,
+        name = name,
+        checksum = file.checksum,
+        epoch = file.epoch_utc,
+        formulas = if formulas.is_empty() {
+            "//   (no terms: zero)".to_string()
+        } else {
+            formulas.join("\n")
+        },
+        meta = meta,
+        re = lit(file.earth.radius_km),
+        w = lit(file.earth.rotation_rad_s),
+        t0c = lit(epoch.tt_centuries_since_j2000()),
+        w0 = lit(window.0),
+        w1 = lit(window.1),
+        a0 = lit(alt.0),
+        a1 = lit(alt.1),
+        policy = policy,
+        body = straight_line(&program),
+        abi = ABI_VERSION,
+        need_sun = needs.sun,
+        need_lit = needs.lit,
+    );
+    Ok(src)
+}
+
+/// The generated crate's `Cargo.toml`.
+fn manifest(crate_name: &str) -> String {
+    format!(
+        r#"# Generated by arcwise build. A standalone crate: no dependencies.
+[package]
+name = "{crate_name}"
+version = "0.1.0"
+edition = "2021"
+publish = false
+
+[lib]
+crate-type = ["cdylib"]
+path = "lib.rs"
+
+[profile.release]
+opt-level = 3
+panic = "unwind"
+
+[workspace]
+"#
+    )
+}
+
+/// Writes the crate into `dir` and builds it; returns the path of the built library.
+pub fn build(file: &LearnedFile, name: &str, dir: &Path) -> Result<PathBuf, BuildError> {
+    let crate_name: String = name
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() {
+                c.to_ascii_lowercase()
+            } else {
+                '_'
+            }
+        })
+        .collect::<String>();
+    let crate_name = format!("arcwise_learned_{}", crate_name.trim_matches('_'));
+    std::fs::create_dir_all(dir).map_err(|e| BuildError(format!("{}: {e}", dir.display())))?;
+    let write = |p: &str, text: &str| {
+        std::fs::write(dir.join(p), text)
+            .map_err(|e| BuildError(format!("{}: {e}", dir.join(p).display())))
+    };
+    write("Cargo.toml", &manifest(&crate_name))?;
+    write("runtime.rs", RUNTIME_SOURCE)?;
+    write("lib.rs", &generate(file, name)?)?;
+    let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".into());
+    let output = Command::new(&cargo)
+        .args(["build", "--release", "--offline", "--quiet", "--manifest-path"])
+        .arg(dir.join("Cargo.toml"))
+        .arg("--target-dir")
+        .arg(dir.join("target"))
+        .env_remove("CARGO_TARGET_DIR")
+        .output()
+        .map_err(|e| {
+            BuildError(format!(
+                "cannot run `{cargo}` ({e}): a Rust toolchain is needed to build plugins (install it with rustup); the learned file itself also works in forces.yaml plugins:, evaluated in process"
+            ))
+        })?;
+    if !output.status.success() {
+        return Err(BuildError(format!(
+            "cargo could not build the plugin in {}:\n{}",
+            dir.display(),
+            String::from_utf8_lossy(&output.stderr)
+        )));
+    }
+    let lib = format!(
+        "{}{}{}",
+        std::env::consts::DLL_PREFIX,
+        crate_name,
+        std::env::consts::DLL_SUFFIX
+    );
+    let built = dir.join("target").join("release").join(lib);
+    if !built.exists() {
+        return Err(BuildError(format!(
+            "cargo finished but {} is missing",
+            built.display()
+        )));
+    }
+    Ok(built)
+}

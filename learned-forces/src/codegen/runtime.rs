@@ -1,0 +1,361 @@
+// The self-contained runtime of compiled learned-force plugins.
+//
+// This file is compiled twice: as `learned_forces::codegen::runtime` (where tests check
+// it against the library's own terminals, Sun series and shadow), and, copied verbatim,
+// into every generated plugin crate, which has no dependencies. Keep it free of `use`
+// of other crates and of anything but core arithmetic.
+#![allow(dead_code, clippy::excessive_precision, clippy::needless_range_loop)]
+
+use std::ops::{Add, Div, Mul, Neg, Sub};
+
+/// Arithmetic of the generated code: `f64`, or `D` (value and ∂/∂state).
+pub trait Num:
+    Copy
+    + Add<Output = Self>
+    + Sub<Output = Self>
+    + Mul<Output = Self>
+    + Div<Output = Self>
+    + Neg<Output = Self>
+{
+    fn c(v: f64) -> Self;
+    fn v(&self) -> f64;
+    fn sin(self) -> Self;
+    fn cos(self) -> Self;
+    fn exp(self) -> Self;
+    fn sqrt(self) -> Self;
+    fn powi(self, n: i32) -> Self;
+    fn atan2(self, x: Self) -> Self;
+}
+
+impl Num for f64 {
+    fn c(v: f64) -> Self {
+        v
+    }
+    fn v(&self) -> f64 {
+        *self
+    }
+    fn sin(self) -> Self {
+        f64::sin(self)
+    }
+    fn cos(self) -> Self {
+        f64::cos(self)
+    }
+    fn exp(self) -> Self {
+        f64::exp(self)
+    }
+    fn sqrt(self) -> Self {
+        f64::sqrt(self)
+    }
+    fn powi(self, n: i32) -> Self {
+        f64::powi(self, n)
+    }
+    fn atan2(self, x: Self) -> Self {
+        f64::atan2(self, x)
+    }
+}
+
+/// A value with its derivatives with respect to (x, y, z, vx, vy, vz).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct D {
+    pub v: f64,
+    pub d: [f64; 6],
+}
+
+impl D {
+    pub fn var(v: f64, k: usize) -> D {
+        let mut d = [0.0; 6];
+        d[k] = 1.0;
+        D { v, d }
+    }
+    fn chain(self, f: f64, df: f64) -> D {
+        let mut d = self.d;
+        for x in &mut d {
+            *x *= df;
+        }
+        D { v: f, d }
+    }
+}
+
+impl Add for D {
+    type Output = D;
+    fn add(self, o: D) -> D {
+        let mut d = self.d;
+        for k in 0..6 {
+            d[k] += o.d[k];
+        }
+        D { v: self.v + o.v, d }
+    }
+}
+impl Sub for D {
+    type Output = D;
+    fn sub(self, o: D) -> D {
+        let mut d = self.d;
+        for k in 0..6 {
+            d[k] -= o.d[k];
+        }
+        D { v: self.v - o.v, d }
+    }
+}
+impl Mul for D {
+    type Output = D;
+    fn mul(self, o: D) -> D {
+        let mut d = [0.0; 6];
+        for k in 0..6 {
+            d[k] = self.d[k] * o.v + self.v * o.d[k];
+        }
+        D { v: self.v * o.v, d }
+    }
+}
+impl Div for D {
+    type Output = D;
+    fn div(self, o: D) -> D {
+        let inv = 1.0 / o.v;
+        let mut d = [0.0; 6];
+        for k in 0..6 {
+            d[k] = (self.d[k] - self.v * inv * o.d[k]) * inv;
+        }
+        D { v: self.v * inv, d }
+    }
+}
+impl Neg for D {
+    type Output = D;
+    fn neg(self) -> D {
+        self.chain(-self.v, -1.0)
+    }
+}
+impl Num for D {
+    fn c(v: f64) -> Self {
+        D { v, d: [0.0; 6] }
+    }
+    fn v(&self) -> f64 {
+        self.v
+    }
+    fn sin(self) -> Self {
+        self.chain(self.v.sin(), self.v.cos())
+    }
+    fn cos(self) -> Self {
+        self.chain(self.v.cos(), -self.v.sin())
+    }
+    fn exp(self) -> Self {
+        let e = self.v.exp();
+        self.chain(e, e)
+    }
+    fn sqrt(self) -> Self {
+        let s = self.v.sqrt();
+        self.chain(s, 0.5 / s)
+    }
+    fn powi(self, n: i32) -> Self {
+        self.chain(self.v.powi(n), n as f64 * self.v.powi(n - 1))
+    }
+    fn atan2(self, x: Self) -> Self {
+        let r2 = self.v * self.v + x.v * x.v;
+        let mut d = [0.0; 6];
+        for k in 0..6 {
+            d[k] = (x.v * self.d[k] - self.v * x.d[k]) / r2;
+        }
+        D {
+            v: self.v.atan2(x.v),
+            d,
+        }
+    }
+}
+
+pub fn add3<N: Num>(a: [N; 3], b: [N; 3]) -> [N; 3] {
+    [a[0] + b[0], a[1] + b[1], a[2] + b[2]]
+}
+pub fn sub3<N: Num>(a: [N; 3], b: [N; 3]) -> [N; 3] {
+    [a[0] - b[0], a[1] - b[1], a[2] - b[2]]
+}
+pub fn scale3<N: Num>(s: N, a: [N; 3]) -> [N; 3] {
+    [s * a[0], s * a[1], s * a[2]]
+}
+pub fn neg3<N: Num>(a: [N; 3]) -> [N; 3] {
+    [-a[0], -a[1], -a[2]]
+}
+pub fn dot3<N: Num>(a: [N; 3], b: [N; 3]) -> N {
+    a[0] * b[0] + a[1] * b[1] + a[2] * b[2]
+}
+pub fn cross3<N: Num>(a: [N; 3], b: [N; 3]) -> [N; 3] {
+    [
+        a[1] * b[2] - a[2] * b[1],
+        a[2] * b[0] - a[0] * b[2],
+        a[0] * b[1] - a[1] * b[0],
+    ]
+}
+pub fn norm3<N: Num>(a: [N; 3]) -> N {
+    dot3(a, a).sqrt()
+}
+
+// The handbook piecewise-exponential atmosphere (Vallado, Table 8-4, from memory):
+// base altitude km, density kg/m³, scale height km.
+const TABLE: [(f64, f64, f64); 28] = [
+    (0.0, 1.225, 7.249),
+    (25.0, 3.899e-2, 6.349),
+    (30.0, 1.774e-2, 6.682),
+    (40.0, 3.972e-3, 7.554),
+    (50.0, 1.057e-3, 8.382),
+    (60.0, 3.206e-4, 7.714),
+    (70.0, 8.770e-5, 6.549),
+    (80.0, 1.905e-5, 5.799),
+    (90.0, 3.396e-6, 5.382),
+    (100.0, 5.297e-7, 5.877),
+    (110.0, 9.661e-8, 7.263),
+    (120.0, 2.438e-8, 9.473),
+    (130.0, 8.484e-9, 12.636),
+    (140.0, 3.845e-9, 16.149),
+    (150.0, 2.070e-9, 22.523),
+    (180.0, 5.464e-10, 29.740),
+    (200.0, 2.789e-10, 37.105),
+    (250.0, 7.248e-11, 45.546),
+    (300.0, 2.418e-11, 53.628),
+    (350.0, 9.518e-12, 53.298),
+    (400.0, 3.725e-12, 58.515),
+    (450.0, 1.585e-12, 60.828),
+    (500.0, 6.967e-13, 63.822),
+    (600.0, 1.454e-13, 71.835),
+    (700.0, 3.614e-14, 88.667),
+    (800.0, 1.170e-14, 124.64),
+    (900.0, 5.245e-15, 181.05),
+    (1000.0, 3.019e-15, 268.00),
+];
+
+pub fn density<N: Num>(h: N) -> N {
+    let hv = h.v();
+    let mut i = 0;
+    while i + 1 < TABLE.len() && TABLE[i + 1].0 <= hv {
+        i += 1;
+    }
+    let (h0, rho0, sh) = TABLE[i];
+    N::c(rho0) * (-(h - N::c(h0)) / N::c(sh)).exp()
+}
+
+const AU_KM: f64 = 149_597_870.7;
+const SUN_RADIUS_KM: f64 = 695_700.0;
+const OBLIQUITY: f64 = 23.439_291_11 * std::f64::consts::PI / 180.0;
+
+/// Geocentric Sun, km, J2000 ECI (Meeus ch. 25, referred to J2000), `tc` TT centuries.
+pub fn sun_km(tc: f64) -> [f64; 3] {
+    let t = tc;
+    let l0 = 280.466_46 + 36_000.769_83 * t + 0.000_303_2 * t * t;
+    let m = (357.529_11 + 35_999.050_29 * t - 0.000_153_7 * t * t).to_radians();
+    let e = 0.016_708_634 - 0.000_042_037 * t - 0.000_000_126_7 * t * t;
+    let c = (1.914_602 - 0.004_817 * t - 0.000_014 * t * t) * m.sin()
+        + (0.019_993 - 0.000_101 * t) * (2.0 * m).sin()
+        + 0.000_289 * (3.0 * m).sin();
+    let lon = (l0 + c - (1.396_971 * t + 0.000_308_6 * t * t)).to_radians();
+    let nu = m + c.to_radians();
+    let r = 1.000_001_018 * (1.0 - e * e) / (1.0 + e * nu.cos()) * AU_KM;
+    let (se, ce) = OBLIQUITY.sin_cos();
+    let (x, y) = (r * lon.cos(), r * lon.sin());
+    [x, ce * y, se * y]
+}
+
+/// The angle between two vectors as nalgebra computes it (acos of the clamped cosine).
+fn angle(a: [f64; 3], b: [f64; 3]) -> f64 {
+    let (n1, n2) = (norm3(a), norm3(b));
+    if n1 == 0.0 || n2 == 0.0 {
+        return 0.0;
+    }
+    let c = dot3(a, b) / (n1 * n2);
+    if c > 1.0 {
+        0.0
+    } else if c < -1.0 {
+        std::f64::consts::PI
+    } else {
+        c.acos()
+    }
+}
+
+/// Sunlit fraction, conical shadow (Montenbruck & Gill §3.4.2).
+pub fn lit(r: [f64; 3], s: [f64; 3], re: f64) -> f64 {
+    let to_sun = sub3(s, r);
+    let a = (SUN_RADIUS_KM / norm3(to_sun)).asin();
+    let b = (re / norm3(r)).asin();
+    let c = angle(neg3(r), to_sun);
+    if c >= a + b {
+        1.0
+    } else if c <= b - a {
+        0.0
+    } else if c <= a - b {
+        1.0 - (b * b) / (a * a)
+    } else {
+        let x = (c * c + a * a - b * b) / (2.0 * c);
+        let y = (a * a - x * x).max(0.0).sqrt();
+        let area = a * a * (x / a).clamp(-1.0, 1.0).acos()
+            + b * b * ((c - x) / b).clamp(-1.0, 1.0).acos()
+            - c * y;
+        (1.0 - area / (std::f64::consts::PI * a * a)).clamp(0.0, 1.0)
+    }
+}
+
+/// Terminal values at a point (as `learned_forces::expr::Terminals`).
+pub struct P<N> {
+    pub t: f64,
+    pub r: [N; 3],
+    pub v: [N; 3],
+    pub vrel: [N; 3],
+    pub rh: [N; 3],
+    pub th: [N; 3],
+    pub nh: [N; 3],
+    pub h: N,
+    pub rho: N,
+    pub u: N,
+    pub sun: [f64; 3],
+    pub lit: f64,
+}
+
+/// Terminals at formula time `t` (s), state (r, v); `t0c` TT centuries at `t = 0`.
+/// `need_sun` and `need_lit` skip the Sun series and the shadow when unused.
+#[allow(clippy::too_many_arguments)]
+pub fn terminals<N: Num>(
+    t: f64,
+    r: [N; 3],
+    v: [N; 3],
+    re: f64,
+    w: f64,
+    t0c: f64,
+    need_sun: bool,
+    need_lit: bool,
+) -> P<N> {
+    let w = N::c(w);
+    let vrel = [v[0] + w * r[1], v[1] - w * r[0], v[2]];
+    let rn = norm3(r);
+    let rh = scale3(N::c(1.0) / rn, r);
+    let hv = cross3(r, v);
+    let nh = scale3(N::c(1.0) / norm3(hv), hv);
+    let th = cross3(nh, rh);
+    let node = [-hv[1], hv[0], N::c(0.0)];
+    let nn = norm3(node);
+    let nhat = if nn.v() < 1e-10 * norm3(hv).v() {
+        [N::c(1.0), N::c(0.0), N::c(0.0)]
+    } else {
+        scale3(N::c(1.0) / nn, node)
+    };
+    let u = dot3(nh, cross3(nhat, r)).atan2(dot3(nhat, r));
+    let h = rn - N::c(re);
+    let (sun, lit_fraction) = if need_sun || need_lit {
+        let s = sun_km(t0c + t / (86_400.0 * 36_525.0));
+        let sn = norm3(s);
+        let rv = [r[0].v(), r[1].v(), r[2].v()];
+        (
+            [s[0] / sn, s[1] / sn, s[2] / sn],
+            if need_lit { lit(rv, s, re) } else { 1.0 },
+        )
+    } else {
+        ([0.0; 3], 1.0)
+    };
+    P {
+        t,
+        r,
+        v,
+        vrel,
+        rh,
+        th,
+        nh,
+        h,
+        rho: density(h),
+        u,
+        sun,
+        lit: lit_fraction,
+    }
+}

@@ -1,0 +1,295 @@
+//! Compiled learned forces: the in-process evaluator, the generated native plugin and a
+//! direct tree evaluation agree (200 random formulas; the shipped scenario's learned
+//! force; inside and outside the validity window); a propagation with the plugin matches
+//! the in-process one.
+
+use learned_forces::codegen::{build, runtime};
+use learned_forces::expr::compiled::Program;
+use learned_forces::expr::num::Dual;
+use learned_forces::expr::random::vector_tree;
+use learned_forces::expr::{Context, Terminals};
+use learned_forces::learned_file::*;
+use propagator::force::two_body::TwoBody;
+use propagator::force::zonal::Zonal;
+use propagator::plugin::loader::PluginForce;
+use propagator::propagation::{output_grid, propagate, Options, Request, Silent};
+use propagator::solar_system::CenturyClock;
+use propagator::{Epoch, Force, ForceModel, StateVector};
+use rand_chacha::ChaCha8Rng;
+use rand_core::SeedableRng;
+
+const EPOCH: &str = "2031-05-04T00:00:00.000000Z";
+
+fn ctx() -> Context {
+    Context {
+        radius_km: 6378.1363,
+        rotation_rad_s: 7.292115e-5,
+        clock: CenturyClock::new(&Epoch::parse_utc(EPOCH).unwrap()),
+    }
+}
+
+fn states(n: usize) -> Vec<(f64, StateVector)> {
+    (0..n)
+        .map(|k| {
+            let f = k as f64;
+            let (a, i, w) = (6778.0 + 37.0 * (f % 7.0), 0.3 + 0.11 * (f % 13.0), 0.37 * f);
+            let v = (398_600.441_8 / a).sqrt();
+            (
+                f * 613.0,
+                StateVector::new(
+                    a * w.cos(),
+                    a * w.sin() * i.cos(),
+                    a * w.sin() * i.sin(),
+                    -v * w.sin(),
+                    v * w.cos() * i.cos(),
+                    v * w.cos() * i.sin(),
+                ),
+            )
+        })
+        .collect()
+}
+
+fn rel(a: f64, b: f64, scale: f64) -> f64 {
+    (a - b).abs() / scale.max(1e-300)
+}
+
+#[test]
+fn compiled_evaluator_matches_tree_evaluation_on_200_random_formulas() {
+    let mut rng = ChaCha8Rng::seed_from_u64(20311204);
+    let c = ctx();
+    let pts = states(25);
+    for k in 0..200 {
+        let tree = vector_tree(&mut rng, 4);
+        let prog = Program::compile(std::slice::from_ref(&tree), &[1.0], &[]);
+        for (t, x) in &pts {
+            let p = Terminals::of_state(*t, x, &c);
+            let a = tree.eval(&p, &[]).vector();
+            let b = prog.eval(&p);
+            let scale = a.iter().map(|v| v.abs()).fold(0.0, f64::max);
+            for i in 0..3 {
+                assert!(
+                    rel(a[i], b[i], scale) <= 1e-13,
+                    "formula {k} `{tree}`: {a:?} vs {b:?}"
+                );
+            }
+            let pd = Terminals::of_state_dual(*t, x, &c);
+            let ad = tree.eval(&pd, &[]).vector();
+            let bd = prog.eval(&pd);
+            for i in 0..3 {
+                let ds = ad[i].d.iter().map(|v| v.abs()).fold(0.0, f64::max);
+                for j in 0..6 {
+                    assert!(
+                        rel(ad[i].d[j], bd[i].d[j], ds) <= 1e-13,
+                        "formula {k} partial"
+                    );
+                }
+            }
+        }
+    }
+}
+
+#[test]
+fn plugin_runtime_terminals_match_the_library() {
+    let c = ctx();
+    for (t, x) in states(60) {
+        let a = Terminals::of_state(t, &x, &c);
+        let b = runtime::terminals::<f64>(
+            t,
+            [x[0], x[1], x[2]],
+            [x[3], x[4], x[5]],
+            c.radius_km,
+            c.rotation_rad_s,
+            c.clock.t0_centuries,
+            true,
+            true,
+        );
+        let pairs = [
+            (a.rh, b.rh),
+            (a.th, b.th),
+            (a.nh, b.nh),
+            (a.vrel, b.vrel),
+            (a.sun, b.sun),
+        ];
+        for (p, q) in pairs {
+            for i in 0..3 {
+                assert!((p[i] - q[i]).abs() <= 1e-15, "{p:?} vs {q:?}");
+            }
+        }
+        assert!(
+            rel(a.h, b.h, a.h) <= 1e-15
+                && rel(a.rho, b.rho, a.rho) <= 1e-14
+                && (a.u - b.u).abs() <= 1e-15
+                && (a.lit - b.lit).abs() <= 1e-14
+        );
+        let d = |k: usize| runtime::D::var(x[k], k);
+        let bd = runtime::terminals::<runtime::D>(
+            t,
+            [d(0), d(1), d(2)],
+            [d(3), d(4), d(5)],
+            c.radius_km,
+            c.rotation_rad_s,
+            c.clock.t0_centuries,
+            false,
+            false,
+        );
+        let ad = Terminals::of_state_dual(t, &x, &c);
+        for j in 0..6 {
+            assert!((ad.u.d[j] - bd.u.d[j]).abs() <= 1e-15 * ad.u.d[j].abs().max(1e-6));
+        }
+        let _: Dual = ad.h;
+    }
+}
+
+/// A learned file with `terms` formulas and a validity window of 1 day at 300–800 km.
+fn file(terms: Vec<(String, f64)>, outside: OutsidePolicy) -> LearnedFile {
+    let mut f = LearnedFile {
+        format_version: FORMAT_VERSION,
+        name: "random".into(),
+        frame: "ECI".into(),
+        epoch_utc: EPOCH.into(),
+        earth: EarthEntry {
+            radius_km: 6378.1363,
+            rotation_rad_s: 7.292115e-5,
+        },
+        terms: terms
+            .into_iter()
+            .map(|(formula, coefficient)| TermEntry {
+                formula,
+                coefficient,
+                sigma: 1e-12,
+            })
+            .collect(),
+        constants: vec![],
+        validity: ValidityEntry {
+            start_utc: EPOCH.into(),
+            end_utc: "2031-05-05T00:00:00.000000Z".into(),
+            min_altitude_km: 320.0,
+            max_altitude_km: 780.0,
+            outside,
+            time_margin_s: 0.0,
+            altitude_margin_km: 20.0,
+        },
+        fit: FitEntry {
+            observations: 0,
+            rms_km_before: 0.0,
+            rms_km_after: 0.0,
+            held_out_rms_km: 0.0,
+            chi2: 0.0,
+            dof: 0,
+        },
+        provenance: ProvenanceEntry {
+            arc_sha256: "sha256:0".into(),
+            forces_sha256: "sha256:0".into(),
+            seed: 0,
+            tool_version: "test".into(),
+        },
+        state_at_end: StateEntry {
+            epoch_utc: EPOCH.into(),
+            r_km: [7000.0, 0.0, 0.0],
+            v_km_s: [0.0, 7.5, 0.0],
+        },
+        notes: vec![],
+        checksum: String::new(),
+    };
+    f.checksum = f.compute_checksum();
+    f
+}
+
+#[test]
+fn native_plugin_agrees_with_in_process_inside_and_outside_the_window() {
+    let mut rng = ChaCha8Rng::seed_from_u64(7);
+    let terms: Vec<(String, f64)> = (0..20)
+        .map(|k| {
+            (
+                vector_tree(&mut rng, 3).to_string(),
+                1e-9 * (1.0 + k as f64 / 10.0),
+            )
+        })
+        .collect();
+    let reference = Epoch::parse_utc(EPOCH).unwrap();
+    let dir = tempfile::tempdir().unwrap();
+    for policy in [
+        OutsidePolicy::Warn,
+        OutsidePolicy::Zero,
+        OutsidePolicy::Refuse,
+    ] {
+        let f = file(terms.clone(), policy);
+        let so = build(&f, "random", &dir.path().join(format!("{policy:?}"))).unwrap();
+        let native = PluginForce::load(&so, &reference, Some(&f.checksum)).unwrap();
+        assert!(native.has_partials());
+        let inproc = f.force(&reference).unwrap();
+        // Times beyond 1 day and states beyond 800 km are outside the window.
+        let mut pts = states(40);
+        pts.push((90_000.0, StateVector::new(7000.0, 0.0, 0.0, 0.0, 7.5, 0.1)));
+        pts.push((1000.0, StateVector::new(7300.0, 0.0, 0.0, 0.0, 7.3, 0.1)));
+        for (t, x) in &pts {
+            let (a, b) = (native.acceleration(*t, x), inproc.acceleration(*t, x));
+            match (a, b) {
+                (Ok(a), Ok(b)) => {
+                    let scale = b.norm();
+                    assert!(
+                        (a - b).norm() <= 1e-13 * scale.max(1e-30),
+                        "{policy:?} t={t}: {a} vs {b}"
+                    );
+                    let (pa, pb) = (
+                        native.partials(*t, x).unwrap(),
+                        inproc.partials(*t, x).unwrap(),
+                    );
+                    assert!(
+                        (pa - pb).abs().max() <= 1e-13 * pb.abs().max().max(1e-40),
+                        "{policy:?} partials"
+                    );
+                }
+                (Err(_), Err(_)) => assert_eq!(policy, OutsidePolicy::Refuse),
+                (a, b) => panic!("{policy:?} t={t}: plugin {a:?}, in-process {b:?}"),
+            }
+        }
+    }
+}
+
+#[test]
+fn propagation_with_the_native_plugin_reproduces_in_process_within_1e_9_km() {
+    let f = file(
+        vec![
+            ("exp(-t / 21600) * T".into(), 2e-9),
+            ("cos(u) * R".into(), 3e-11),
+        ],
+        OutsidePolicy::Warn,
+    );
+    let reference = Epoch::parse_utc(EPOCH).unwrap();
+    let dir = tempfile::tempdir().unwrap();
+    let so = build(&f, "venting_like", dir.path()).unwrap();
+    let base = || {
+        ForceModel::new()
+            .with(TwoBody {
+                mu_km3_s2: 398_600.441_8,
+            })
+            .with(Zonal::egm96(398_600.441_8, 6378.1363, 2).unwrap())
+    };
+    let mut a = base();
+    a.push(Box::new(
+        PluginForce::load(&so, &reference, Some(&f.checksum)).unwrap(),
+    ));
+    let mut b = base();
+    b.push(Box::new(f.force(&reference).unwrap()));
+    let x0 = StateVector::new(6878.0, 0.0, 0.0, 0.0, 4.8, 5.9);
+    let grid = output_grid(0.0, 86400.0, 3600.0);
+    let req = Request {
+        x0,
+        t0_s: 0.0,
+        t_end_s: 86400.0,
+        output_times_s: &grid,
+        stop_times_s: &[],
+    };
+    let o = Options::default();
+    let pa = propagate(&a, &req, &o, &mut Silent).unwrap();
+    let pb = propagate(&b, &req, &o, &mut Silent).unwrap();
+    let worst = pa
+        .samples
+        .iter()
+        .zip(&pb.samples)
+        .map(|(x, y)| (x.1 - y.1).fixed_rows::<3>(0).norm())
+        .fold(0.0, f64::max);
+    eprintln!("native vs in-process after 1 day: {worst:.3e} km");
+    assert!(worst < 1e-9, "{worst}");
+}
