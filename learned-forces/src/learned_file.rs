@@ -393,13 +393,12 @@ impl Force for LearnedForce {
         if !self.gate(t_s, tf, x)? {
             return Ok(Vector3::zeros());
         }
-        let p = Terminals::with_sun(
+        let p = Terminals::with_needs(
             tf,
             [x[0], x[1], x[2]],
             [x[3], x[4], x[5]],
             &self.context,
-            self.needs.sun,
-            self.needs.lit,
+            &self.needs,
         );
         let v = self.program.eval(&p);
         propagator::force::finite_or_error(&self.name, t_s, Vector3::new(v[0], v[1], v[2]))
@@ -412,13 +411,12 @@ impl Force for LearnedForce {
             return Ok(Matrix3x6::zeros());
         }
         let d = |k: usize| crate::expr::num::Dual::var(x[k], k);
-        let p = Terminals::with_sun(
+        let p = Terminals::with_needs(
             tf,
             [d(0), d(1), d(2)],
             [d(3), d(4), d(5)],
             &self.context,
-            self.needs.sun,
-            self.needs.lit,
+            &self.needs,
         );
         let v = self.program.eval(&p);
         let mut m = Matrix3x6::zeros();

@@ -153,6 +153,8 @@ const WINDOW: (f64, f64) = ({w0}, {w1});
 const ALT: (f64, f64) = ({a0}, {a1});
 // 0 warn (evaluate), 1 zero, 2 refuse.
 const POLICY: u8 = {policy};
+// The terminals the formula reads; the others are never computed.
+const NEED: Need = Need {{ rtn: {need_rtn}, u: {need_u}, rho: {need_rho}, sun: {need_sun}, lit: {need_lit} }};
 
 fn eval<N: Num>(p: &P<N>) -> [N; 3] {{
 {body}}}
@@ -191,7 +193,7 @@ fn accel(t: f64, s: &[f64], out: &mut [f64]) -> i32 {{
         2 => return 1,
         _ => {{}}
     }}
-    let p = terminals::<f64>(t, [s[0], s[1], s[2]], [s[3], s[4], s[5]], RE, W, T0C, {need_sun}, {need_lit});
+    let p = terminals_for::<f64>(t, [s[0], s[1], s[2]], [s[3], s[4], s[5]], RE, W, T0C, NEED);
     let a = eval(&p);
     if !(a[0].is_finite() && a[1].is_finite() && a[2].is_finite()) {{
         return 2;
@@ -254,7 +256,7 @@ pub unsafe extern "C" fn arcwise_plugin_partials(t: f64, state: *const f64, out:
             _ => {{}}
         }}
         let d = |k: usize| D::var(s[k], k);
-        let p = terminals::<D>(t, [d(0), d(1), d(2)], [d(3), d(4), d(5)], RE, W, T0C, {need_sun}, {need_lit});
+        let p = terminals_for::<D>(t, [d(0), d(1), d(2)], [d(3), d(4), d(5)], RE, W, T0C, NEED);
         let a = eval(&p);
         for i in 0..3 {{
             for j in 0..6 {{
@@ -287,6 +289,9 @@ pub unsafe extern "C" fn arcwise_plugin_partials(t: f64, state: *const f64, out:
         abi = ABI_VERSION,
         need_sun = needs.sun,
         need_lit = needs.lit,
+        need_rtn = needs.rtn,
+        need_u = needs.arglat,
+        need_rho = needs.density,
     );
     Ok(src)
 }

@@ -304,6 +304,25 @@ pub struct P<N> {
     pub lit: f64,
 }
 
+/// Which terminals to compute (the rest are left at zero); generated code passes
+/// constants, so the unused work is compiled away.
+#[derive(Clone, Copy)]
+pub struct Need {
+    pub rtn: bool,
+    pub u: bool,
+    pub rho: bool,
+    pub sun: bool,
+    pub lit: bool,
+}
+
+pub const ALL: Need = Need {
+    rtn: true,
+    u: true,
+    rho: true,
+    sun: true,
+    lit: true,
+};
+
 /// Terminals at formula time `t` (s), state (r, v); `t0c` TT centuries at `t = 0`.
 /// `need_sun` and `need_lit` skip the Sun series and the shadow when unused.
 #[allow(clippy::too_many_arguments)]
@@ -317,33 +336,69 @@ pub fn terminals<N: Num>(
     need_sun: bool,
     need_lit: bool,
 ) -> P<N> {
+    terminals_for(
+        t,
+        r,
+        v,
+        re,
+        w,
+        t0c,
+        Need {
+            sun: need_sun,
+            lit: need_lit,
+            ..ALL
+        },
+    )
+}
+
+/// As [`terminals`], computing only what `need` asks for.
+pub fn terminals_for<N: Num>(
+    t: f64,
+    r: [N; 3],
+    v: [N; 3],
+    re: f64,
+    w: f64,
+    t0c: f64,
+    need: Need,
+) -> P<N> {
+    let z = N::c(0.0);
     let w = N::c(w);
     let vrel = [v[0] + w * r[1], v[1] - w * r[0], v[2]];
     let rn = norm3(r);
-    let rh = scale3(N::c(1.0) / rn, r);
-    let hv = cross3(r, v);
-    let nh = scale3(N::c(1.0) / norm3(hv), hv);
-    let th = cross3(nh, rh);
-    let node = [-hv[1], hv[0], N::c(0.0)];
-    let nn = norm3(node);
-    let nhat = if nn.v() < 1e-10 * norm3(hv).v() {
-        [N::c(1.0), N::c(0.0), N::c(0.0)]
+    let (rh, th, nh, u) = if need.rtn || need.u {
+        let rh = scale3(N::c(1.0) / rn, r);
+        let hv = cross3(r, v);
+        let nh = scale3(N::c(1.0) / norm3(hv), hv);
+        let th = cross3(nh, rh);
+        let u = if need.u {
+            let node = [-hv[1], hv[0], N::c(0.0)];
+            let nn = norm3(node);
+            let nhat = if nn.v() < 1e-10 * norm3(hv).v() {
+                [N::c(1.0), N::c(0.0), N::c(0.0)]
+            } else {
+                scale3(N::c(1.0) / nn, node)
+            };
+            dot3(nh, cross3(nhat, r)).atan2(dot3(nhat, r))
+        } else {
+            z
+        };
+        (rh, th, nh, u)
     } else {
-        scale3(N::c(1.0) / nn, node)
+        ([z; 3], [z; 3], [z; 3], z)
     };
-    let u = dot3(nh, cross3(nhat, r)).atan2(dot3(nhat, r));
     let h = rn - N::c(re);
-    let (sun, lit_fraction) = if need_sun || need_lit {
+    let (sun, lit_fraction) = if need.sun || need.lit {
         let s = sun_km(t0c + t / (86_400.0 * 36_525.0));
         let sn = norm3(s);
         let rv = [r[0].v(), r[1].v(), r[2].v()];
         (
             [s[0] / sn, s[1] / sn, s[2] / sn],
-            if need_lit { lit(rv, s, re) } else { 1.0 },
+            if need.lit { lit(rv, s, re) } else { 1.0 },
         )
     } else {
         ([0.0; 3], 1.0)
     };
+    let rho = if need.rho { density(h) } else { z };
     P {
         t,
         r,
@@ -353,7 +408,7 @@ pub fn terminals<N: Num>(
         th,
         nh,
         h,
-        rho: density(h),
+        rho,
         u,
         sun,
         lit: lit_fraction,

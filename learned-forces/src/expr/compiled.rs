@@ -238,16 +238,17 @@ impl Program {
 
     /// Evaluates the sum at the terminals `p` (vector result, km/s²).
     pub fn eval<N: Num>(&self, p: &Terminals<N>) -> V3<N> {
+        #[derive(Clone, Copy)]
         enum R<N> {
             S(N),
             V(V3<N>),
         }
-        let mut regs: Vec<R<N>> = Vec::with_capacity(self.instrs.len());
-        let s = |regs: &Vec<R<N>>, i: usize| match &regs[i] {
+        let mut regs: smallvec_like::Regs<R<N>> = smallvec_like::Regs::new(self.instrs.len());
+        let s = |regs: &smallvec_like::Regs<R<N>>, i: usize| match &regs[i] {
             R::S(x) => *x,
             R::V(_) => N::cst(f64::NAN),
         };
-        let v = |regs: &Vec<R<N>>, i: usize| match &regs[i] {
+        let v = |regs: &smallvec_like::Regs<R<N>>, i: usize| match &regs[i] {
             R::V(x) => *x,
             R::S(_) => [N::cst(f64::NAN); 3],
         };
@@ -292,5 +293,56 @@ impl Program {
             regs.push(r);
         }
         v(&regs, regs.len() - 1)
+    }
+}
+
+/// Register storage on the stack for small programs (no allocation per call).
+mod smallvec_like {
+    use std::mem::MaybeUninit;
+
+    const INLINE: usize = 48;
+
+    pub enum Regs<T> {
+        Inline([MaybeUninit<T>; INLINE], usize),
+        Heap(Vec<T>),
+    }
+
+    impl<T: Copy> Regs<T> {
+        pub fn new(n: usize) -> Self {
+            if n <= INLINE {
+                Regs::Inline([const { MaybeUninit::uninit() }; INLINE], 0)
+            } else {
+                Regs::Heap(Vec::with_capacity(n))
+            }
+        }
+        pub fn push(&mut self, x: T) {
+            match self {
+                Regs::Inline(a, len) => {
+                    a[*len] = MaybeUninit::new(x);
+                    *len += 1;
+                }
+                Regs::Heap(v) => v.push(x),
+            }
+        }
+        pub fn len(&self) -> usize {
+            match self {
+                Regs::Inline(_, len) => *len,
+                Regs::Heap(v) => v.len(),
+            }
+        }
+    }
+
+    impl<T: Copy> std::ops::Index<usize> for Regs<T> {
+        type Output = T;
+        fn index(&self, i: usize) -> &T {
+            match self {
+                Regs::Inline(a, len) => {
+                    assert!(i < *len);
+                    // SAFETY: slots below `len` were written by `push`.
+                    unsafe { a[i].assume_init_ref() }
+                }
+                Regs::Heap(v) => &v[i],
+            }
+        }
     }
 }

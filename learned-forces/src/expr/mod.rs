@@ -428,22 +428,47 @@ impl<N: Num> Terminals<N> {
         need_sun: bool,
         need_lit: bool,
     ) -> Self {
+        let needs = compiled::Needs {
+            rtn: true,
+            arglat: true,
+            density: true,
+            altitude: true,
+            vrel: true,
+            sun: need_sun,
+            lit: need_lit,
+        };
+        Self::with_needs(t, r, v, ctx, &needs)
+    }
+
+    /// Computes only the terminals in `needs` (the others are left at zero, `lit` at one).
+    pub fn with_needs(t: f64, r: V3<N>, v: V3<N>, ctx: &Context, needs: &compiled::Needs) -> Self {
+        let (need_sun, need_lit) = (needs.sun, needs.lit);
+        let z = N::cst(0.0);
         let w = N::cst(ctx.rotation_rad_s);
         let vrel = [v[0] + w * r[1], v[1] - w * r[0], v[2]];
         let rn = norm3(r);
-        let rh = scale3(N::cst(1.0) / rn, r);
-        let hv = cross3(r, v);
-        let nh = scale3(N::cst(1.0) / norm3(hv), hv);
-        let th = cross3(nh, rh);
-        // Argument of latitude from the node line ẑ × h (x axis for an equatorial orbit).
-        let node = [-hv[1], hv[0], N::cst(0.0)];
-        let nn = norm3(node);
-        let nhat = if nn.val() < 1e-10 * norm3(hv).val() {
-            [N::cst(1.0), N::cst(0.0), N::cst(0.0)]
+        let (rh, th, nh, u) = if needs.rtn || needs.arglat {
+            let rh = scale3(N::cst(1.0) / rn, r);
+            let hv = cross3(r, v);
+            let nh = scale3(N::cst(1.0) / norm3(hv), hv);
+            let th = cross3(nh, rh);
+            // Argument of latitude from the node line ẑ × h (x axis for an equatorial orbit).
+            let u = if needs.arglat {
+                let node = [-hv[1], hv[0], N::cst(0.0)];
+                let nn = norm3(node);
+                let nhat = if nn.val() < 1e-10 * norm3(hv).val() {
+                    [N::cst(1.0), N::cst(0.0), N::cst(0.0)]
+                } else {
+                    scale3(N::cst(1.0) / nn, node)
+                };
+                dot3(nh, cross3(nhat, r)).atan2(dot3(nhat, r))
+            } else {
+                z
+            };
+            (rh, th, nh, u)
         } else {
-            scale3(N::cst(1.0) / nn, node)
+            ([z; 3], [z; 3], [z; 3], z)
         };
-        let u = dot3(nh, cross3(nhat, r)).atan2(dot3(nhat, r));
         let h = rn - N::cst(ctx.radius_km);
         let (sun, lit) = if need_sun || need_lit {
             let s = sun_position_km(ctx.clock.centuries(t));
@@ -469,7 +494,7 @@ impl<N: Num> Terminals<N> {
             th,
             nh,
             h,
-            rho: density(h),
+            rho: if needs.density { density(h) } else { z },
             u,
             sun,
             lit,

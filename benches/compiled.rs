@@ -1,0 +1,123 @@
+//! A learned force evaluated three ways: written by hand in Rust, through the native
+//! plugin built by `arcwise build`, and by the in-process compiled evaluator.
+//! Targets: native ≤ 1.2× hand-written; in-process ≤ 4× native.
+
+use criterion::{criterion_group, criterion_main, Criterion};
+use learned_forces::codegen::build;
+use learned_forces::learned_file::*;
+use nalgebra::Vector3;
+use propagator::force::{Force, ForceError};
+use propagator::plugin::loader::PluginForce;
+use propagator::{Epoch, StateVector};
+use std::hint::black_box;
+
+const EPOCH: &str = "2031-05-04T00:00:00.000000Z";
+
+/// The venting force written by hand: 2e-9 · exp(−t/21600) · T̂.
+struct HandWritten;
+impl Force for HandWritten {
+    fn name(&self) -> &str {
+        "hand"
+    }
+    fn acceleration(&self, t: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
+        let r = Vector3::new(x[0], x[1], x[2]);
+        let v = Vector3::new(x[3], x[4], x[5]);
+        let rh = r / r.norm();
+        let h = r.cross(&v);
+        let nh = h / h.norm();
+        let th = nh.cross(&rh);
+        Ok(th * (2e-9 * (-t / 21600.0).exp()))
+    }
+}
+
+fn file() -> LearnedFile {
+    let mut f = LearnedFile {
+        format_version: FORMAT_VERSION,
+        name: "bench".into(),
+        frame: "ECI".into(),
+        epoch_utc: EPOCH.into(),
+        earth: EarthEntry {
+            radius_km: 6378.1363,
+            rotation_rad_s: 7.292115e-5,
+        },
+        terms: vec![TermEntry {
+            formula: "exp(-t / k0) * T".into(),
+            coefficient: 2e-9,
+            sigma: 1e-12,
+        }],
+        constants: vec![ConstantEntry {
+            name: "k0".into(),
+            value: 21600.0,
+            sigma: 10.0,
+        }],
+        validity: ValidityEntry {
+            start_utc: EPOCH.into(),
+            end_utc: "2031-05-05T00:00:00.000000Z".into(),
+            min_altitude_km: 300.0,
+            max_altitude_km: 800.0,
+            outside: OutsidePolicy::Warn,
+            time_margin_s: 86400.0,
+            altitude_margin_km: 20.0,
+        },
+        fit: FitEntry {
+            observations: 0,
+            rms_km_before: 0.0,
+            rms_km_after: 0.0,
+            held_out_rms_km: 0.0,
+            chi2: 0.0,
+            dof: 0,
+        },
+        provenance: ProvenanceEntry {
+            arc_sha256: "sha256:0".into(),
+            forces_sha256: "sha256:0".into(),
+            seed: 0,
+            tool_version: "bench".into(),
+        },
+        state_at_end: StateEntry {
+            epoch_utc: EPOCH.into(),
+            r_km: [7000.0, 0.0, 0.0],
+            v_km_s: [0.0, 7.5, 0.0],
+        },
+        notes: vec![],
+        checksum: String::new(),
+    };
+    f.checksum = f.compute_checksum();
+    f
+}
+
+fn bench(c: &mut Criterion) {
+    let f = file();
+    let dir = std::env::temp_dir().join(format!("arcwise-bench-plugin-{}", std::process::id()));
+    let so = build(&f, "bench", &dir).expect("plugin build");
+    let reference = Epoch::parse_utc(EPOCH).unwrap();
+    let native = PluginForce::load(&so, &reference, Some(&f.checksum)).unwrap();
+    let inproc = f.force(&reference).unwrap();
+    let x = StateVector::new(6878.0, 100.0, -50.0, 0.1, 4.8, 5.9);
+    let mut g = c.benchmark_group("learned force 2e-9·exp(-t/k0)·T, one evaluation");
+    g.bench_function("hand-written Rust", |b| {
+        b.iter(|| {
+            HandWritten
+                .acceleration(black_box(3600.0), black_box(&x))
+                .unwrap()
+        })
+    });
+    g.bench_function("native plugin (arcwise build)", |b| {
+        b.iter(|| {
+            native
+                .acceleration(black_box(3600.0), black_box(&x))
+                .unwrap()
+        })
+    });
+    g.bench_function("in-process compiled evaluator", |b| {
+        b.iter(|| {
+            inproc
+                .acceleration(black_box(3600.0), black_box(&x))
+                .unwrap()
+        })
+    });
+    g.finish();
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+criterion_group!(benches, bench);
+criterion_main!(benches);
