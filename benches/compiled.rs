@@ -85,6 +85,43 @@ fn file() -> LearnedFile {
     f
 }
 
+/// The same force hand-written in C, built as a plugin with the machine's `cc -O2`: the
+/// fair comparison for a plugin, since both pay the C ABI call.
+fn hand_written_c_plugin(dir: &std::path::Path) -> Option<std::path::PathBuf> {
+    let src = dir.join("hand.c");
+    let meta = r#"{\"abi_version\":1,\"name\":\"hand\",\"frame\":\"ECI\",\"reference_epoch_utc\":\"2031-05-04T00:00:00Z\",\"source_checksum\":null,\"validity\":null,\"units\":{\"time\":\"s\",\"state\":\"km, km/s\",\"acceleration\":\"km/s^2\"}}"#;
+    let code = format!(
+        r#"#include <math.h>
+#include <stdint.h>
+uint32_t arcwise_plugin_abi_version(void) {{ return 1; }}
+const char *arcwise_plugin_metadata(void) {{ return "{meta}"; }}
+int32_t arcwise_plugin_acceleration(double t, const double s[6], double out[3]) {{
+    double rn = sqrt(s[0]*s[0] + s[1]*s[1] + s[2]*s[2]);
+    double rh[3] = {{ s[0]/rn, s[1]/rn, s[2]/rn }};
+    double h[3] = {{ s[1]*s[5] - s[2]*s[4], s[2]*s[3] - s[0]*s[5], s[0]*s[4] - s[1]*s[3] }};
+    double hn = sqrt(h[0]*h[0] + h[1]*h[1] + h[2]*h[2]);
+    double n[3] = {{ h[0]/hn, h[1]/hn, h[2]/hn }};
+    double k = 2e-9 * exp(-t / 21600.0);
+    out[0] = k * (n[1]*rh[2] - n[2]*rh[1]);
+    out[1] = k * (n[2]*rh[0] - n[0]*rh[2]);
+    out[2] = k * (n[0]*rh[1] - n[1]*rh[0]);
+    return 0;
+}}
+"#
+    );
+    std::fs::write(&src, code).ok()?;
+    let out = dir.join("libhand.so");
+    let ok = std::process::Command::new("cc")
+        .args(["-O2", "-shared", "-fPIC", "-o"])
+        .arg(&out)
+        .arg(&src)
+        .arg("-lm")
+        .status()
+        .ok()?
+        .success();
+    ok.then_some(out)
+}
+
 fn bench(c: &mut Criterion) {
     let f = file();
     let dir = std::env::temp_dir().join(format!("arcwise-bench-plugin-{}", std::process::id()));
@@ -93,6 +130,8 @@ fn bench(c: &mut Criterion) {
     let native = PluginForce::load(&so, &reference, Some(&f.checksum)).unwrap();
     let inproc = f.force(&reference).unwrap();
     let x = StateVector::new(6878.0, 100.0, -50.0, 0.1, 4.8, 5.9);
+    let hand_c =
+        hand_written_c_plugin(&dir).map(|p| PluginForce::load(&p, &reference, None).unwrap());
     let mut g = c.benchmark_group("learned force 2e-9·exp(-t/k0)·T, one evaluation");
     g.bench_function("hand-written Rust", |b| {
         b.iter(|| {
@@ -101,6 +140,11 @@ fn bench(c: &mut Criterion) {
                 .unwrap()
         })
     });
+    if let Some(h) = &hand_c {
+        g.bench_function("hand-written C plugin (same ABI)", |b| {
+            b.iter(|| h.acceleration(black_box(3600.0), black_box(&x)).unwrap())
+        });
+    }
     g.bench_function("native plugin (arcwise build)", |b| {
         b.iter(|| {
             native
