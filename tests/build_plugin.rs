@@ -121,8 +121,8 @@ fn plugin_runtime_terminals_match_the_library() {
                 && (a.u - b.u).abs() <= 1e-15
                 && (a.lit - b.lit).abs() <= 1e-14
         );
-        let d = |k: usize| runtime::D::var(x[k], k);
-        let bd = runtime::terminals::<runtime::D>(
+        let d = |k: usize| runtime::Dual::var(x[k], k);
+        let bd = runtime::terminals::<runtime::Dual>(
             t,
             [d(0), d(1), d(2)],
             [d(3), d(4), d(5)],

@@ -38,19 +38,19 @@ pub fn straight_line(program: &Program) -> String {
     for (i, ins) in program.instrs.iter().enumerate() {
         use Instr::*;
         let e = match ins {
-            Time => "N::c(p.t)".to_string(),
+            Time => "N::cst(p.t)".to_string(),
             Alt => "p.h".into(),
             Rho => "p.rho".into(),
             ArgLat => "p.u".into(),
-            Lit => "N::c(p.lit)".into(),
-            Const(c) => format!("N::c({})", lit(*c)),
+            Lit => "N::cst(p.lit)".into(),
+            Const(c) => format!("N::cst({})", lit(*c)),
             Pos => "p.r".into(),
             Vel => "p.v".into(),
             VelRel => "p.vrel".into(),
             UnitR => "p.rh".into(),
             UnitT => "p.th".into(),
             UnitN => "p.nh".into(),
-            Sun => "[N::c(p.sun[0]), N::c(p.sun[1]), N::c(p.sun[2])]".into(),
+            Sun => "[N::cst(p.sun[0]), N::cst(p.sun[1]), N::cst(p.sun[2])]".into(),
             AddS(a, b) => format!("x{a} + x{b}"),
             SubS(a, b) => format!("x{a} - x{b}"),
             MulS(a, b) => format!("x{a} * x{b}"),
@@ -66,7 +66,7 @@ pub fn straight_line(program: &Program) -> String {
             AddV(a, b) => format!("add3(x{a}, x{b})"),
             SubV(a, b) => format!("sub3(x{a}, x{b})"),
             Scale(a, b) => format!("scale3(x{a}, x{b})"),
-            DivV(a, b) => format!("scale3(N::c(1.0) / x{b}, x{a})"),
+            DivV(a, b) => format!("scale3(N::cst(1.0) / x{b}, x{a})"),
             NegV(a) => format!("neg3(x{a})"),
             Cross(a, b) => format!("cross3(x{a}, x{b})"),
         };
@@ -255,8 +255,8 @@ pub unsafe extern "C" fn arcwise_plugin_partials(t: f64, state: *const f64, out:
             2 => return 1,
             _ => {{}}
         }}
-        let d = |k: usize| D::var(s[k], k);
-        let p = terminals_for::<D>(t, [d(0), d(1), d(2)], [d(3), d(4), d(5)], RE, W, T0C, NEED);
+        let d = |k: usize| Dual::var(s[k], k);
+        let p = terminals_for::<Dual>(t, [d(0), d(1), d(2)], [d(3), d(4), d(5)], RE, W, T0C, NEED);
         let a = eval(&p);
         for i in 0..3 {{
             for j in 0..6 {{

@@ -8,7 +8,7 @@
 
 use std::ops::{Add, Div, Mul, Neg, Sub};
 
-/// Arithmetic of the generated code: `f64`, or `D` (value and ∂/∂state).
+/// Arithmetic of the generated code: `f64`, or `Dual` (value and ∂/∂state).
 pub trait Num:
     Copy
     + Add<Output = Self>
@@ -17,8 +17,8 @@ pub trait Num:
     + Div<Output = Self>
     + Neg<Output = Self>
 {
-    fn c(v: f64) -> Self;
-    fn v(&self) -> f64;
+    fn cst(v: f64) -> Self;
+    fn val(&self) -> f64;
     fn sin(self) -> Self;
     fn cos(self) -> Self;
     fn exp(self) -> Self;
@@ -28,10 +28,10 @@ pub trait Num:
 }
 
 impl Num for f64 {
-    fn c(v: f64) -> Self {
+    fn cst(v: f64) -> Self {
         v
     }
-    fn v(&self) -> f64 {
+    fn val(&self) -> f64 {
         *self
     }
     fn sin(self) -> Self {
@@ -56,78 +56,78 @@ impl Num for f64 {
 
 /// A value with its derivatives with respect to (x, y, z, vx, vy, vz).
 #[derive(Clone, Copy, Debug, PartialEq)]
-pub struct D {
+pub struct Dual {
     pub v: f64,
     pub d: [f64; 6],
 }
 
-impl D {
-    pub fn var(v: f64, k: usize) -> D {
+impl Dual {
+    pub fn var(v: f64, k: usize) -> Dual {
         let mut d = [0.0; 6];
         d[k] = 1.0;
-        D { v, d }
+        Dual { v, d }
     }
-    fn chain(self, f: f64, df: f64) -> D {
+    fn chain(self, f: f64, df: f64) -> Dual {
         let mut d = self.d;
         for x in &mut d {
             *x *= df;
         }
-        D { v: f, d }
+        Dual { v: f, d }
     }
 }
 
-impl Add for D {
-    type Output = D;
-    fn add(self, o: D) -> D {
+impl Add for Dual {
+    type Output = Dual;
+    fn add(self, o: Dual) -> Dual {
         let mut d = self.d;
         for k in 0..6 {
             d[k] += o.d[k];
         }
-        D { v: self.v + o.v, d }
+        Dual { v: self.v + o.v, d }
     }
 }
-impl Sub for D {
-    type Output = D;
-    fn sub(self, o: D) -> D {
+impl Sub for Dual {
+    type Output = Dual;
+    fn sub(self, o: Dual) -> Dual {
         let mut d = self.d;
         for k in 0..6 {
             d[k] -= o.d[k];
         }
-        D { v: self.v - o.v, d }
+        Dual { v: self.v - o.v, d }
     }
 }
-impl Mul for D {
-    type Output = D;
-    fn mul(self, o: D) -> D {
+impl Mul for Dual {
+    type Output = Dual;
+    fn mul(self, o: Dual) -> Dual {
         let mut d = [0.0; 6];
         for k in 0..6 {
             d[k] = self.d[k] * o.v + self.v * o.d[k];
         }
-        D { v: self.v * o.v, d }
+        Dual { v: self.v * o.v, d }
     }
 }
-impl Div for D {
-    type Output = D;
-    fn div(self, o: D) -> D {
+impl Div for Dual {
+    type Output = Dual;
+    fn div(self, o: Dual) -> Dual {
         let inv = 1.0 / o.v;
         let mut d = [0.0; 6];
         for k in 0..6 {
             d[k] = (self.d[k] - self.v * inv * o.d[k]) * inv;
         }
-        D { v: self.v * inv, d }
+        Dual { v: self.v * inv, d }
     }
 }
-impl Neg for D {
-    type Output = D;
-    fn neg(self) -> D {
+impl Neg for Dual {
+    type Output = Dual;
+    fn neg(self) -> Dual {
         self.chain(-self.v, -1.0)
     }
 }
-impl Num for D {
-    fn c(v: f64) -> Self {
-        D { v, d: [0.0; 6] }
+impl Num for Dual {
+    fn cst(v: f64) -> Self {
+        Dual { v, d: [0.0; 6] }
     }
-    fn v(&self) -> f64 {
+    fn val(&self) -> f64 {
         self.v
     }
     fn sin(self) -> Self {
@@ -153,7 +153,7 @@ impl Num for D {
         for k in 0..6 {
             d[k] = (x.v * self.d[k] - self.v * x.d[k]) / r2;
         }
-        D {
+        Dual {
             v: self.v.atan2(x.v),
             d,
         }
@@ -220,13 +220,13 @@ const TABLE: [(f64, f64, f64); 28] = [
 ];
 
 pub fn density<N: Num>(h: N) -> N {
-    let hv = h.v();
+    let hv = h.val();
     let mut i = 0;
     while i + 1 < TABLE.len() && TABLE[i + 1].0 <= hv {
         i += 1;
     }
     let (h0, rho0, sh) = TABLE[i];
-    N::c(rho0) * (-(h - N::c(h0)) / N::c(sh)).exp()
+    N::cst(rho0) * (-(h - N::cst(h0)) / N::cst(sh)).exp()
 }
 
 const AU_KM: f64 = 149_597_870.7;
@@ -361,22 +361,22 @@ pub fn terminals_for<N: Num>(
     t0c: f64,
     need: Need,
 ) -> P<N> {
-    let z = N::c(0.0);
-    let w = N::c(w);
+    let z = N::cst(0.0);
+    let w = N::cst(w);
     let vrel = [v[0] + w * r[1], v[1] - w * r[0], v[2]];
     let rn = norm3(r);
     let (rh, th, nh, u) = if need.rtn || need.u {
-        let rh = scale3(N::c(1.0) / rn, r);
+        let rh = scale3(N::cst(1.0) / rn, r);
         let hv = cross3(r, v);
-        let nh = scale3(N::c(1.0) / norm3(hv), hv);
+        let nh = scale3(N::cst(1.0) / norm3(hv), hv);
         let th = cross3(nh, rh);
         let u = if need.u {
-            let node = [-hv[1], hv[0], N::c(0.0)];
+            let node = [-hv[1], hv[0], N::cst(0.0)];
             let nn = norm3(node);
-            let nhat = if nn.v() < 1e-10 * norm3(hv).v() {
-                [N::c(1.0), N::c(0.0), N::c(0.0)]
+            let nhat = if nn.val() < 1e-10 * norm3(hv).val() {
+                [N::cst(1.0), N::cst(0.0), N::cst(0.0)]
             } else {
-                scale3(N::c(1.0) / nn, node)
+                scale3(N::cst(1.0) / nn, node)
             };
             dot3(nh, cross3(nhat, r)).atan2(dot3(nhat, r))
         } else {
@@ -386,11 +386,11 @@ pub fn terminals_for<N: Num>(
     } else {
         ([z; 3], [z; 3], [z; 3], z)
     };
-    let h = rn - N::c(re);
+    let h = rn - N::cst(re);
     let (sun, lit_fraction) = if need.sun || need.lit {
         let s = sun_km(t0c + t / (86_400.0 * 36_525.0));
         let sn = norm3(s);
-        let rv = [r[0].v(), r[1].v(), r[2].v()];
+        let rv = [r[0].val(), r[1].val(), r[2].val()];
         (
             [s[0] / sn, s[1] / sn, s[2] / sn],
             if need.lit { lit(rv, s, re) } else { 1.0 },
