@@ -82,6 +82,36 @@ pub enum TruthTerm {
     },
     /// A maneuver (`impulsive` or `finite`, as in forces.yaml).
     Maneuver(ManeuverSpec),
+    /// Any extra force written in the formula text (km/s², ECI; `t` from the scenario
+    /// epoch), e.g. `2e-9 * exp(-t / 21600) * T`.
+    Formula {
+        /// The formula.
+        text: String,
+    },
+}
+
+/// A truth term written as a formula.
+pub struct FormulaForce {
+    program: crate::expr::compiled::Program,
+    needs: crate::expr::compiled::Needs,
+    context: crate::expr::Context,
+}
+
+impl Force for FormulaForce {
+    fn name(&self) -> &str {
+        "truth_formula"
+    }
+    fn acceleration(&self, t_s: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
+        let p = crate::expr::Terminals::with_needs(
+            t_s,
+            [x[0], x[1], x[2]],
+            [x[3], x[4], x[5]],
+            &self.context,
+            &self.needs,
+        );
+        let a = self.program.eval(&p);
+        propagator::force::finite_or_error(self.name(), t_s, Vector3::new(a[0], a[1], a[2]))
+    }
 }
 
 /// Tracking schedule and noise.
@@ -389,6 +419,26 @@ impl ScenarioSpec {
                     amplitude_rtn_km_s2: Vector3::from(*amplitude_rtn_km_s2),
                     phase_rad: phase_deg.to_radians(),
                 })),
+                TruthTerm::Formula { text } => {
+                    let node =
+                        crate::expr::parse(text).map_err(|e| err(format!("truth.formula: {e}")))?;
+                    if node.n_params() > 0 {
+                        return Err(err(
+                            "truth.formula: write numbers, not k-constants, in a truth formula"
+                                .into(),
+                        ));
+                    }
+                    let program = crate::expr::compiled::Program::compile(&[node], &[1.0], &[]);
+                    truth.push(Box::new(FormulaForce {
+                        needs: program.needs(),
+                        program,
+                        context: crate::expr::Context {
+                            radius_km: known.central_body.radius_km,
+                            rotation_rad_s: known.central_body.rotation_rad_s,
+                            clock: propagator::solar_system::CenturyClock::new(&initial.epoch),
+                        },
+                    }));
+                }
                 TruthTerm::Maneuver(_) => {}
             }
         }

@@ -269,3 +269,34 @@ fn velocity_observations_and_tracking_gaps() {
     );
     assert!(r.residuals.iter().all(|x| x.velocity_km_s.is_some()));
 }
+
+#[test]
+fn a_truth_term_written_as_a_formula_acts_like_the_built_in_one() {
+    // The venting push as a formula gives the same arc as the built-in decaying_push.
+    let (spec, path) = scenario("venting.yaml");
+    let mut f = spec.clone();
+    f.truth = vec![TruthTerm::Formula {
+        text: "2e-9 * exp(-t / 21600) * T".into(),
+    }];
+    let a = spec.simulate(&path).unwrap();
+    let b = f.simulate(&path).unwrap();
+    let worst = a
+        .truth
+        .points
+        .iter()
+        .zip(&b.truth.points)
+        .map(|(p, q)| (p.state - q.state).fixed_rows::<3>(0).norm())
+        .fold(0.0, f64::max);
+    assert!(worst < 1e-9, "{worst} km");
+    let bad = TruthTerm::Formula {
+        text: "exp(-t / k0) * T".into(),
+    };
+    let mut g = spec.clone();
+    g.truth = vec![bad];
+    assert!(g
+        .simulate(&path)
+        .err()
+        .unwrap()
+        .to_string()
+        .contains("k-constants"));
+}
