@@ -3,7 +3,6 @@
 /// Exit code for bad input or usage (DESIGN §3).
 pub const EXIT_BAD_INPUT: u8 = 2;
 /// Exit code for a check that ran and failed.
-#[allow(dead_code)]
 pub const EXIT_CHECK_FAILED: u8 = 1;
 
 /// A failure of a command: what to tell the user and the exit code.

@@ -29,6 +29,8 @@ enum Command {
     Learn(commands::learn::Args),
     /// Compile a learned-force file into a native force plugin.
     Build(commands::build::Args),
+    /// Predict the next arc with and without a learned force; exit 1 if the check fails.
+    Check(commands::check::Args),
     /// Propagate a state with a force model into an ephemeris (OEM or CSV).
     Propagate(commands::propagate::Args),
 }
@@ -48,6 +50,7 @@ fn main() -> ExitCode {
         Command::Fit(args) => commands::fit::run(args),
         Command::Learn(args) => commands::learn::run(args),
         Command::Build(args) => commands::build::run(args),
+        Command::Check(args) => commands::check::run(args),
         Command::Propagate(args) => commands::propagate::run(args),
     };
     match result {

@@ -115,6 +115,51 @@ fn venting_learned_file_is_deterministic_and_usable() {
     ]);
     assert_eq!(code, 0, "{stderr}");
     assert!(stdout.contains("learned:"), "{stdout}");
+    // check: passes with the learned force (exit 0), fails a tight threshold (exit 1),
+    // refuses bad input (exit 2).
+    let rep = v.join("check.json");
+    let (code, stdout, stderr) = arcwise(&[
+        "check",
+        "--learned",
+        s(&learned),
+        "--forces",
+        s(&v.join("forces.yaml")),
+        "--arc",
+        s(&v.join("next.csv")),
+        "--report",
+        s(&rep),
+    ]);
+    assert_eq!(code, 0, "{stdout}{stderr}");
+    let r: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&rep).unwrap()).unwrap();
+    assert_eq!(r["passed"], true);
+    assert!(r["rms_km_learned"].as_f64().unwrap() < r["rms_km_base"].as_f64().unwrap());
+    let (code, _, _) = arcwise(&[
+        "check",
+        "--learned",
+        s(&learned),
+        "--forces",
+        s(&v.join("forces.yaml")),
+        "--arc",
+        s(&v.join("next.csv")),
+        "--max-rms-km",
+        "0.0001",
+    ]);
+    assert_eq!(code, 1);
+    let (code, _, stderr) = arcwise(&[
+        "check",
+        "--learned",
+        s(&learned),
+        "--forces",
+        s(&v.join("forces.yaml")),
+        "--arc",
+        s(&v.join("train.csv")),
+    ]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(
+        stderr.contains("before the learned file's end state"),
+        "{stderr}"
+    );
     // A tampered learned file is refused, naming the checksum.
     let text = std::fs::read_to_string(&learned).unwrap();
     let bad = text.replacen("coefficient: ", "coefficient: 1", 1);

@@ -1,6 +1,7 @@
 //! One module per command; each parses its options into library calls.
 
 pub mod build;
+pub mod check;
 pub mod fit;
 pub mod learn;
 pub mod propagate;
