@@ -33,6 +33,8 @@ enum Command {
     Check(commands::check::Args),
     /// Propagate a state with a force model into an ephemeris (OEM or CSV).
     Propagate(commands::propagate::Args),
+    /// Screen a primary against secondaries for close approaches (a screening aid).
+    Screen(commands::screen::Args),
 }
 
 fn main() -> ExitCode {
@@ -52,6 +54,7 @@ fn main() -> ExitCode {
         Command::Build(args) => commands::build::run(args),
         Command::Check(args) => commands::check::run(args),
         Command::Propagate(args) => commands::propagate::run(args),
+        Command::Screen(args) => commands::screen::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -23,6 +23,7 @@ pub mod frames;
 pub mod integrator;
 pub mod plugin;
 pub mod propagation;
+pub mod screening;
 pub mod solar_system;
 pub mod state;
 pub mod time;

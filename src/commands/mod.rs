@@ -5,4 +5,5 @@ pub mod check;
 pub mod fit;
 pub mod learn;
 pub mod propagate;
+pub mod screen;
 pub mod simulate;

@@ -145,17 +145,22 @@ pub fn run(a: Args) -> Result<(), CliError> {
     let result = result.map_err(|e| CliError::input(format!("propagation failed: {e}")))?;
     let wall_s = started.elapsed().as_secs_f64();
 
+    let mut points: Vec<EphemerisPoint> = result
+        .samples
+        .iter()
+        .map(|(t, x)| EphemerisPoint {
+            epoch: axis.epoch(*t),
+            state: *x,
+        })
+        .collect();
+    // Ephemeris files are in increasing time, whichever way we propagated.
+    if t_end < 0.0 {
+        points.reverse();
+    }
     let eph = Ephemeris {
         object_name: initial.object_name.clone().unwrap_or_default(),
         object_id: String::new(),
-        points: result
-            .samples
-            .iter()
-            .map(|(t, x)| EphemerisPoint {
-                epoch: axis.epoch(*t),
-                state: *x,
-            })
-            .collect(),
+        points,
     };
     eph.save(&a.out).map_err(CliError::input)?;
 
