@@ -28,7 +28,7 @@ fn screen_finds_the_crossing_and_says_it_is_a_screening_aid() {
         p
     };
     let forces = w("forces.yaml", "gravity: { zonal_degree: 0 }\n");
-    let (a, mu): (f64, f64) = (7000.0, 398_600.4418);
+    let (a, mu): (f64, f64) = (7000.0, 398_600.441_8);
     let v = (mu / a).sqrt();
     let v2 = (mu / (a + 0.5)).sqrt();
     // Both at the crossing point at 12:00, 0.5 km apart radially.
