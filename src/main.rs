@@ -1,7 +1,7 @@
 //! `arcwise`: the command-line shell over the `propagator` and `learned_forces`
 //! libraries. Argument parsing, progress display and reports live here; no physics.
 
-mod commands;
+pub mod commands;
 mod error;
 mod plot;
 mod progress;
@@ -21,6 +21,8 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
+    /// The whole chain on a built-in scenario: simulate, fit, learn, build, check, screen.
+    Demo(commands::demo::Args),
     /// Simulate a scenario into a training arc, a next arc and the truth (demo and test data).
     Simulate(commands::simulate::Args),
     /// Fit an arc with the known forces: state, residuals in RTN, anomaly verdict.
@@ -37,6 +39,28 @@ enum Command {
     Screen(commands::screen::Args),
 }
 
+/// Runs one command.
+fn dispatch(command: Command) -> Result<(), CliError> {
+    match command {
+        Command::Demo(args) => commands::demo::run(args),
+        Command::Simulate(args) => commands::simulate::run(args),
+        Command::Fit(args) => commands::fit::run(args),
+        Command::Learn(args) => commands::learn::run(args),
+        Command::Build(args) => commands::build::run(args),
+        Command::Check(args) => commands::check::run(args),
+        Command::Propagate(args) => commands::propagate::run(args),
+        Command::Screen(args) => commands::screen::run(args),
+    }
+}
+
+/// Runs a command given as words (`["fit", "--arc", …]`), as the demo does.
+pub fn run_words(words: &[String]) -> Result<(), CliError> {
+    let mut argv = vec!["arcwise".to_string()];
+    argv.extend(words.iter().cloned());
+    let cli = Cli::try_parse_from(&argv).map_err(|e| CliError::input(e.to_string()))?;
+    dispatch(cli.command)
+}
+
 fn main() -> ExitCode {
     let cli = match Cli::try_parse() {
         Ok(c) => c,
@@ -47,16 +71,7 @@ fn main() -> ExitCode {
             return ExitCode::from(code);
         }
     };
-    let result: Result<(), CliError> = match cli.command {
-        Command::Simulate(args) => commands::simulate::run(args),
-        Command::Fit(args) => commands::fit::run(args),
-        Command::Learn(args) => commands::learn::run(args),
-        Command::Build(args) => commands::build::run(args),
-        Command::Check(args) => commands::check::run(args),
-        Command::Propagate(args) => commands::propagate::run(args),
-        Command::Screen(args) => commands::screen::run(args),
-    };
-    match result {
+    match dispatch(cli.command) {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
             eprintln!("arcwise: error: {}", e.message);

@@ -2,6 +2,7 @@
 
 pub mod build;
 pub mod check;
+pub mod demo;
 pub mod fit;
 pub mod learn;
 pub mod propagate;
