@@ -35,6 +35,8 @@ enum Command {
     Check(commands::check::Args),
     /// Propagate a state with a force model into an ephemeris (OEM or CSV).
     Propagate(commands::propagate::Args),
+    /// Rank maneuver hypotheses for an arc (no maneuver, impulsive, finite burn, thrust).
+    Rank(commands::rank::Args),
     /// Screen a primary against secondaries for close approaches (a screening aid).
     Screen(commands::screen::Args),
 }
@@ -50,6 +52,7 @@ fn dispatch(command: Command) -> Result<(), CliError> {
         Command::Check(args) => commands::check::run(args),
         Command::Propagate(args) => commands::propagate::run(args),
         Command::Screen(args) => commands::screen::run(args),
+        Command::Rank(args) => commands::rank::run(args),
     }
 }
 

@@ -156,3 +156,42 @@ fn screen_finds_the_crossing_and_says_it_is_a_screening_aid() {
     assert_eq!(code, 2);
     assert!(stderr.contains("does not cover the window"), "{stderr}");
 }
+
+#[test]
+fn rank_cli_orders_hypotheses_and_reports_them() {
+    let dir = tempfile::tempdir().unwrap();
+    let sc = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/scenarios/quiet.yaml");
+    let out = dir.path().join("q");
+    assert_eq!(arcwise(&["simulate", s(&sc), "--out", s(&out)]).0, 0);
+    let h = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/hypotheses/maneuver_day.yaml");
+    let rep = dir.path().join("rank.json");
+    let (code, stdout, stderr) = arcwise(&[
+        "rank",
+        "--arc",
+        s(&out.join("train.csv")),
+        "--forces",
+        s(&out.join("forces.yaml")),
+        "--hypotheses",
+        s(&h),
+        "--report",
+        s(&rep),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(stdout.contains("1. no_maneuver"), "{stdout}");
+    let r: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&rep).unwrap()).unwrap();
+    assert_eq!(r["hypotheses"].as_array().unwrap().len(), 4);
+    let bad = dir.path().join("bad.yaml");
+    std::fs::write(&bad, "hypotheses:\n  - teleport\n").unwrap();
+    let (code, _, stderr) = arcwise(&[
+        "rank",
+        "--arc",
+        s(&out.join("train.csv")),
+        "--forces",
+        s(&out.join("forces.yaml")),
+        "--hypotheses",
+        s(&bad),
+    ]);
+    assert_eq!(code, 2);
+    assert!(stderr.contains("teleport"), "{stderr}");
+}

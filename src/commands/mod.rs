@@ -6,5 +6,6 @@ pub mod demo;
 pub mod fit;
 pub mod learn;
 pub mod propagate;
+pub mod rank;
 pub mod screen;
 pub mod simulate;

@@ -169,6 +169,66 @@ impl Problem {
         Some(col)
     }
 
+    /// The projected column of an acceleration given at each grid point (ECI, km/s²).
+    pub fn column_of(&self, g: impl Fn(usize) -> [f64; 3]) -> Option<DVector<f64>> {
+        let n = self.grid_t.len();
+        let mut cum = vec![[0.0f64; 6]; n];
+        let (mut prev, mut acc) = ([0.0f64; 6], [0.0f64; 6]);
+        for k in 0..n {
+            let v = g(k);
+            let m = &self.phi_inv_b[k];
+            let mut f = [0.0f64; 6];
+            for (i, fi) in f.iter_mut().enumerate() {
+                *fi = m[i] * v[0] + m[6 + i] * v[1] + m[12 + i] * v[2];
+            }
+            if k > 0 {
+                let h = 0.5 * (self.grid_t[k] - self.grid_t[k - 1]);
+                for i in 0..6 {
+                    acc[i] += h * (prev[i] + f[i]);
+                }
+            }
+            cum[k] = acc;
+            prev = f;
+        }
+        Some(self.project(self.map_to_obs(|gi| cum[gi])))
+    }
+
+    /// The projected column of a velocity change `dv` (ECI, km/s) at grid point `m`.
+    pub fn impulse_column(&self, m: usize, dv: [f64; 3]) -> DVector<f64> {
+        let b = &self.phi_inv_b[m];
+        let mut f = [0.0f64; 6];
+        for (i, fi) in f.iter_mut().enumerate() {
+            *fi = b[i] * dv[0] + b[6 + i] * dv[1] + b[12 + i] * dv[2];
+        }
+        self.project(self.map_to_obs(|gi| if gi >= m { f } else { [0.0; 6] }))
+    }
+
+    /// Stacks Φ(t_i)·F(t_i) over the observations (weighted).
+    fn map_to_obs(&self, f_at: impl Fn(usize) -> [f64; 6]) -> DVector<f64> {
+        let mut col = DVector::zeros(self.rows());
+        for o in &self.obs {
+            let f = f_at(o.grid_index);
+            for c in 0..o.comps {
+                let mut s = 0.0;
+                for (j, fj) in f.iter().enumerate() {
+                    s += o.phi[(c, j)] * fj;
+                }
+                col[o.row + c] = s / o.sigma[c];
+            }
+        }
+        col
+    }
+
+    /// Least squares of the residual on `cols`: coefficients, their 1σ, cost left.
+    pub fn fit_columns(&self, cols: &[DVector<f64>]) -> Option<(Vec<f64>, Vec<f64>, f64)> {
+        self.linear(cols)
+    }
+
+    /// The weighted base-fit cost (no extra columns).
+    pub fn base_cost(&self) -> f64 {
+        self.z.norm_squared()
+    }
+
     /// The projected column (cached for formulas without constants).
     pub fn column(&self, node: &Node, k: &[f64]) -> Option<DVector<f64>> {
         let cacheable = node.n_params() == 0;

@@ -5,6 +5,7 @@
 #![allow(clippy::needless_range_loop)]
 
 pub mod linearized;
+pub mod rank;
 pub mod search;
 
 use crate::arc::Arc;
@@ -373,6 +374,25 @@ impl Learner<'_> {
         )
         .ok_or_else(|| LearnError::Unfit("the transition matrix is singular along the arc".into()))
     }
+}
+
+/// The base fit of `arc` and the linearized problem around it (for maneuver hypotheses).
+pub fn linearize(
+    arc: &Arc,
+    make_model: &(dyn Fn(Epoch) -> Result<ForceModel, String> + Sync),
+    context: Context,
+    options: &LearnOptions,
+    fit_observer: &mut dyn FitObserver,
+) -> Result<(FitResult, Problem), LearnError> {
+    let l = Learner {
+        arc,
+        make_model,
+        options,
+        context,
+    };
+    let base = fit(arc, l.model()?, &options.fit, fit_observer)?;
+    let problem = l.problem(arc, &base)?;
+    Ok((base, problem))
 }
 
 /// Learns the missing force of `arc` under the known forces `make_model(epoch)` builds.
