@@ -21,7 +21,7 @@ fn model() -> ForceModel {
 fn orbit(k: usize) -> StateVector {
     let f = k as f64;
     let a = 6778.0 + (f * 37.0) % 600.0;
-    let (i, w) = (0.1 + (f * 0.7) % 2.9, (f * 1.3) % 6.28);
+    let (i, w) = (0.1 + (f * 0.7) % 2.9, (f * 1.3) % std::f64::consts::TAU);
     let v = (MU / a).sqrt();
     StateVector::new(
         a * w.cos(),
