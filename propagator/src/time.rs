@@ -76,6 +76,10 @@ impl Epoch {
     pub fn parse_iso(text: &str, scale: Scale) -> Result<Self, EpochParseError> {
         let s = text.trim();
         let s = s.strip_suffix('Z').unwrap_or(s);
+        // Byte positions below assume ASCII; anything else is not an ISO epoch anyway.
+        if !s.is_ascii() {
+            return Err(parse_error(text, "non-ASCII characters"));
+        }
         let b = s.as_bytes();
         if b.len() < 19 {
             return Err(parse_error(text, "too short"));
@@ -276,6 +280,7 @@ mod tests {
             "2031/05/04T12:00:00Z",
             "2031-05-04T12:00:00+02:00",
             "2031-05-04T12:00:00.Z",
+            "2031-05-04T00:00:0é.000Z",
             "yesterday",
         ] {
             assert!(Epoch::parse_utc(bad).is_err(), "accepted {bad:?}");
