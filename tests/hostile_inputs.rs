@@ -33,7 +33,7 @@ fn mutate(rng: &mut ChaCha8Rng, text: &str) -> String {
                 let mut lines: Vec<&str> = s.lines().collect();
                 if !lines.is_empty() {
                     let k = (rng.next_u64() as usize) % lines.len();
-                    if rng.next_u64() % 2 == 0 {
+                    if rng.next_u64().is_multiple_of(2) {
                         lines.insert(k, lines[k]);
                     } else {
                         lines.remove(k);
