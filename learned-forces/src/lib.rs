@@ -4,6 +4,8 @@
 //! ([`fit`]), and simulated scenarios ([`scenario`]). It depends on `propagator` and
 //! reaches the dynamics only through its `Force` and `Dynamics` traits.
 
+#![cfg_attr(not(test), deny(clippy::unwrap_used, clippy::expect_used))]
+
 pub mod arc;
 pub mod codegen;
 pub mod fit;

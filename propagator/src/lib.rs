@@ -13,6 +13,8 @@
 //! This crate knows nothing about learning: a learned force reaches it only through
 //! the [`force::Force`] trait, like every other force.
 
+#![cfg_attr(not(test), deny(clippy::unwrap_used, clippy::expect_used))]
+
 pub mod atmosphere;
 pub mod body;
 pub mod config;

@@ -322,7 +322,9 @@ fn covariance(jac: &DMatrix<f64>) -> (usize, DMatrix<f64>) {
         .iter()
         .filter(|&&s| s > 1e-10 * smax)
         .count();
-    let v_t = svd.v_t.expect("v_t requested");
+    let Some(v_t) = svd.v_t else {
+        return (0, DMatrix::zeros(n, n));
+    };
     let mut cov = DMatrix::zeros(n, n);
     for (k, &s) in svd.singular_values.iter().enumerate() {
         if s > 1e-10 * smax {
@@ -484,7 +486,7 @@ pub fn fit(
             }
         }
     }
-    let lin = lin.expect("the final stage ran");
+    let lin = lin.ok_or_else(|| FitError::Unfit("internal: the final stage did not run".into()))?;
     let (rank, cov) = covariance(&lin.jac);
     if rank < n_est {
         return Err(FitError::Unfit(format!(

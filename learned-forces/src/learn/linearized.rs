@@ -432,8 +432,7 @@ impl Problem {
             let (worst, &wv) = signif
                 .iter()
                 .enumerate()
-                .min_by(|a, b| a.1.total_cmp(b.1))
-                .expect("non-empty");
+                .min_by(|a, b| a.1.total_cmp(b.1))?;
             if wv >= threshold {
                 let complexity = nodes.iter().map(|n| n.complexity() + 1).sum();
                 let absorbed = nodes

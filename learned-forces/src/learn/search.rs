@@ -181,6 +181,8 @@ fn paths(n: &Node, prefix: &mut Vec<usize>, out: &mut Vec<(Vec<usize>, crate::ex
     }
 }
 
+// Paths always come from `paths()` on the same tree, so every step exists.
+#[allow(clippy::expect_used)]
 fn at_mut<'a>(n: &'a mut Node, path: &[usize]) -> &'a mut Node {
     let mut cur = n;
     for &i in path {
@@ -189,6 +191,7 @@ fn at_mut<'a>(n: &'a mut Node, path: &[usize]) -> &'a mut Node {
     cur
 }
 
+#[allow(clippy::expect_used)]
 fn at<'a>(n: &'a Node, path: &[usize]) -> &'a Node {
     let mut cur = n;
     for &i in path {
