@@ -62,7 +62,8 @@ fn every_command_refuses_bad_input_clearly() {
     );
     let out = d.join("out.any");
     let s = |p: &Path| p.display().to_string();
-    let cases: Vec<(&str, Vec<String>, Vec<(&str, &str)>, &str)> = vec![
+    type Case<'a> = (&'a str, Vec<String>, Vec<(&'a str, &'a str)>, &'a str);
+    let cases: Vec<Case> = vec![
         (
             "build: missing file",
             vec![
