@@ -424,6 +424,12 @@ impl Problem {
                 (vec![], vec![], cost, c, sig)
             } else {
                 let (kk, ksig, cost) = self.varpro(&nodes, &k[..used])?;
+                // The library's constants are times (decay constants, bump centres and
+                // widths): far outside the arc they only fit rounding.
+                let span = self.grid_t.last().copied().unwrap_or(1.0).max(1.0);
+                if kk.iter().any(|k| k.abs() > 20.0 * span) {
+                    return None;
+                }
                 let cols = self.columns(&nodes, &kk)?;
                 let (c, sig, _) = self.linear(&cols)?;
                 (kk, ksig, cost, c, sig)
