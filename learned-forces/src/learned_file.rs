@@ -288,9 +288,6 @@ impl LearnedFile {
             name: format!("learned:{}", self.name),
             program,
             needs,
-            nodes,
-            coefficients: coefs,
-            params,
             context: Context {
                 radius_km: self.earth.radius_km,
                 rotation_rad_s: self.earth.rotation_rad_s,
@@ -317,12 +314,6 @@ pub struct LearnedForce {
     /// The compiled sum Σ c_k g_k (the in-process evaluator).
     pub program: Program,
     needs: Needs,
-    /// The formulas.
-    pub nodes: Vec<Node>,
-    /// Their coefficients, km/s².
-    pub coefficients: Vec<f64>,
-    /// Values of k0, k1, …
-    pub params: Vec<f64>,
     /// Terminal constants.
     pub context: Context,
     /// Formula time = our `t_s` + this, s.
@@ -368,18 +359,6 @@ impl LearnedForce {
                     .into(),
             }),
         }
-    }
-
-    /// The unscaled term vectors g_k at formula time `tf` (for the learner).
-    pub fn terms_at(&self, tf: f64, x: &StateVector) -> Vec<Vector3<f64>> {
-        let p = Terminals::of_state(tf, x, &self.context);
-        self.nodes
-            .iter()
-            .map(|n| {
-                let v = n.eval(&p, &self.params).vector();
-                Vector3::new(v[0], v[1], v[2])
-            })
-            .collect()
     }
 }
 

@@ -203,16 +203,23 @@ pub struct DecayingPush {
     pub time_constant_s: f64,
 }
 
+impl DecayingPush {
+    /// The push at `t_s` if it is on (`on` decides: by time, or by integration segment).
+    fn push(&self, t_s: f64, x: &StateVector, on: bool) -> Result<Vector3<f64>, ForceError> {
+        if !on {
+            return Ok(Vector3::zeros());
+        }
+        let k = (-(t_s - self.start_s) / self.time_constant_s).exp();
+        rtn_to_eci(x, self.accel_rtn_km_s2 * k, t_s, self.name())
+    }
+}
+
 impl Force for DecayingPush {
     fn name(&self) -> &str {
         "truth_decaying_push"
     }
     fn acceleration(&self, t_s: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
-        if t_s < self.start_s {
-            return Ok(Vector3::zeros());
-        }
-        let k = (-(t_s - self.start_s) / self.time_constant_s).exp();
-        rtn_to_eci(x, self.accel_rtn_km_s2 * k, t_s, self.name())
+        self.push(t_s, x, t_s >= self.start_s)
     }
     fn acceleration_in(
         &self,
@@ -220,11 +227,7 @@ impl Force for DecayingPush {
         x: &StateVector,
         seg: Segment,
     ) -> Result<Vector3<f64>, ForceError> {
-        if 0.5 * (seg.start_s + seg.end_s) < self.start_s {
-            return Ok(Vector3::zeros());
-        }
-        let k = (-(t_s - self.start_s) / self.time_constant_s).exp();
-        rtn_to_eci(x, self.accel_rtn_km_s2 * k, t_s, self.name())
+        self.push(t_s, x, seg.mid_s() >= self.start_s)
     }
     fn discontinuities_s(&self) -> Vec<f64> {
         vec![self.start_s]

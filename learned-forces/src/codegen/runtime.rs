@@ -288,7 +288,8 @@ pub fn lit(r: [f64; 3], s: [f64; 3], re: f64) -> f64 {
     }
 }
 
-/// Terminal values at a point (as `learned_forces::expr::Terminals`).
+/// Terminal values at a point (`learned_forces::expr::Terminals` in the library).
+#[derive(Clone, Copy, Debug)]
 pub struct P<N> {
     pub t: f64,
     pub r: [N; 3],

@@ -21,9 +21,7 @@ pub mod random;
 pub use parse::{parse, ParseError};
 
 use num::{add3, cross3, dot3, norm3, scale3, sub3, Dual, Num, V3};
-use propagator::atmosphere::HANDBOOK_TABLE;
-use propagator::force::srp::{sunlit_fraction, Shadow};
-use propagator::solar_system::{sun_position_km, CenturyClock};
+use propagator::solar_system::CenturyClock;
 use propagator::StateVector;
 use std::fmt;
 
@@ -375,42 +373,10 @@ pub struct Context {
     pub clock: CenturyClock,
 }
 
-/// All terminal values at one point, computed once and shared by every node.
-#[derive(Clone, Copy, Debug)]
-pub struct Terminals<N> {
-    /// s.
-    pub t: f64,
-    /// km.
-    pub r: V3<N>,
-    /// km/s.
-    pub v: V3<N>,
-    /// km/s.
-    pub vrel: V3<N>,
-    /// R̂.
-    pub rh: V3<N>,
-    /// T̂.
-    pub th: V3<N>,
-    /// N̂.
-    pub nh: V3<N>,
-    /// km.
-    pub h: N,
-    /// kg/m³.
-    pub rho: N,
-    /// rad.
-    pub u: N,
-    /// Sun unit vector.
-    pub sun: [f64; 3],
-    /// Sunlit fraction.
-    pub lit: f64,
-}
-
-/// Handbook-table density and its band, generic in the number type.
-fn density<N: Num>(h: N) -> N {
-    let hv = h.val();
-    let i = HANDBOOK_TABLE.partition_point(|b| b.base_km <= hv).max(1) - 1;
-    let band = &HANDBOOK_TABLE[i];
-    N::cst(band.rho_kg_m3) * (-(h - N::cst(band.base_km)) / N::cst(band.scale_height_km)).exp()
-}
+/// All terminal values at one point, computed once and shared by every node. This is the
+/// plugin runtime's own type: the library and every generated plugin compute terminals
+/// with one implementation.
+pub use crate::codegen::runtime::P as Terminals;
 
 impl<N: Num> Terminals<N> {
     /// Terminals at time `t` (s) and position/velocity given as numbers of type `N`.
@@ -442,63 +408,22 @@ impl<N: Num> Terminals<N> {
 
     /// Computes only the terminals in `needs` (the others are left at zero, `lit` at one).
     pub fn with_needs(t: f64, r: V3<N>, v: V3<N>, ctx: &Context, needs: &compiled::Needs) -> Self {
-        let (need_sun, need_lit) = (needs.sun, needs.lit);
-        let z = N::cst(0.0);
-        let w = N::cst(ctx.rotation_rad_s);
-        let vrel = [v[0] + w * r[1], v[1] - w * r[0], v[2]];
-        let rn = norm3(r);
-        let (rh, th, nh, u) = if needs.rtn || needs.arglat {
-            let rh = scale3(N::cst(1.0) / rn, r);
-            let hv = cross3(r, v);
-            let nh = scale3(N::cst(1.0) / norm3(hv), hv);
-            let th = cross3(nh, rh);
-            // Argument of latitude from the node line ẑ × h (x axis for an equatorial orbit).
-            let u = if needs.arglat {
-                let node = [-hv[1], hv[0], N::cst(0.0)];
-                let nn = norm3(node);
-                let nhat = if nn.val() < 1e-10 * norm3(hv).val() {
-                    [N::cst(1.0), N::cst(0.0), N::cst(0.0)]
-                } else {
-                    scale3(N::cst(1.0) / nn, node)
-                };
-                dot3(nh, cross3(nhat, r)).atan2(dot3(nhat, r))
-            } else {
-                z
-            };
-            (rh, th, nh, u)
-        } else {
-            ([z; 3], [z; 3], [z; 3], z)
+        let need = crate::codegen::runtime::Need {
+            rtn: needs.rtn,
+            u: needs.arglat,
+            rho: needs.density,
+            sun: needs.sun,
+            lit: needs.lit,
         };
-        let h = rn - N::cst(ctx.radius_km);
-        let (sun, lit) = if need_sun || need_lit {
-            let s = sun_position_km(ctx.clock.centuries(t));
-            let sn = s.norm();
-            let rv = nalgebra::Vector3::new(r[0].val(), r[1].val(), r[2].val());
-            (
-                [s[0] / sn, s[1] / sn, s[2] / sn],
-                if need_lit {
-                    sunlit_fraction(&rv, &s, ctx.radius_km, Shadow::Conical)
-                } else {
-                    1.0
-                },
-            )
-        } else {
-            ([0.0; 3], 1.0)
-        };
-        Terminals {
+        crate::codegen::runtime::terminals_for(
             t,
             r,
             v,
-            vrel,
-            rh,
-            th,
-            nh,
-            h,
-            rho: if needs.density { density(h) } else { z },
-            u,
-            sun,
-            lit,
-        }
+            ctx.radius_km,
+            ctx.rotation_rad_s,
+            ctx.clock.t0_centuries,
+            need,
+        )
     }
 }
 

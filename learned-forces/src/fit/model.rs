@@ -259,23 +259,25 @@ impl Dynamics for FitModel {
         out: &mut [Vector3<f64>],
     ) -> Result<(), ForceError> {
         let mut frame: Option<(Matrix3<f64>, f64, f64)> = None;
+        // The extra terms' current values, resolved once for every parameter below.
+        let extra = self.extra_values();
         for (k, p) in self.parameters.iter().enumerate() {
             out[k] = match p {
                 Parameter::DragScale => self.model.forces()[self.drag_index.unwrap_or(0)]
                     .acceleration_in(t_s, x, segment)?,
                 Parameter::SrpScale => self.model.forces()[self.srp_index.unwrap_or(0)]
                     .acceleration_in(t_s, x, segment)?,
-                Parameter::TermCoefficient(i) => match self.extra_values() {
-                    Some((e, _, kv)) => e.term(*i, t_s, x, &kv),
+                Parameter::TermCoefficient(i) => match &extra {
+                    Some((e, _, kv)) => e.term(*i, t_s, x, kv),
                     None => Vector3::zeros(),
                 },
-                Parameter::TermConstant(j) => match self.extra_values() {
+                Parameter::TermConstant(j) => match &extra {
                     Some((e, c, kv)) => {
                         let h = 1e-6 * kv[*j].abs().max(1e-12);
                         let (mut kp, mut km) = (kv.clone(), kv.clone());
                         kp[*j] += h;
                         km[*j] -= h;
-                        (e.acceleration(t_s, x, &c, &kp) - e.acceleration(t_s, x, &c, &km))
+                        (e.acceleration(t_s, x, c, &kp) - e.acceleration(t_s, x, c, &km))
                             / (2.0 * h)
                     }
                     None => Vector3::zeros(),

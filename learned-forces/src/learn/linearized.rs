@@ -65,10 +65,6 @@ pub struct Solution {
     pub cost: f64,
     /// Complexity: nodes of the kept formulas plus one per coefficient.
     pub complexity: usize,
-    /// Fraction of each kept column's signature that the base fit's directions absorb
-    /// (near 1: nearly indistinguishable from a change of the initial state); left empty
-    /// by the search, filled for the chosen model.
-    pub absorbed: Vec<f64>,
 }
 
 const CACHE_LIMIT: usize = 3000;
@@ -129,53 +125,14 @@ impl Problem {
         a
     }
 
-    /// The unprojected, weighted column of a formula with constants `k`; `None` if the
-    /// formula is not finite along the trajectory.
-    fn raw_column(&self, node: &Node, k: &[f64]) -> Option<DVector<f64>> {
-        let n = self.grid_t.len();
-        let mut cum = vec![[0.0f64; 6]; n];
-        let mut prev = [0.0f64; 6];
-        let mut acc = [0.0f64; 6];
-        for g in 0..n {
-            let v = node.eval(&self.terminals[g], k).vector();
-            if !(v[0].is_finite() && v[1].is_finite() && v[2].is_finite()) {
-                return None;
-            }
-            let m = &self.phi_inv_b[g];
-            let mut f = [0.0f64; 6];
-            for (i, fi) in f.iter_mut().enumerate() {
-                *fi = m[i] * v[0] + m[6 + i] * v[1] + m[12 + i] * v[2];
-            }
-            if g > 0 {
-                let h = 0.5 * (self.grid_t[g] - self.grid_t[g - 1]);
-                for i in 0..6 {
-                    acc[i] += h * (prev[i] + f[i]);
-                }
-            }
-            cum[g] = acc;
-            prev = f;
-        }
-        let mut col = DVector::zeros(self.rows());
-        for o in &self.obs {
-            let f = &cum[o.grid_index];
-            for c in 0..o.comps {
-                let mut s = 0.0;
-                for (j, fj) in f.iter().enumerate() {
-                    s += o.phi[(c, j)] * fj;
-                }
-                col[o.row + c] = s / o.sigma[c];
-            }
-        }
-        Some(col)
-    }
-
-    /// The projected column of an acceleration given at each grid point (ECI, km/s²).
-    pub fn column_of(&self, g: impl Fn(usize) -> [f64; 3]) -> Option<DVector<f64>> {
+    /// Cumulative trapezoid of Φ(τ)⁻¹ B g(τ) along the grid; `None` if `g` is not
+    /// finite somewhere.
+    fn cumulative(&self, g: impl Fn(usize) -> Option<[f64; 3]>) -> Option<Vec<[f64; 6]>> {
         let n = self.grid_t.len();
         let mut cum = vec![[0.0f64; 6]; n];
         let (mut prev, mut acc) = ([0.0f64; 6], [0.0f64; 6]);
         for k in 0..n {
-            let v = g(k);
+            let v = g(k)?;
             let m = &self.phi_inv_b[k];
             let mut f = [0.0f64; 6];
             for (i, fi) in f.iter_mut().enumerate() {
@@ -190,6 +147,22 @@ impl Problem {
             cum[k] = acc;
             prev = f;
         }
+        Some(cum)
+    }
+
+    /// The unprojected, weighted column of a formula with constants `k`; `None` if the
+    /// formula is not finite along the trajectory.
+    fn raw_column(&self, node: &Node, k: &[f64]) -> Option<DVector<f64>> {
+        let cum = self.cumulative(|g| {
+            let v = node.eval(&self.terminals[g], k).vector();
+            (v[0].is_finite() && v[1].is_finite() && v[2].is_finite()).then_some(v)
+        })?;
+        Some(self.map_to_obs(|gi| cum[gi]))
+    }
+
+    /// The projected column of an acceleration given at each grid point (ECI, km/s²).
+    pub fn column_of(&self, g: impl Fn(usize) -> [f64; 3]) -> Option<DVector<f64>> {
+        let cum = self.cumulative(|k| Some(g(k)))?;
         Some(self.project(self.map_to_obs(|gi| cum[gi])))
     }
 
@@ -231,17 +204,17 @@ impl Problem {
 
     /// The projected column (cached for formulas without constants).
     pub fn column(&self, node: &Node, k: &[f64]) -> Option<DVector<f64>> {
-        let cacheable = node.n_params() == 0;
+        if node.n_params() > 0 {
+            return Some(self.project(self.raw_column(node, k)?));
+        }
         let key = node.to_string();
-        if cacheable {
-            if let Ok(c) = self.cache.lock() {
-                if let Some(v) = c.get(&key) {
-                    return Some(v.clone());
-                }
+        if let Ok(c) = self.cache.lock() {
+            if let Some(v) = c.get(&key) {
+                return Some(v.clone());
             }
         }
         let col = self.project(self.raw_column(node, k)?);
-        if cacheable {
+        {
             if let Ok(mut c) = self.cache.lock() {
                 if c.len() < CACHE_LIMIT {
                     c.insert(key, col.clone());
@@ -441,10 +414,6 @@ impl Problem {
                 .min_by(|a, b| a.1.total_cmp(b.1))?;
             if wv >= threshold {
                 let complexity = nodes.iter().map(|n| n.complexity() + 1).sum();
-                let absorbed = nodes
-                    .iter()
-                    .map(|n| self.absorbed_fraction(n, &kk))
-                    .collect();
                 return Some(Solution {
                     nodes,
                     coefficients: c,
@@ -453,7 +422,6 @@ impl Problem {
                     constant_sigmas: ksig,
                     cost,
                     complexity,
-                    absorbed,
                 });
             }
             nodes.remove(worst);

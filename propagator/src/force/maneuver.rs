@@ -112,7 +112,7 @@ impl Force for FiniteBurn {
         x: &StateVector,
         segment: Segment,
     ) -> Result<Vector3<f64>, ForceError> {
-        let mid = 0.5 * (segment.start_s + segment.end_s);
+        let mid = segment.mid_s();
         if mid >= self.start_s && mid < self.end_s {
             self.thrust(t_s, x)
         } else {

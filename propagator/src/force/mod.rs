@@ -27,6 +27,14 @@ pub struct Segment {
     pub end_s: f64,
 }
 
+impl Segment {
+    /// The middle of the segment: a force that switches only at segment boundaries is on
+    /// for the whole segment exactly when it is on here.
+    pub fn mid_s(&self) -> f64 {
+        0.5 * (self.start_s + self.end_s)
+    }
+}
+
 /// A force that failed to evaluate (a plugin status, a non-finite result, a density
 /// model asked about an altitude it cannot answer for). Never silently a zero.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
