@@ -5,6 +5,7 @@
 use super::num::{add3, cross3, dot3, norm3, scale3, sub3, Num, V3};
 use super::{Node, Terminals, Ty};
 use std::collections::HashMap;
+use std::mem::MaybeUninit;
 
 /// One instruction; operands are indices of earlier instructions.
 #[derive(Clone, Debug, PartialEq)]
@@ -238,111 +239,86 @@ impl Program {
 
     /// Evaluates the sum at the terminals `p` (vector result, km/s²).
     pub fn eval<N: Num>(&self, p: &Terminals<N>) -> V3<N> {
-        #[derive(Clone, Copy)]
-        enum R<N> {
-            S(N),
-            V(V3<N>),
+        // Registers live on the stack for the usual small program. The array is created
+        // in place and never moved: wrapping it in an enum made every call copy it
+        // (1.5 kB), most of the evaluator's cost.
+        const INLINE: usize = 48;
+        if self.instrs.len() <= INLINE {
+            let mut regs = [const { MaybeUninit::<Reg<N>>::uninit() }; INLINE];
+            self.run(p, &mut regs)
+        } else {
+            let mut regs = vec![MaybeUninit::<Reg<N>>::uninit(); self.instrs.len()];
+            self.run(p, &mut regs)
         }
-        let mut regs: smallvec_like::Regs<R<N>> = smallvec_like::Regs::new(self.instrs.len());
-        let s = |regs: &smallvec_like::Regs<R<N>>, i: usize| match &regs[i] {
-            R::S(x) => *x,
-            R::V(_) => N::cst(f64::NAN),
-        };
-        let v = |regs: &smallvec_like::Regs<R<N>>, i: usize| match &regs[i] {
-            R::V(x) => *x,
-            R::S(_) => [N::cst(f64::NAN); 3],
-        };
-        for ins in &self.instrs {
-            use Instr::*;
-            let r = match ins {
-                Time => R::S(N::cst(p.t)),
-                Alt => R::S(p.h),
-                Rho => R::S(p.rho),
-                ArgLat => R::S(p.u),
-                Lit => R::S(N::cst(p.lit)),
-                Const(c) => R::S(N::cst(*c)),
-                Pos => R::V(p.r),
-                Vel => R::V(p.v),
-                VelRel => R::V(p.vrel),
-                UnitR => R::V(p.rh),
-                UnitT => R::V(p.th),
-                UnitN => R::V(p.nh),
-                Sun => R::V([N::cst(p.sun[0]), N::cst(p.sun[1]), N::cst(p.sun[2])]),
-                AddS(a, b) => R::S(s(&regs, *a) + s(&regs, *b)),
-                SubS(a, b) => R::S(s(&regs, *a) - s(&regs, *b)),
-                MulS(a, b) => R::S(s(&regs, *a) * s(&regs, *b)),
-                DivS(a, b) => R::S(s(&regs, *a) / s(&regs, *b)),
-                NegS(a) => R::S(-s(&regs, *a)),
-                Sin(a) => R::S(s(&regs, *a).sin()),
-                Cos(a) => R::S(s(&regs, *a).cos()),
-                Exp(a) => R::S(s(&regs, *a).exp()),
-                Sqrt(a) => R::S(s(&regs, *a).sqrt()),
-                Pow(a, k) => R::S(s(&regs, *a).powi(*k)),
-                Norm(a) => R::S(norm3(v(&regs, *a))),
-                Dot(a, b) => R::S(dot3(v(&regs, *a), v(&regs, *b))),
-                AddV(a, b) => R::V(add3(v(&regs, *a), v(&regs, *b))),
-                SubV(a, b) => R::V(sub3(v(&regs, *a), v(&regs, *b))),
-                Scale(a, b) => R::V(scale3(s(&regs, *a), v(&regs, *b))),
-                DivV(a, b) => R::V(scale3(N::cst(1.0) / s(&regs, *b), v(&regs, *a))),
-                NegV(a) => {
-                    let x = v(&regs, *a);
-                    R::V([-x[0], -x[1], -x[2]])
-                }
-                Cross(a, b) => R::V(cross3(v(&regs, *a), v(&regs, *b))),
+    }
+
+    /// Runs the instructions with `regs` (at least one slot per instruction) as storage.
+    fn run<N: Num>(&self, p: &Terminals<N>, regs: &mut [MaybeUninit<Reg<N>>]) -> V3<N> {
+        let mut last = [N::cst(f64::NAN); 3];
+        for (k, ins) in self.instrs.iter().enumerate() {
+            let (done, rest) = regs.split_at_mut(k);
+            // Operands index earlier instructions, so `done[i]` (bounds-checked against
+            // k) was written in an earlier iteration.
+            // SAFETY: every slot below k was initialised by the `write` of its iteration.
+            let get = |i: usize| unsafe { *done[i].assume_init_ref() };
+            let s = |i: usize| match get(i) {
+                Reg::S(x) => x,
+                Reg::V(_) => N::cst(f64::NAN),
             };
-            regs.push(r);
+            let v = |i: usize| match get(i) {
+                Reg::V(x) => x,
+                Reg::S(_) => [N::cst(f64::NAN); 3],
+            };
+            use Instr::*;
+            let r = match *ins {
+                Time => Reg::S(N::cst(p.t)),
+                Alt => Reg::S(p.h),
+                Rho => Reg::S(p.rho),
+                ArgLat => Reg::S(p.u),
+                Lit => Reg::S(N::cst(p.lit)),
+                Const(c) => Reg::S(N::cst(c)),
+                Pos => Reg::V(p.r),
+                Vel => Reg::V(p.v),
+                VelRel => Reg::V(p.vrel),
+                UnitR => Reg::V(p.rh),
+                UnitT => Reg::V(p.th),
+                UnitN => Reg::V(p.nh),
+                Sun => Reg::V([N::cst(p.sun[0]), N::cst(p.sun[1]), N::cst(p.sun[2])]),
+                AddS(a, b) => Reg::S(s(a) + s(b)),
+                SubS(a, b) => Reg::S(s(a) - s(b)),
+                MulS(a, b) => Reg::S(s(a) * s(b)),
+                DivS(a, b) => Reg::S(s(a) / s(b)),
+                NegS(a) => Reg::S(-s(a)),
+                Sin(a) => Reg::S(s(a).sin()),
+                Cos(a) => Reg::S(s(a).cos()),
+                Exp(a) => Reg::S(s(a).exp()),
+                Sqrt(a) => Reg::S(s(a).sqrt()),
+                Pow(a, e) => Reg::S(s(a).powi(e)),
+                Norm(a) => Reg::S(norm3(v(a))),
+                Dot(a, b) => Reg::S(dot3(v(a), v(b))),
+                AddV(a, b) => Reg::V(add3(v(a), v(b))),
+                SubV(a, b) => Reg::V(sub3(v(a), v(b))),
+                Scale(a, b) => Reg::V(scale3(s(a), v(b))),
+                DivV(a, b) => Reg::V(scale3(N::cst(1.0) / s(b), v(a))),
+                NegV(a) => {
+                    let x = v(a);
+                    Reg::V([-x[0], -x[1], -x[2]])
+                }
+                Cross(a, b) => Reg::V(cross3(v(a), v(b))),
+            };
+            last = match r {
+                Reg::V(x) => x,
+                Reg::S(_) => [N::cst(f64::NAN); 3],
+            };
+            rest[0].write(r);
         }
-        v(&regs, regs.len() - 1)
+        last
     }
 }
 
-/// Register storage on the stack for small programs (no allocation per call).
-mod smallvec_like {
-    use std::mem::MaybeUninit;
-
-    const INLINE: usize = 48;
-
-    pub enum Regs<T> {
-        Inline([MaybeUninit<T>; INLINE], usize),
-        Heap(Vec<T>),
-    }
-
-    impl<T: Copy> Regs<T> {
-        pub fn new(n: usize) -> Self {
-            if n <= INLINE {
-                Regs::Inline([const { MaybeUninit::uninit() }; INLINE], 0)
-            } else {
-                Regs::Heap(Vec::with_capacity(n))
-            }
-        }
-        pub fn push(&mut self, x: T) {
-            match self {
-                Regs::Inline(a, len) => {
-                    a[*len] = MaybeUninit::new(x);
-                    *len += 1;
-                }
-                Regs::Heap(v) => v.push(x),
-            }
-        }
-        pub fn len(&self) -> usize {
-            match self {
-                Regs::Inline(_, len) => *len,
-                Regs::Heap(v) => v.len(),
-            }
-        }
-    }
-
-    impl<T: Copy> std::ops::Index<usize> for Regs<T> {
-        type Output = T;
-        fn index(&self, i: usize) -> &T {
-            match self {
-                Regs::Inline(a, len) => {
-                    assert!(i < *len);
-                    // SAFETY: slots below `len` were written by `push`.
-                    unsafe { a[i].assume_init_ref() }
-                }
-                Regs::Heap(v) => &v[i],
-            }
-        }
-    }
+/// One register: a scalar or a vector value.
+#[derive(Clone, Copy)]
+enum Reg<N> {
+    S(N),
+    V(V3<N>),
 }

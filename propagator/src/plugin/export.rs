@@ -25,12 +25,12 @@ pub unsafe fn acceleration<F: Force + 'static>(
     let result = catch_unwind(AssertUnwindSafe(|| {
         // SAFETY: the caller guarantees 6 readable doubles.
         let s = unsafe { std::slice::from_raw_parts(state, 6) };
-        if !t_s.is_finite() || !s.iter().all(|v| v.is_finite()) {
+        if !(super::all_finite(s) && t_s.is_finite()) {
             return Err(status::BAD_ARGUMENT);
         }
         let x = StateVector::from_column_slice(s);
         match force().acceleration(t_s, &x) {
-            Ok(a) if a.iter().all(|v| v.is_finite()) => Ok(a),
+            Ok(a) if super::all_finite(a.as_slice()) => Ok(a),
             Ok(_) => Err(status::NON_FINITE),
             Err(e) if e.reason.contains("outside the validity") => Err(status::OUTSIDE_VALIDITY),
             Err(_) => Err(status::FAILED),

@@ -258,7 +258,7 @@ impl PluginForce {
             .chunks(3)
             .map(|c| Vector3::new(c[0], c[1], c[2]))
             .collect();
-        if v.iter().any(|a| !a.iter().all(|c| c.is_finite())) {
+        if !super::all_finite(&out) {
             return Err(self.status_error(t_s[0], super::status::NON_FINITE));
         }
         Ok(v)
@@ -291,11 +291,10 @@ impl Force for PluginForce {
         if code != 0 {
             return Err(self.status_error(t_s, code));
         }
-        let a = Vector3::new(out[0], out[1], out[2]);
-        if !a.iter().all(|c| c.is_finite()) {
+        if !super::all_finite(&out) {
             return Err(self.status_error(t_s, super::status::NON_FINITE));
         }
-        Ok(a)
+        Ok(Vector3::new(out[0], out[1], out[2]))
     }
 
     /// The plugin's analytic partials when it exports them; central differences otherwise.
@@ -309,7 +308,7 @@ impl Force for PluginForce {
         if code != 0 {
             return Err(self.status_error(t_s, code));
         }
-        if !out.iter().all(|c| c.is_finite()) {
+        if !super::all_finite(&out) {
             return Err(self.status_error(t_s, super::status::NON_FINITE));
         }
         Ok(nalgebra::Matrix3x6::from_row_slice(&out))

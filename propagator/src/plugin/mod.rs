@@ -28,6 +28,14 @@ pub mod status {
     pub const BAD_ARGUMENT: i32 = 4;
 }
 
+/// True when every value is finite. x·0 is ±0 for finite x and NaN for NaN or ±∞, so one
+/// comparison of the sum replaces a branch per value: on a call that costs ~10 ns the
+/// per-value branches were measurable (benches/compiled.rs).
+#[inline(always)]
+pub fn all_finite(values: &[f64]) -> bool {
+    values.iter().fold(0.0, |acc, x| acc + x * 0.0) == 0.0
+}
+
 /// A sentence for a status code.
 pub fn status_text(code: i32) -> &'static str {
     match code {
@@ -93,5 +101,33 @@ impl Default for Units {
             state: "km, km/s".into(),
             acceleration: "km/s^2".into(),
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::all_finite;
+
+    #[test]
+    fn all_finite_matches_is_finite_on_every_class_of_value() {
+        let values = [
+            0.0,
+            -0.0,
+            1.0,
+            -7.5e300,
+            f64::MAX,
+            f64::MIN_POSITIVE,
+            5e-324,
+            f64::NAN,
+            f64::INFINITY,
+            f64::NEG_INFINITY,
+        ];
+        for &a in &values {
+            for &b in &values {
+                let v = [1.0, a, 2.0, b];
+                assert_eq!(all_finite(&v), v.iter().all(|x| x.is_finite()), "{a} {b}");
+            }
+        }
+        assert!(all_finite(&[]));
     }
 }
