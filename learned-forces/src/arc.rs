@@ -56,13 +56,24 @@ impl Arc {
     pub fn load(path: &Path, defaults: ArcDefaults, body: &CentralBody) -> Result<Arc, FileError> {
         let text = std::fs::read_to_string(path)
             .map_err(|e| file_error_at(path, None, format!("cannot read: {e}")))?;
+        Self::parse(&text, path, defaults, body)
+    }
+
+    /// Parses the text of a CSV or OEM arc (the format from `path`'s extension, which also
+    /// names the file in errors) and validates it.
+    pub fn parse(
+        text: &str,
+        path: &Path,
+        defaults: ArcDefaults,
+        body: &CentralBody,
+    ) -> Result<Arc, FileError> {
         let ext = path
             .extension()
             .and_then(|e| e.to_str())
             .map(|e| e.to_ascii_lowercase());
         let arc = match ext.as_deref() {
             Some("csv") => {
-                let recs = csv::parse_records(&text, path)?;
+                let recs = csv::parse_records(text, path)?;
                 Arc {
                     observations: recs
                         .into_iter()
@@ -78,7 +89,7 @@ impl Arc {
                 }
             }
             Some("oem") => {
-                let (eph, lines) = oem::parse(&text, path)?;
+                let (eph, lines) = oem::parse(text, path)?;
                 Arc {
                     observations: eph
                         .points

@@ -271,7 +271,66 @@ impl LearnedFile {
             ));
         }
         Epoch::parse_utc(&self.epoch_utc).map_err(|e| format!("epoch_utc: {e}"))?;
+        self.check_numbers()?;
         Ok((nodes, coefs, params))
+    }
+
+    /// The numbers outside the formulas: a file edited (and resealed) by hand must not
+    /// give a silently wrong force, such as a validity window that nothing is inside.
+    fn check_numbers(&self) -> Result<(), String> {
+        let e = &self.earth;
+        if !(e.radius_km.is_finite() && (6000.0..7000.0).contains(&e.radius_km)) {
+            return Err(format!(
+                "earth.radius_km = {} km: expected the Earth's radius (about 6378 km)",
+                e.radius_km
+            ));
+        }
+        if !(e.rotation_rad_s.is_finite() && e.rotation_rad_s.abs() < 1e-3) {
+            return Err(format!(
+                "earth.rotation_rad_s = {}: expected about 7.29e-5 rad/s",
+                e.rotation_rad_s
+            ));
+        }
+        for (i, t) in self.terms.iter().enumerate() {
+            if !(t.sigma.is_finite() && t.sigma >= 0.0) {
+                return Err(format!("terms[{i}].sigma must be finite and ≥ 0"));
+            }
+        }
+        for c in &self.constants {
+            if !(c.sigma.is_finite() && c.sigma >= 0.0) {
+                return Err(format!("constant {}: sigma must be finite and ≥ 0", c.name));
+            }
+        }
+        let v = &self.validity;
+        let start =
+            Epoch::parse_utc(&v.start_utc).map_err(|e| format!("validity.start_utc: {e}"))?;
+        let end = Epoch::parse_utc(&v.end_utc).map_err(|e| format!("validity.end_utc: {e}"))?;
+        if end.seconds_since(&start) < 0.0 {
+            return Err("validity.end_utc is before validity.start_utc".into());
+        }
+        if !(v.min_altitude_km.is_finite()
+            && v.max_altitude_km.is_finite()
+            && v.min_altitude_km <= v.max_altitude_km)
+        {
+            return Err(format!(
+                "validity altitudes {} to {} km: need finite numbers, min ≤ max",
+                v.min_altitude_km, v.max_altitude_km
+            ));
+        }
+        for (name, x) in [
+            ("validity.time_margin_s", v.time_margin_s),
+            ("validity.altitude_margin_km", v.altitude_margin_km),
+        ] {
+            if !(x.is_finite() && x >= 0.0) {
+                return Err(format!("{name} = {x}: must be finite and ≥ 0"));
+            }
+        }
+        let s = &self.state_at_end;
+        Epoch::parse_utc(&s.epoch_utc).map_err(|e| format!("state_at_end.epoch_utc: {e}"))?;
+        if !s.r_km.iter().chain(&s.v_km_s).all(|x| x.is_finite()) {
+            return Err("state_at_end: r_km and v_km_s must be finite".into());
+        }
+        Ok(())
     }
 
     /// The force, on a time axis whose `t_s = 0` is `reference`.
