@@ -2,6 +2,7 @@
 //! in, and every refusal of the loader (with small C plugins built by the test: proof
 //! that the ABI is plain C).
 
+mod common;
 use drag_sail_plugin::DragSail;
 use propagator::force::two_body::TwoBody;
 use propagator::force::zonal::Zonal;
@@ -10,7 +11,6 @@ use propagator::plugin::loader::PluginForce;
 use propagator::propagation::{output_grid, propagate, Options, Request, Silent};
 use propagator::{Epoch, Force, ForceModel, StateVector};
 use std::path::{Path, PathBuf};
-use std::process::Command;
 
 const MU: f64 = 398_600.441_8;
 const RE: f64 = 6_378.136_3;
@@ -119,33 +119,8 @@ fn time_offsets_between_reference_epochs_are_applied() {
 }
 
 /// Builds a C plugin from `body` into `dir`; returns its path.
-fn c_plugin(dir: &Path, name: &str, body: &str) -> PathBuf {
-    let src = dir.join(format!("{name}.c"));
-    std::fs::write(
-        &src,
-        format!("#include <stdint.h>\n#include <stddef.h>\n#include <math.h>\n{body}"),
-    )
-    .unwrap();
-    let out = dir.join(format!("lib{name}.so"));
-    let status = Command::new("cc")
-        .args(["-shared", "-fPIC", "-O1", "-o"])
-        .arg(&out)
-        .arg(&src)
-        .arg("-lm")
-        .status()
-        .expect("a C compiler (cc) is needed for the plugin refusal tests");
-    assert!(status.success());
-    out
-}
-
-const META: &str = r#"{\"abi_version\":1,\"name\":\"c_test\",\"frame\":\"ECI\",\"reference_epoch_utc\":\"2031-05-04T12:00:00Z\",\"source_checksum\":\"sha256:aaaa\",\"validity\":null,\"units\":{\"time\":\"s\",\"state\":\"km, km/s\",\"acceleration\":\"km/s^2\"}}"#;
-
 fn good_c(abi: u32, accel: &str) -> String {
-    format!(
-        "uint32_t arcwise_plugin_abi_version(void) {{ return {abi}; }}\n\
-         const char *arcwise_plugin_metadata(void) {{ return \"{META}\"; }}\n\
-         int32_t arcwise_plugin_acceleration(double t, const double s[6], double out[3]) {{ {accel} }}\n"
-    )
+    common::c_force_source(abi, accel)
 }
 
 fn load_err(path: &Path, checksum: Option<&str>) -> String {
@@ -159,17 +134,20 @@ fn loader_refusals_name_the_file_and_the_reason() {
     let dir = tempfile::tempdir().unwrap();
     let zero = "out[0] = 0; out[1] = 0; out[2] = 1e-9 * s[2] / 7000.0; return 0;";
     // A well-formed C plugin loads.
-    let ok = c_plugin(dir.path(), "ok", &good_c(1, zero));
+    let ok = common::c_plugin(dir.path(), "ok", &good_c(1, zero));
     assert!(PluginForce::load(&ok, &reference(), Some("sha256:aaaa")).is_ok());
     // Wrong ABI version.
-    let e = load_err(&c_plugin(dir.path(), "abi2", &good_c(2, zero)), None);
+    let e = load_err(
+        &common::c_plugin(dir.path(), "abi2", &good_c(2, zero)),
+        None,
+    );
     assert!(
         e.contains("ABI version 2") && e.contains("libabi2.so"),
         "{e}"
     );
     // Missing symbol.
     let e = load_err(
-        &c_plugin(dir.path(), "nosym", "uint32_t arcwise_plugin_abi_version(void) { return 1; }\nconst char *arcwise_plugin_metadata(void) { return \"{}\"; }\n"),
+        &common::c_plugin(dir.path(), "nosym", "uint32_t arcwise_plugin_abi_version(void) { return 1; }\nconst char *arcwise_plugin_metadata(void) { return \"{}\"; }\n"),
         None,
     );
     assert!(
@@ -201,7 +179,7 @@ fn loader_refusals_name_the_file_and_the_reason() {
     }
     // A missing file; bad metadata.
     assert!(load_err(&dir.path().join("nope.so"), None).contains("cannot find"));
-    let bad_meta = c_plugin(
+    let bad_meta = common::c_plugin(
         dir.path(),
         "badmeta",
         "uint32_t arcwise_plugin_abi_version(void) { return 1; }\nconst char *arcwise_plugin_metadata(void) { return \"{not json\"; }\nint32_t arcwise_plugin_acceleration(double t, const double s[6], double out[3]) { return 0; }\n",
@@ -224,7 +202,7 @@ fn a_plugin_failing_mid_propagation_stops_it_with_the_plugin_and_epoch_named() {
             "status 3",
         ),
     ] {
-        let so = c_plugin(dir.path(), name, &good_c(1, accel));
+        let so = common::c_plugin(dir.path(), name, &good_c(1, accel));
         let mut model = base();
         model.push(Box::new(
             PluginForce::load(&so, &reference(), None).unwrap(),

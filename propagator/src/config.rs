@@ -70,7 +70,12 @@ checked_f64!(positive_scale, "scale", positive);
 checked_f64!(positive_rho0, "rho0_kg_m3", positive);
 checked_f64!(finite_h0, "h0_km", finite);
 checked_f64!(positive_scale_height, "scale_height_km", positive);
-checked_f64!(positive_sma, "sma_km", positive);
+checked_f64!(
+    positive_sma,
+    "sma_km",
+    |v: f64| v > 0.0,
+    "must be positive and finite (elements describe closed orbits: give a hyperbolic state as r_km and v_km_s)"
+);
 checked_f64!(finite_ecc, "ecc", finite);
 checked_f64!(finite_inc, "inc_deg", finite);
 checked_f64!(finite_raan, "raan_deg", finite);

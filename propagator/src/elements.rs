@@ -28,7 +28,7 @@ pub struct Elements {
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum ElementsError {
     /// e ≥ 1, or negative.
-    #[error("eccentricity {0} is not that of a closed orbit (0 ≤ e < 1 required)")]
+    #[error("eccentricity {0} is not that of a closed orbit (0 ≤ e < 1 required; give a hyperbolic state as r_km and v_km_s)")]
     NotElliptic(f64),
     /// a ≤ 0 or non-finite.
     #[error("semi-major axis {0} km is not positive and finite")]

@@ -151,6 +151,33 @@ struct Learner<'a> {
 }
 
 impl Learner<'_> {
+    /// The base fit, refused when the arc is shorter than one revolution of the fitted
+    /// orbit: over less than a revolution a small force and a change of the orbit itself
+    /// cannot be told apart, so "no anomaly" or a learned term would both be unfounded.
+    fn base_fit(&self, fit_observer: &mut dyn FitObserver) -> Result<FitResult, LearnError> {
+        let base = fit(self.arc, self.model()?, &self.options.fit, fit_observer)?;
+        let span_s = self.arc.end().seconds_since(&self.arc.start());
+        let mu = propagator::CentralBody::EARTH_EGM96.mu_km3_s2;
+        let r = base.x0.fixed_rows::<3>(0).norm();
+        let v2 = base.x0.fixed_rows::<3>(3).norm_squared();
+        let energy = v2 / 2.0 - mu / r;
+        if energy >= 0.0 {
+            return Err(LearnError::Unfit(format!(
+                "the fitted orbit is not closed (specific energy {energy:.3} km²/s² ≥ 0, hyperbolic or parabolic): learning needs a bound Earth orbit"
+            )));
+        }
+        let a = -mu / (2.0 * energy);
+        let period_s = std::f64::consts::TAU * (a * a * a / mu).sqrt();
+        if span_s < period_s {
+            return Err(LearnError::Unfit(format!(
+                "the arc spans {:.1} min, less than one revolution ({:.1} min): too short to tell a force from a change of the orbit; give at least one revolution (a day or more is usual)",
+                span_s / 60.0,
+                period_s / 60.0
+            )));
+        }
+        Ok(base)
+    }
+
     fn model(&self) -> Result<ForceModel, LearnError> {
         (self.make_model)(self.arc.start()).map_err(LearnError::Unfit)
     }
@@ -390,7 +417,7 @@ pub fn linearize(
         options,
         context,
     };
-    let base = fit(arc, l.model()?, &options.fit, fit_observer)?;
+    let base = l.base_fit(fit_observer)?;
     let problem = l.problem(arc, &base)?;
     Ok((base, problem))
 }
@@ -410,7 +437,7 @@ pub fn learn(
         options,
         context,
     };
-    let base = fit(arc, l.model()?, &options.fit, fit_observer)?;
+    let base = l.base_fit(fit_observer)?;
     let mut notes = Vec::new();
     if !base.verdict.anomaly {
         notes.push("the base fit's verdict is no_anomaly: the known forces explain the arc; nothing was learned".into());

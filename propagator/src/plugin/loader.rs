@@ -259,9 +259,21 @@ impl PluginForce {
             .map(|c| Vector3::new(c[0], c[1], c[2]))
             .collect();
         if !super::all_finite(&out) {
-            return Err(self.status_error(t_s[0], super::status::NON_FINITE));
+            return Err(self.non_finite_error(t_s[0]));
         }
         Ok(v)
+    }
+
+    /// The plugin said success but wrote NaN or an infinity.
+    fn non_finite_error(&self, t_s: f64) -> ForceError {
+        ForceError {
+            force: self.name.clone(),
+            t_s,
+            reason: format!(
+                "plugin {} reported success but returned a non-finite value (NaN or infinity)",
+                self.path.display()
+            ),
+        }
     }
 
     fn status_error(&self, t_s: f64, code: i32) -> ForceError {
@@ -292,7 +304,7 @@ impl Force for PluginForce {
             return Err(self.status_error(t_s, code));
         }
         if !super::all_finite(&out) {
-            return Err(self.status_error(t_s, super::status::NON_FINITE));
+            return Err(self.non_finite_error(t_s));
         }
         Ok(Vector3::new(out[0], out[1], out[2]))
     }
@@ -309,7 +321,7 @@ impl Force for PluginForce {
             return Err(self.status_error(t_s, code));
         }
         if !super::all_finite(&out) {
-            return Err(self.status_error(t_s, super::status::NON_FINITE));
+            return Err(self.non_finite_error(t_s));
         }
         Ok(nalgebra::Matrix3x6::from_row_slice(&out))
     }
