@@ -1,0 +1,16 @@
+#!/usr/bin/env bash
+# Seeds fuzz/corpus/parsers with each kind's valid example (selector byte + text).
+set -euo pipefail
+cd "$(dirname "$0")/.."
+out=fuzz/corpus/parsers
+mkdir -p "$out"
+write() { { printf "\\x$(printf %02x "$1")"; cat "$2"; } > "$out/seed-$1"; }
+tmp=$(mktemp -d)
+trap 'rm -rf "$tmp"' EXIT
+printf 'epoch_utc,x_km,y_km,z_km,sigma_km\n2031-05-04T00:00:00Z,6878,0,0,0.005\n2031-05-04T00:01:00Z,6863.4,455.3,0,0.005\n2031-05-04T00:02:00Z,6819.9,908.7,0,0.005\n' > "$tmp/arc.csv"
+write 0 "$tmp/arc.csv"
+printf 'exp(-t / k0) * T + cos(u) * R\n' > "$tmp/formula"
+write 8 "$tmp/formula"
+write 5 examples/scenarios/venting.yaml
+write 6 tests/data/learned_example.yaml
+write 7 tests/data/learned_example.yaml
