@@ -128,6 +128,59 @@ int32_t arcwise_plugin_acceleration(double t, const double s[6], double out[3]) 
     ok.then_some(out)
 }
 
+/// The same force hand-written in Rust as a plugin (plain `extern "C"` functions, no
+/// checks), built with the machine's `rustc -C opt-level=3`: the like-for-like comparison
+/// for the generated plugin (same language, compiler and ABI; the generated one adds
+/// the validity gate, panic containment and the finiteness checks).
+fn hand_written_rust_plugin(dir: &std::path::Path) -> Option<std::path::PathBuf> {
+    let src = dir.join("hand_rs.rs");
+    let meta = r#"{"abi_version":1,"name":"hand_rs","frame":"ECI","reference_epoch_utc":"2031-05-04T00:00:00Z","source_checksum":null,"validity":null,"units":{"time":"s","state":"km, km/s","acceleration":"km/s^2"}}"#;
+    let code = format!(
+        r#"#[no_mangle]
+pub extern "C" fn arcwise_plugin_abi_version() -> u32 {{ 1 }}
+#[no_mangle]
+pub extern "C" fn arcwise_plugin_metadata() -> *const std::ffi::c_char {{
+    concat!({meta:?}, "\0").as_ptr() as *const std::ffi::c_char
+}}
+/// # Safety
+/// 6 readable and 3 writable doubles.
+#[no_mangle]
+pub unsafe extern "C" fn arcwise_plugin_acceleration(t: f64, s: *const f64, out: *mut f64) -> i32 {{
+    let s = unsafe {{ std::slice::from_raw_parts(s, 6) }};
+    let o = unsafe {{ std::slice::from_raw_parts_mut(out, 3) }};
+    let rn = (s[0] * s[0] + s[1] * s[1] + s[2] * s[2]).sqrt();
+    let rh = [s[0] / rn, s[1] / rn, s[2] / rn];
+    let h = [s[1] * s[5] - s[2] * s[4], s[2] * s[3] - s[0] * s[5], s[0] * s[4] - s[1] * s[3]];
+    let hn = (h[0] * h[0] + h[1] * h[1] + h[2] * h[2]).sqrt();
+    let n = [h[0] / hn, h[1] / hn, h[2] / hn];
+    let k = 2e-9 * (-t / 21600.0).exp();
+    o[0] = k * (n[1] * rh[2] - n[2] * rh[1]);
+    o[1] = k * (n[2] * rh[0] - n[0] * rh[2]);
+    o[2] = k * (n[0] * rh[1] - n[1] * rh[0]);
+    0
+}}
+"#
+    );
+    std::fs::write(&src, code).ok()?;
+    let out = dir.join("libhand_rs.so");
+    let ok = std::process::Command::new("rustc")
+        .args([
+            "--edition",
+            "2021",
+            "--crate-type",
+            "cdylib",
+            "-C",
+            "opt-level=3",
+            "-o",
+        ])
+        .arg(&out)
+        .arg(&src)
+        .status()
+        .ok()?
+        .success();
+    ok.then_some(out)
+}
+
 fn bench(c: &mut Criterion) {
     let f = file();
     let dir = std::env::temp_dir().join(format!("arcwise-bench-plugin-{}", std::process::id()));
@@ -158,6 +211,13 @@ fn bench(c: &mut Criterion) {
             })
         },
     );
+    let hand_rs =
+        hand_written_rust_plugin(&dir).map(|p| PluginForce::load(&p, &reference, None).unwrap());
+    if let Some(h) = &hand_rs {
+        g.bench_function("hand-written Rust plugin (same ABI)", |b| {
+            b.iter(|| h.acceleration(black_box(3600.0), black_box(&x)).unwrap())
+        });
+    }
     if let Some(h) = &hand_c {
         g.bench_function("hand-written C plugin (same ABI)", |b| {
             b.iter(|| h.acceleration(black_box(3600.0), black_box(&x)).unwrap())

@@ -278,6 +278,20 @@ fn native_plugin_agrees_with_in_process_inside_and_outside_the_window() {
                 (a, b) => panic!("{policy:?} t={t}: plugin {a:?}, in-process {b:?}"),
             }
         }
+        // Non-finite inputs are refused by both, whatever the policy (never a zero).
+        let x = StateVector::new(7000.0, 0.0, 0.0, 0.0, 7.5, 0.1);
+        let mut nan_r = x;
+        nan_r[0] = f64::NAN;
+        let mut inf_v = x;
+        inf_v[4] = f64::INFINITY;
+        for (t, x) in [(f64::NAN, x), (100.0, nan_r), (100.0, inf_v)] {
+            let a = native.acceleration(t, &x);
+            let b = inproc.acceleration(t, &x);
+            assert!(
+                a.is_err() && b.is_err(),
+                "{policy:?} t={t} {x:?}: {a:?} {b:?}"
+            );
+        }
     }
 }
 

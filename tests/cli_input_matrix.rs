@@ -748,6 +748,23 @@ fn add(
     });
 }
 
+/// The paths of every null in a JSON value.
+fn null_paths(v: &serde_json::Value, at: String) -> Vec<String> {
+    match v {
+        serde_json::Value::Null => vec![at],
+        serde_json::Value::Array(a) => a
+            .iter()
+            .enumerate()
+            .flat_map(|(i, x)| null_paths(x, format!("{at}[{i}]")))
+            .collect(),
+        serde_json::Value::Object(o) => o
+            .iter()
+            .flat_map(|(k, x)| null_paths(x, format!("{at}.{k}")))
+            .collect(),
+        _ => vec![],
+    }
+}
+
 /// Every entry of `out`, recursively (a partial output anywhere counts).
 fn leftovers(out: &Path) -> Vec<PathBuf> {
     let mut found = Vec::new();
@@ -784,6 +801,30 @@ fn every_command_refuses_every_bad_input_it_reads_with_one_message_and_no_output
             code == 0 || code == 1,
             "{command} on the good inputs: {code} {err}"
         );
+        // Reports carry numbers, never a NaN (which JSON would write as null).
+        for f in leftovers(&out) {
+            if f.extension().is_some_and(|e| e == "json") {
+                let v: serde_json::Value =
+                    serde_json::from_str(&std::fs::read_to_string(&f).unwrap()).unwrap();
+                // Keys whose null means "none", by design.
+                const OPTIONAL: [&str; 5] = [
+                    ".decay",
+                    ".held_out_rms_km",
+                    ".learned_fit",
+                    ".model",
+                    ".max_rms_km",
+                ];
+                let nulls: Vec<String> = null_paths(&v, String::new())
+                    .into_iter()
+                    .filter(|p| !OPTIONAL.contains(&p.as_str()))
+                    .collect();
+                assert!(
+                    nulls.is_empty(),
+                    "{command}: {} has null at {nulls:?}",
+                    f.display()
+                );
+            }
+        }
     }
     let bad = bad_inputs(d, &good);
     let mut failures = Vec::new();

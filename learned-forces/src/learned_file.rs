@@ -405,6 +405,14 @@ impl LearnedForce {
         if self.inside(tf, x) {
             return Ok(true);
         }
+        // NaN fails every comparison of `inside`: refuse it rather than answer zero.
+        if !(tf.is_finite() && x.iter().all(|c| c.is_finite())) {
+            return Err(ForceError {
+                force: self.name.clone(),
+                t_s,
+                reason: "non-finite time or state".into(),
+            });
+        }
         match self.policy {
             OutsidePolicy::Warn => {
                 self.outside_seen.store(true, Ordering::Relaxed);

@@ -37,7 +37,7 @@ extern "C" {
 #define ARCWISE_ERR_OUTSIDE_VALIDITY 1 /* the state or time is outside the validity window */
 #define ARCWISE_ERR_NON_FINITE 2      /* the computed acceleration is NaN or infinite */
 #define ARCWISE_ERR_PANIC 3           /* the implementation failed internally */
-#define ARCWISE_ERR_BAD_ARGUMENT 4    /* a null pointer or non-finite input */
+#define ARCWISE_ERR_BAD_ARGUMENT 4    /* a null pointer, or a non-finite input the answer depends on */
 
 /* The ABI version the plugin implements; hosts refuse anything but the one they know. */
 uint32_t arcwise_plugin_abi_version(void);

@@ -186,19 +186,29 @@ fn all_finite(v: &[f64]) -> bool {{
     v.iter().fold(0.0, |acc, x| acc + x * 0.0) == 0.0
 }}
 
+fn inputs_finite(t: f64, s: &[f64]) -> bool {{
+    all_finite(s) && (t * 0.0) == 0.0
+}}
+
 fn accel(t: f64, s: &[f64], out: &mut [f64]) -> i32 {{
-    if !(all_finite(s) && (t * 0.0) == 0.0) {{
-        return 4;
-    }}
+    // Inputs are checked off the fast path only: a non-finite t or position fails the
+    // validity gate (NaN compares false), and any non-finite input the force depends on
+    // makes the result non-finite, which is checked. What is left is an input the
+    // formula does not read, which cannot change its (finite, correct) answer.
     match gate(t, s) {{
-        1 => {{
+        0 => {{}}
+        policy => {{
+            if !inputs_finite(t, s) {{
+                return 4;
+            }}
+            if policy == 2 {{
+                return 1;
+            }}
             out[0] = 0.0;
             out[1] = 0.0;
             out[2] = 0.0;
             return 0;
         }}
-        2 => return 1,
-        _ => {{}}
     }}
     let p = terminals_for::<f64>(t, [s[0], s[1], s[2]], [s[3], s[4], s[5]], RE, W, T0C, NEED);
     let a = eval(&p);
@@ -207,7 +217,13 @@ fn accel(t: f64, s: &[f64], out: &mut [f64]) -> i32 {{
     out[0] = a[0];
     out[1] = a[1];
     out[2] = a[2];
-    if all_finite(&a) {{ 0 }} else {{ 2 }}
+    if all_finite(&a) {{
+        0
+    }} else if inputs_finite(t, s) {{
+        2
+    }} else {{
+        4
+    }}
 }}
 
 /// # Safety
@@ -250,7 +266,7 @@ pub unsafe extern "C" fn arcwise_plugin_partials(t: f64, state: *const f64, out:
     let s = unsafe {{ std::slice::from_raw_parts(state, 6) }};
     let o = unsafe {{ std::slice::from_raw_parts_mut(out, 18) }};
     catch_unwind(AssertUnwindSafe(|| {{
-        if !(all_finite(s) && (t * 0.0) == 0.0) {{
+        if !inputs_finite(t, s) {{
             return 4;
         }}
         match gate(t, s) {{

@@ -260,13 +260,13 @@ impl Program {
             // Operands index earlier instructions, so `done[i]` (bounds-checked against
             // k) was written in an earlier iteration.
             // SAFETY: every slot below k was initialised by the `write` of its iteration.
-            let get = |i: usize| unsafe { *done[i].assume_init_ref() };
+            let get = |i: usize| unsafe { done[i].assume_init_ref() };
             let s = |i: usize| match get(i) {
-                Reg::S(x) => x,
+                Reg::S(x) => *x,
                 Reg::V(_) => N::cst(f64::NAN),
             };
             let v = |i: usize| match get(i) {
-                Reg::V(x) => x,
+                Reg::V(x) => *x,
                 Reg::S(_) => [N::cst(f64::NAN); 3],
             };
             use Instr::*;
@@ -306,10 +306,11 @@ impl Program {
                 }
                 Cross(a, b) => Reg::V(cross3(v(a), v(b))),
             };
-            last = match r {
-                Reg::V(x) => x,
-                Reg::S(_) => [N::cst(f64::NAN); 3],
-            };
+            if k + 1 == self.instrs.len() {
+                if let Reg::V(x) = r {
+                    last = x;
+                }
+            }
             rest[0].write(r);
         }
         last

@@ -519,7 +519,18 @@ pub fn fit(
     }
     let rms_km = (sum_sq / n_used.max(1) as f64).sqrt();
     let dof = lin.z.len().saturating_sub(n_est);
-    let verdict = verdict(&lin.z, dof, &residuals, options);
+    let mut verdict = verdict(&lin.z, dof, &residuals, options);
+    if !converged {
+        // Say it first: every number after it describes the last iterate, not a
+        // least-squares solution.
+        verdict.reasons.insert(
+            0,
+            format!(
+                "the fit did not converge in {iterations} iterations: the known forces are far from this arc (a maneuver, another object, or a unit error?); the statistics below are those of the last iterate and the formal σ mean little (`arcwise rank` tests maneuver hypotheses)"
+            ),
+        );
+        verdict.anomaly = true;
+    }
     let estimates = options
         .estimate
         .iter()

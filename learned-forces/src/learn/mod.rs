@@ -620,6 +620,23 @@ pub fn learn(
             _ => {}
         }
     }
+    // A file with NaN in it would be refused by every reader: say so here instead.
+    if !coefficients
+        .iter()
+        .chain(&sigmas)
+        .chain(&constants)
+        .chain(&constant_sigmas)
+        .all(|x| x.is_finite())
+    {
+        return Err(LearnError::Unfit(format!(
+            "the final fit of `{}` gave a non-finite coefficient, constant or σ (a singular covariance): nothing written",
+            sol.nodes
+                .iter()
+                .map(|n| n.to_string())
+                .collect::<Vec<_>>()
+                .join(" + ")
+        )));
+    }
     let absorbed: Vec<f64> = sol
         .nodes
         .iter()

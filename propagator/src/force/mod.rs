@@ -115,15 +115,23 @@ pub fn central_difference_partials<F: Force + ?Sized>(
 }
 
 /// Checks a force's output: a non-finite acceleration is an error naming the force.
+/// Inlined with the error built out of line: it sits on every call of some forces.
+#[inline]
 pub fn finite_or_error(name: &str, t_s: f64, a: Vector3<f64>) -> Result<Vector3<f64>, ForceError> {
-    if a.iter().all(|c| c.is_finite()) {
+    if crate::plugin::all_finite(a.as_slice()) {
         Ok(a)
     } else {
-        Err(ForceError {
-            force: name.to_string(),
-            t_s,
-            reason: format!("non-finite acceleration {a:?}"),
-        })
+        Err(non_finite_acceleration(name, t_s, a))
+    }
+}
+
+#[cold]
+#[inline(never)]
+fn non_finite_acceleration(name: &str, t_s: f64, a: Vector3<f64>) -> ForceError {
+    ForceError {
+        force: name.to_string(),
+        t_s,
+        reason: format!("non-finite acceleration {a:?}"),
     }
 }
 
