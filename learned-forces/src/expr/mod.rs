@@ -93,6 +93,16 @@ pub enum Node {
     Pow(Box<Node>, i32),
 }
 
+/// The vector terminals a direction swap exchanges, in the canonical order.
+pub const SWAPPABLE: [Node; 6] = [
+    Node::UnitR,
+    Node::UnitT,
+    Node::UnitN,
+    Node::VelRel,
+    Node::Vel,
+    Node::Pos,
+];
+
 /// A type error, as a sentence.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[error("{0}")]
@@ -181,6 +191,56 @@ impl Node {
             Neg(a) | Sin(a) | Cos(a) | Exp(a) | Sqrt(a) | Norm(a) | Pow(a, _) => vec![a],
             _ => vec![],
         }
+    }
+
+    /// The trees one direction swap away: one vector terminal (`R`, `T`, `N`, `vrel`, `v`,
+    /// `r`) replaced by another, or one `sin` turned into `cos` or back. On near-circular
+    /// orbits some of these are indistinguishable over an arc (a once-per-revolution
+    /// radial term and the along-track one in quadrature change the orbit alike; `vrel`
+    /// is nearly along `T`), so the learner tries them.
+    pub fn direction_variants(&self) -> Vec<Node> {
+        let mut out = Vec::new();
+        for k in 0..self.size() {
+            for pick in 0..SWAPPABLE.len() - 1 {
+                let mut t = self.clone();
+                let mut seen = 0;
+                if t.swap_direction_at(k, pick, &mut seen) && !out.contains(&t) && t != *self {
+                    out.push(t);
+                }
+            }
+        }
+        out
+    }
+
+    /// Swaps the `k`-th node (pre-order) if it is a vector terminal or sin/cos; `pick`
+    /// chooses among the other terminals. True when something was swapped.
+    fn swap_direction_at(&mut self, k: usize, pick: usize, seen: &mut usize) -> bool {
+        use Node::*;
+        if *seen == k {
+            *seen += 1;
+            match self {
+                Sin(a) if pick == 0 => *self = Cos(a.clone()),
+                Cos(a) if pick == 0 => *self = Sin(a.clone()),
+                _ => {
+                    let Some(i) = SWAPPABLE.iter().position(|n| n == self) else {
+                        return false;
+                    };
+                    let others: Vec<&Node> = SWAPPABLE.iter().filter(|n| *n != self).collect();
+                    debug_assert_eq!(others.len(), SWAPPABLE.len() - 1, "{i}");
+                    *self = others[pick].clone();
+                }
+            }
+            return true;
+        }
+        *seen += 1;
+        self.children_mut()
+            .into_iter()
+            .any(|c| c.swap_direction_at(k, pick, seen))
+    }
+
+    /// The number of nodes.
+    pub fn size(&self) -> usize {
+        1 + self.children().iter().map(|c| c.size()).sum::<usize>()
     }
 
     /// Mutable children.

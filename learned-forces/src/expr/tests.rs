@@ -129,3 +129,51 @@ fn dual_partials_match_central_differences() {
         }
     }
 }
+
+#[test]
+fn direction_variants_swap_one_terminal_or_one_trig_function() {
+    let n = parse("sin(u) * T").unwrap();
+    let texts: Vec<String> = n
+        .direction_variants()
+        .iter()
+        .map(|v| v.to_string())
+        .collect();
+    // sin → cos, and T → each of the five other vector terminals.
+    for want in [
+        "cos(u) * T",
+        "sin(u) * R",
+        "sin(u) * N",
+        "sin(u) * vrel",
+        "sin(u) * v",
+        "sin(u) * r",
+    ] {
+        assert!(texts.iter().any(|t| t == want), "{want} not in {texts:?}");
+    }
+    assert_eq!(texts.len(), 6, "{texts:?}");
+    // Two swaps reach the radial form in quadrature.
+    let two: Vec<String> = n
+        .direction_variants()
+        .iter()
+        .flat_map(|v| v.direction_variants())
+        .map(|v| v.to_string())
+        .collect();
+    assert!(two.iter().any(|t| t == "cos(u) * R"));
+    // Nothing to swap in a scalar-only factor times `sun`.
+    assert!(parse("exp(-t / 100) * sun")
+        .unwrap()
+        .direction_variants()
+        .is_empty());
+}
+
+#[test]
+fn canonical_order_puts_radial_before_along_track_and_cos_before_sin() {
+    use crate::learn::canonical_key;
+    let key = |s: &str| canonical_key(&parse(s).unwrap());
+    assert!(key("cos(u) * R") < key("sin(u) * T"));
+    assert!(key("sin(u) * R") < key("sin(u) * T"));
+    assert!(key("cos(u) * T") < key("sin(u) * T"));
+    assert!(key("sin(u) * T") < key("sin(u) * vrel"));
+    assert!(key("exp(-t / k0) * T") < key("exp(-t / k0) * v"));
+    // Words that merely contain the letters are not terminals.
+    assert!(key("norm(r) * T") != key("norm(v) * T"));
+}

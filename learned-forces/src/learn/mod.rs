@@ -151,6 +151,124 @@ struct Learner<'a> {
 }
 
 impl Learner<'_> {
+    /// Tries every one- and two-step direction swap of every chosen term
+    /// (`Node::direction_variants`) in
+    /// the linearized problem; a swap that changes χ² by less than
+    /// [`EQUIVALENT_DCHI2`] is an equivalent form, noted for the report. The earliest in
+    /// the canonical order ([`canonical_key`]) replaces the term when, refined in the
+    /// dynamics, it keeps every term significant and the held-out error within the
+    /// selection tolerance; otherwise the search's form stays.
+    #[allow(clippy::type_complexity)]
+    fn canonical_equivalent(
+        &self,
+        problem: &Problem,
+        (train, base_train, held): (&Arc, &FitResult, &Arc),
+        (sol, train_fit, rms): (Solution, FitResult, f64),
+        best_rms: f64,
+        notes: &mut Vec<String>,
+        fit_observer: &mut dyn FitObserver,
+    ) -> Result<(Solution, FitResult, f64), LearnError> {
+        let cost_of = |nodes: &[Node]| -> Option<(Vec<f64>, f64)> {
+            let cols: Option<Vec<_>> = nodes
+                .iter()
+                .map(|n| problem.column(n, &sol.constants))
+                .collect();
+            problem.fit_columns(&cols?).map(|(c, _, cost)| (c, cost))
+        };
+        let Some((_, cost0)) = cost_of(&sol.nodes) else {
+            return Ok((sol, train_fit, rms));
+        };
+        let mut nodes = sol.nodes.clone();
+        for i in 0..nodes.len() {
+            let mut pick: Option<Node> = None;
+            let mut alike = Vec::new();
+            // One and two swaps: `sin(u) * T` ↔ `cos(u) * R` takes two.
+            let mut variants = sol.nodes[i].direction_variants();
+            for v in variants.clone() {
+                for w in v.direction_variants() {
+                    if w != sol.nodes[i] && !variants.contains(&w) {
+                        variants.push(w);
+                    }
+                }
+            }
+            for v in variants {
+                if nodes.contains(&v) {
+                    continue;
+                }
+                let mut trial = nodes.clone();
+                trial[i] = v.clone();
+                let Some((_, cost)) = cost_of(&trial) else {
+                    continue;
+                };
+                if cost - cost0 < EQUIVALENT_DCHI2 {
+                    alike.push(format!("`{v}` (Δχ² {:+.2})", cost - cost0));
+                    let earliest = pick.as_ref().unwrap_or(&nodes[i]);
+                    if canonical_key(&v) < canonical_key(earliest) {
+                        pick = Some(v);
+                    }
+                }
+            }
+            if !alike.is_empty() {
+                notes.push(format!(
+                    "`{}` fits this arc as well as {}: the data cannot tell these forms apart",
+                    sol.nodes[i],
+                    alike.join(", ")
+                ));
+            }
+            if let Some(v) = pick {
+                nodes[i] = v;
+            }
+        }
+        if nodes == sol.nodes {
+            return Ok((sol, train_fit, rms));
+        }
+        let Some((c0, cost)) = cost_of(&nodes) else {
+            return Ok((sol, train_fit, rms));
+        };
+        let refined = self.refine(
+            train,
+            base_train.x0,
+            &base_train.values,
+            &nodes,
+            &c0,
+            &sol.constants,
+            fit_observer,
+        );
+        let nb = self.options.fit.estimate.len();
+        if let Ok(r) = refined {
+            let significant = (0..nodes.len()).all(|i| {
+                let e = &r.estimates[nb + i];
+                e.value.abs() >= self.options.search.threshold * e.sigma
+            });
+            let new_rms = self.predict_rms(&r, &nodes, held)?;
+            if significant && new_rms <= best_rms * (1.0 + self.options.selection_tolerance) {
+                notes.push(format!(
+                    "reported in the canonical form (R, T, N, vrel, v, r in that order; cos before sin): {}",
+                    nodes
+                        .iter()
+                        .map(|n| n.to_string())
+                        .collect::<Vec<_>>()
+                        .join(" + ")
+                ));
+                let coefficients = (0..nodes.len())
+                    .map(|i| r.estimates[nb + i].value)
+                    .collect();
+                let sigmas = (0..nodes.len())
+                    .map(|i| r.estimates[nb + i].sigma)
+                    .collect();
+                let sol = Solution {
+                    nodes,
+                    coefficients,
+                    sigmas,
+                    cost,
+                    ..sol
+                };
+                return Ok((sol, r, new_rms));
+            }
+        }
+        Ok((sol, train_fit, rms))
+    }
+
     /// The base fit, refused when the arc is shorter than one revolution of the fitted
     /// orbit: over less than a revolution a small force and a change of the orbit itself
     /// cannot be told apart, so "no anomaly" or a learned term would both be unfounded.
@@ -422,6 +540,45 @@ pub fn linearize(
     Ok((base, problem))
 }
 
+/// Below this change of χ², two forms of a term (same number of coefficients) are
+/// equivalent on the arc: with equal parameter counts Δχ² is ΔAIC, and ΔAIC ≤ 2 is the
+/// usual "both substantially supported" line (Burnham & Anderson, Model Selection and
+/// Multimodel Inference, 2002; from memory).
+pub const EQUIVALENT_DCHI2: f64 = 2.0;
+
+/// Orders equivalent forms: `R`, `T`, `N`, `vrel`, `v`, `r` in that order, `cos` before
+/// `sin`; otherwise by text. A convention, so that the reported form does not depend on
+/// the noise; the report lists the others.
+pub fn canonical_key(n: &Node) -> String {
+    let rank = |word: &str| match word {
+        "R" => Some('\u{1}'),
+        "T" => Some('\u{2}'),
+        "N" => Some('\u{3}'),
+        "vrel" => Some('\u{4}'),
+        "v" => Some('\u{5}'),
+        "r" => Some('\u{6}'),
+        "cos" => Some('\u{7}'),
+        "sin" => Some('\u{8}'),
+        _ => None,
+    };
+    let text = n.to_string();
+    let mut key = String::new();
+    let mut word = String::new();
+    for c in text.chars().chain(std::iter::once(' ')) {
+        if c.is_ascii_alphanumeric() || c == '_' {
+            word.push(c);
+            continue;
+        }
+        match rank(&word) {
+            Some(r) => key.push(r),
+            None => key.push_str(&word),
+        }
+        word.clear();
+        key.push(c);
+    }
+    key
+}
+
 /// Learns the missing force of `arc` under the known forces `make_model(epoch)` builds.
 pub fn learn(
     arc: &Arc,
@@ -581,6 +738,16 @@ pub fn learn(
             search_stats: stats,
         });
     }
+    // Among forms the arc cannot tell apart, report the canonical one, so that the
+    // formula does not flip with the noise.
+    let (sol, train_fit, rms) = l.canonical_equivalent(
+        &problem,
+        (&train, &base_train, &held),
+        (sol, train_fit, rms),
+        best,
+        &mut notes,
+        fit_observer,
+    )?;
     // Final fit on the whole arc.
     let nb = options.fit.estimate.len();
     let c0: Vec<f64> = (0..sol.nodes.len())
