@@ -71,6 +71,9 @@ fn venting_learned_file_is_deterministic_and_usable() {
             assert!(!r[key].is_null(), "{key}");
         }
         assert!(r["rms_km_after"].as_f64().unwrap() * 10.0 < r["rms_km_before"].as_f64().unwrap());
+        // The decaying push keeps part of its signature from the initial state.
+        let absorbed = r["terms"][0]["absorbed_by_initial_state"].as_f64().unwrap();
+        assert!((0.0..0.999).contains(&absorbed), "{absorbed}");
         files.push(std::fs::read(&out).unwrap());
     }
     assert_eq!(files[0], files[1], "1 and 2 threads gave different files");

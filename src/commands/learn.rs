@@ -349,7 +349,12 @@ fn report(a: &Args, l: &Learned, file: &LearnedFile) -> serde_json::Value {
         "verdict": if l.base.verdict.anomaly { "anomaly" } else { "no_anomaly" },
         "base_fit": fit_json(&l.base),
         "model": chosen.map(|c| model_text(&c.nodes, &c.coefficients, &c.constants)),
-        "terms": file.terms.iter().map(|t| serde_json::json!({"formula": t.formula, "coefficient": t.coefficient, "sigma": t.sigma})).collect::<Vec<_>>(),
+        // `absorbed_by_initial_state`: the share of the term's signature on this arc that
+        // a change of the initial state reproduces (near 1: degenerate with the orbit).
+        "terms": file.terms.iter().enumerate().map(|(i, t)| serde_json::json!({
+            "formula": t.formula, "coefficient": t.coefficient, "sigma": t.sigma,
+            "absorbed_by_initial_state": chosen.and_then(|c| c.absorbed.get(i)).copied(),
+        })).collect::<Vec<_>>(),
         "constants": file.constants.iter().map(|c| serde_json::json!({"name": c.name, "value": c.value, "sigma": c.sigma})).collect::<Vec<_>>(),
         "rms_km_before": l.base.rms_km,
         "rms_km_after": chosen.map(|c| c.fit.rms_km).unwrap_or(l.base.rms_km),
