@@ -24,9 +24,18 @@ struct Run {
     context: Context,
 }
 
-fn run(spec: ScenarioSpec, path: PathBuf, options: &LearnOptions) -> Run {
-    let sim = spec.simulate(&path).unwrap();
-    let models = spec.models(&path).unwrap();
+/// The scenario's known force model (as a builder per epoch) and the formula context of
+/// an arc starting at `start`.
+#[allow(clippy::type_complexity)]
+fn known_forces(
+    spec: &ScenarioSpec,
+    path: &Path,
+    start: &propagator::Epoch,
+) -> (
+    Box<dyn Fn(propagator::Epoch) -> Result<propagator::ForceModel, String> + Sync>,
+    Context,
+) {
+    let models = spec.models(path).unwrap();
     let known = models.known.clone();
     let make = move |e: propagator::Epoch| {
         known
@@ -37,11 +46,17 @@ fn run(spec: ScenarioSpec, path: PathBuf, options: &LearnOptions) -> Run {
     let context = Context {
         radius_km: models.known.central_body.radius_km,
         rotation_rad_s: models.known.central_body.rotation_rad_s,
-        clock: CenturyClock::new(&sim.train.start()),
+        clock: CenturyClock::new(start),
     };
+    (Box::new(make), context)
+}
+
+fn run(spec: ScenarioSpec, path: PathBuf, options: &LearnOptions) -> Run {
+    let sim = spec.simulate(&path).unwrap();
+    let (make, context) = known_forces(&spec, &path, &sim.train.start());
     let learned = learn(
         &sim.train,
-        &make,
+        &*make,
         context,
         options,
         &mut QuietFit,
@@ -269,22 +284,10 @@ fn a_constant_radial_term_is_reported_as_absorbed_by_the_initial_state() {
     // initial state gives). The learner notes terms beyond 99.9 % absorbed.
     let (spec, path) = scenario("quiet.yaml");
     let sim = spec.simulate(&path).unwrap();
-    let models = spec.models(&path).unwrap();
-    let known = models.known.clone();
-    let make = move |e: propagator::Epoch| {
-        known
-            .build(Path::new("forces"), e)
-            .map(|l| l.model)
-            .map_err(|e| e.to_string())
-    };
-    let context = Context {
-        radius_km: models.known.central_body.radius_km,
-        rotation_rad_s: models.known.central_body.rotation_rad_s,
-        clock: CenturyClock::new(&sim.train.start()),
-    };
+    let (make, context) = known_forces(&spec, &path, &sim.train.start());
     let (_, problem) = learned_forces::learn::linearize(
         &sim.train,
-        &make,
+        &*make,
         context,
         &LearnOptions::default(),
         &mut QuietFit,
