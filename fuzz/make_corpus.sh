@@ -14,3 +14,4 @@ write 8 "$tmp/formula"
 write 5 examples/scenarios/venting.yaml
 write 6 tests/data/learned_example.yaml
 write 7 tests/data/learned_example.yaml
+write 9 examples/hypotheses/maneuver_day.yaml

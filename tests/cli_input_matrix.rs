@@ -666,6 +666,22 @@ fn bad_inputs(d: &Path, good: &Inputs) -> Vec<Bad> {
         "unknown-hyp.yaml",
         Some("hypotheses: [teleport]\n".into()),
     );
+    add(
+        &mut bad,
+        d,
+        Hypotheses,
+        "window backwards",
+        "backwards-hyp.yaml",
+        Some("hypotheses:\n  - impulsive: { from_utc: \"2031-05-05T01:30:00Z\", to_utc: \"2031-05-05T00:30:00Z\" }\n".into()),
+    );
+    add(
+        &mut bad,
+        d,
+        Hypotheses,
+        "window outside the arc",
+        "outside-hyp.yaml",
+        Some("hypotheses:\n  - impulsive: { from_utc: \"2031-06-01T00:00:00Z\", to_utc: \"2031-06-02T00:00:00Z\" }\n".into()),
+    );
 
     let data: Vec<&str> = oem.lines().filter(|l| l.starts_with("2031-")).collect();
     add(

@@ -8,13 +8,13 @@ use clap::Args as ClapArgs;
 use learned_forces::arc::{Arc, ArcDefaults};
 use learned_forces::expr::Context;
 use learned_forces::fit::FitOptions;
-use learned_forces::learn::rank::{rank, Hypothesis};
+use learned_forces::learn::hypotheses::parse_hypotheses;
+use learned_forces::learn::rank::rank;
 use learned_forces::learn::{linearize, LearnOptions};
 use learned_forces::learned_file::LearnedResolver;
 use propagator::config::ForcesFile;
 use propagator::solar_system::CenturyClock;
 use propagator::Epoch;
-use serde::Deserialize;
 use std::path::PathBuf;
 
 /// Options of `arcwise rank`.
@@ -40,35 +40,10 @@ pub struct Args {
     report: Option<PathBuf>,
 }
 
-#[derive(Deserialize)]
-#[serde(deny_unknown_fields)]
-struct HypothesesFile {
-    #[serde(with = "serde_yaml::with::singleton_map_recursive")]
-    hypotheses: Vec<HypothesisSpec>,
-}
-
-#[derive(Deserialize)]
-#[serde(rename_all = "snake_case")]
-enum HypothesisSpec {
-    NoManeuver,
-    Impulsive {
-        from_utc: String,
-        to_utc: String,
-    },
-    FiniteBurn {
-        from_utc: String,
-        to_utc: String,
-        max_duration_s: f64,
-    },
-    ContinuousAlongTrack,
-}
-
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
     let text = std::fs::read_to_string(&a.hypotheses)
         .map_err(|e| CliError::input(format!("{}: cannot read: {e}", a.hypotheses.display())))?;
-    let hf: HypothesesFile = serde_yaml::from_str(&text)
-        .map_err(|e| CliError::input(format!("{}: {e}", a.hypotheses.display())))?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
     let arc = Arc::load(
         &a.arc,
@@ -80,45 +55,8 @@ pub fn run(a: Args) -> Result<(), CliError> {
     )
     .map_err(CliError::input)?;
     let t0 = arc.start();
-    let secs = |s: &str, key: &str| -> Result<f64, CliError> {
-        Epoch::parse_utc(s)
-            .map(|e| e.seconds_since(&t0))
-            .map_err(|e| CliError::input(format!("{}: {key}: {e}", a.hypotheses.display())))
-    };
-    let mut hyps = Vec::new();
-    for h in &hf.hypotheses {
-        hyps.push(match h {
-            HypothesisSpec::NoManeuver => Hypothesis::NoManeuver,
-            HypothesisSpec::ContinuousAlongTrack => Hypothesis::ContinuousAlongTrack,
-            HypothesisSpec::Impulsive { from_utc, to_utc } => Hypothesis::Impulsive {
-                from_s: secs(from_utc, "from_utc")?,
-                to_s: secs(to_utc, "to_utc")?,
-            },
-            HypothesisSpec::FiniteBurn {
-                from_utc,
-                to_utc,
-                max_duration_s,
-            } => {
-                if !(max_duration_s.is_finite() && *max_duration_s > 0.0) {
-                    return Err(CliError::input(format!(
-                        "{}: max_duration_s must be positive",
-                        a.hypotheses.display()
-                    )));
-                }
-                Hypothesis::FiniteBurn {
-                    from_s: secs(from_utc, "from_utc")?,
-                    to_s: secs(to_utc, "to_utc")?,
-                    max_duration_s: *max_duration_s,
-                }
-            }
-        });
-    }
-    if hyps.is_empty() {
-        return Err(CliError::input(format!(
-            "{}: no hypotheses",
-            a.hypotheses.display()
-        )));
-    }
+    let span_s = arc.end().seconds_since(&t0);
+    let hyps = parse_hypotheses(&text, &a.hypotheses, &t0, span_s).map_err(CliError::input)?;
     let forces_path = a.forces.clone();
     let spec2 = spec.clone();
     let make = move |e: Epoch| {

@@ -37,6 +37,8 @@ pub enum Input {
     LearnedResealed,
     /// One term's formula text.
     Formula,
+    /// A `rank` hypotheses file (for a 1-day arc from [`EPOCH`]).
+    Hypotheses,
 }
 
 /// The epoch of the examples.
@@ -44,7 +46,7 @@ pub const EPOCH: &str = "2031-05-04T00:00:00Z";
 
 impl Input {
     /// Every kind.
-    pub const ALL: [Input; 9] = [
+    pub const ALL: [Input; 10] = [
         Input::ArcCsv,
         Input::ArcOem,
         Input::EphemerisCsv,
@@ -54,6 +56,7 @@ impl Input {
         Input::Learned,
         Input::LearnedResealed,
         Input::Formula,
+        Input::Hypotheses,
     ];
 
     /// The file name errors must carry.
@@ -67,6 +70,7 @@ impl Input {
             Input::Scenario => "scenario.yaml",
             Input::Learned | Input::LearnedResealed => "learned.yaml",
             Input::Formula => "formula",
+            Input::Hypotheses => "hyp.yaml",
         }
     }
 
@@ -97,6 +101,7 @@ impl Input {
             Input::Formula => {
                 "cos(u) * R + 2.5e-3 * cross(r, v) / norm(r)^2 + exp(-t / k0) * T".into()
             }
+            Input::Hypotheses => include_str!("../../examples/hypotheses/maneuver_day.yaml").into(),
         }
     }
 
@@ -133,6 +138,10 @@ impl Input {
                     return learned(text, &epoch);
                 };
                 learned(&f.to_yaml(), &epoch)
+            }
+            Input::Hypotheses => {
+                learned_forces::learn::hypotheses::parse_hypotheses(text, path, &epoch, 86400.0)
+                    .map(|_| ())
             }
             Input::Formula => match learned_forces::expr::parse(text) {
                 Ok(node) => {

@@ -4,6 +4,7 @@
 // Numeric kernels index several arrays in step.
 #![allow(clippy::needless_range_loop)]
 
+pub mod hypotheses;
 pub mod linearized;
 pub mod rank;
 pub mod search;
