@@ -341,3 +341,65 @@ fn propagation_with_the_native_plugin_reproduces_in_process_within_1e_9_km() {
     eprintln!("native vs in-process after 1 day: {worst:.3e} km");
     assert!(worst < 1e-9, "{worst}");
 }
+
+#[test]
+fn the_shipped_scenarios_learned_forces_agree_three_ways() {
+    // The venting file as `learn` wrote it, and the storm and small-radial forms as
+    // `learn` reports them (README), each with a different outside policy: the direct
+    // tree evaluation, the in-process evaluator and the native plugin agree to 1e-13,
+    // inside the window and outside it (beyond a day, above 800 km).
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let venting = LearnedFile::load(&root.join("tests/data/learned_example.yaml")).unwrap();
+    let mut storm = file(
+        vec![("exp(-((t - k0) / k1)^2) * vrel".into(), 2.6e-13)],
+        OutsidePolicy::Zero,
+    );
+    storm.constants = vec![
+        ConstantEntry {
+            name: "k0".into(),
+            value: 50431.0,
+            sigma: 20.0,
+        },
+        ConstantEntry {
+            name: "k1".into(),
+            value: 10801.0,
+            sigma: 30.0,
+        },
+    ];
+    storm.checksum = storm.compute_checksum();
+    let radial = file(
+        vec![("T".into(), 3e-10), ("cos(u) * R".into(), 3e-11)],
+        OutsidePolicy::Refuse,
+    );
+    let reference = Epoch::parse_utc(EPOCH).unwrap();
+    let dir = tempfile::tempdir().unwrap();
+    let mut pts = states(40);
+    pts.push((90_000.0, StateVector::new(7000.0, 0.0, 0.0, 0.0, 7.5, 0.1)));
+    pts.push((1000.0, StateVector::new(7300.0, 0.0, 0.0, 0.0, 7.3, 0.1)));
+    for (name, f) in [("venting", venting), ("storm", storm), ("radial", radial)] {
+        let so = build(&f, name, &dir.path().join(name)).unwrap();
+        let native = PluginForce::load(&so, &reference, Some(&f.checksum)).unwrap();
+        let inproc = f.force(&reference).unwrap();
+        let (nodes, coefs, params) = f.compile().unwrap();
+        for (t, x) in &pts {
+            let p = Terminals::of_state(*t, x, &ctx());
+            let mut tree = nalgebra::Vector3::zeros();
+            for (n, c) in nodes.iter().zip(&coefs) {
+                let v = n.eval(&p, &params).vector();
+                tree += nalgebra::Vector3::new(v[0], v[1], v[2]) * *c;
+            }
+            let scale = tree.norm().max(1e-30);
+            match (native.acceleration(*t, x), inproc.acceleration(*t, x)) {
+                (Ok(a), Ok(b)) => {
+                    let outside_zero = f.validity.outside == OutsidePolicy::Zero && b.norm() == 0.0;
+                    if !outside_zero {
+                        assert!((b - tree).norm() <= 1e-13 * scale, "{name} t={t}");
+                    }
+                    assert!((a - b).norm() <= 1e-13 * scale, "{name} t={t}: {a} vs {b}");
+                }
+                (Err(_), Err(_)) => assert_eq!(f.validity.outside, OutsidePolicy::Refuse),
+                (a, b) => panic!("{name} t={t}: plugin {a:?}, in-process {b:?}"),
+            }
+        }
+    }
+}
