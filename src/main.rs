@@ -1,5 +1,6 @@
 //! `arcwise`: the command-line shell over the `propagator` and `learned_forces`
 //! libraries. Argument parsing, progress display and reports live here; no physics.
+#![cfg_attr(not(test), deny(clippy::unwrap_used, clippy::expect_used))]
 
 pub mod commands;
 mod error;
