@@ -241,7 +241,8 @@ impl Learner<'_> {
                 let e = &r.estimates[nb + i];
                 e.value.abs() >= self.options.search.threshold * e.sigma
             });
-            let new_rms = self.predict_rms(&r, &nodes, held)?;
+            // A form that cannot be predicted with is no alternative: keep the search's.
+            let new_rms = self.predict_rms(&r, &nodes, held).unwrap_or(f64::INFINITY);
             if significant && new_rms <= best_rms * (1.0 + self.options.selection_tolerance) {
                 notes.push(format!(
                     "reported in the canonical form (R, T, N, vrel, v, r in that order; cos before sin): {}",
