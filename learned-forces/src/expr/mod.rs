@@ -194,7 +194,9 @@ impl Node {
     }
 
     /// The trees one direction swap away: one vector terminal (`R`, `T`, `N`, `vrel`, `v`,
-    /// `r`) replaced by another, or one `sin` turned into `cos` or back. On near-circular
+    /// `r`) replaced by another, one vector quotient (`vrel / norm(vrel)`) replaced by `R`,
+    /// `T` or `N`, or one
+    /// `sin` turned into `cos` or back. On near-circular
     /// orbits some of these are indistinguishable over an arc (a once-per-revolution
     /// radial term and the along-track one in quadrature change the orbit alike; `vrel`
     /// is nearly along `T`), so the learner tries them.
@@ -223,6 +225,15 @@ impl Node {
                 Cos(a) if pick == 0 => *self = Sin(a.clone()),
                 _ => {
                     let Some(i) = SWAPPABLE.iter().position(|n| n == self) else {
+                        // A vector over a scalar (e.g. `vrel / norm(vrel)`) may be a
+                        // unit direction in disguise: offer R, T and N in its place.
+                        if pick < 3
+                            && matches!(self, Div(..))
+                            && matches!(self.ty(), Ok(Ty::Vector))
+                        {
+                            *self = SWAPPABLE[pick].clone();
+                            return true;
+                        }
                         return false;
                     };
                     let others: Vec<&Node> = SWAPPABLE.iter().filter(|n| *n != self).collect();

@@ -158,6 +158,14 @@ fn direction_variants_swap_one_terminal_or_one_trig_function() {
         .map(|v| v.to_string())
         .collect();
     assert!(two.iter().any(|t| t == "cos(u) * R"));
+    // A compound direction may stand for a unit vector.
+    let c: Vec<String> = parse("cos(u) * (vrel / norm(vrel))")
+        .unwrap()
+        .direction_variants()
+        .iter()
+        .map(|v| v.to_string())
+        .collect();
+    assert!(c.iter().any(|t| t == "cos(u) * T"), "{c:?}");
     // Nothing to swap in a scalar-only factor times `sun`.
     assert!(parse("exp(-t / 100) * sun")
         .unwrap()
@@ -170,10 +178,14 @@ fn canonical_order_puts_radial_before_along_track_and_cos_before_sin() {
     use crate::learn::canonical_key;
     let key = |s: &str| canonical_key(&parse(s).unwrap());
     assert!(key("cos(u) * R") < key("sin(u) * T"));
+    // Radial before along-track whatever the phase.
+    assert!(key("sin(u) * R") < key("cos(u) * T"));
     assert!(key("sin(u) * R") < key("sin(u) * T"));
     assert!(key("cos(u) * T") < key("sin(u) * T"));
     assert!(key("sin(u) * T") < key("sin(u) * vrel"));
     assert!(key("exp(-t / k0) * T") < key("exp(-t / k0) * v"));
+    // The simpler form first.
+    assert!(key("cos(u) * T") < key("cos(u) * (vrel / norm(vrel))"));
     // Words that merely contain the letters are not terminals.
     assert!(key("norm(r) * T") != key("norm(v) * T"));
 }

@@ -202,7 +202,10 @@ impl Learner<'_> {
                     continue;
                 };
                 if cost - cost0 < EQUIVALENT_DCHI2 {
-                    alike.push(format!("`{v}` (Δχ² {:+.2})", cost - cost0));
+                    alike.push((
+                        canonical_key(&v),
+                        format!("`{v}` (Δχ² {:+.2})", cost - cost0),
+                    ));
                     let earliest = pick.as_ref().unwrap_or(&nodes[i]);
                     if canonical_key(&v) < canonical_key(earliest) {
                         pick = Some(v);
@@ -210,6 +213,13 @@ impl Learner<'_> {
                 }
             }
             if !alike.is_empty() {
+                // The canonical ones first: the form reported is among those listed.
+                alike.sort();
+                let more = alike.len().saturating_sub(4);
+                let mut alike: Vec<String> = alike.into_iter().take(4).map(|a| a.1).collect();
+                if more > 0 {
+                    alike.push(format!("{more} more"));
+                }
                 notes.push(format!(
                     "`{}` fits this arc as well as {}: the data cannot tell these forms apart",
                     sol.nodes[i],
@@ -548,37 +558,29 @@ pub fn linearize(
 /// Multimodel Inference, 2002; from memory).
 pub const EQUIVALENT_DCHI2: f64 = 2.0;
 
-/// Orders equivalent forms: `R`, `T`, `N`, `vrel`, `v`, `r` in that order, `cos` before
-/// `sin`; otherwise by text. A convention, so that the reported form does not depend on
-/// the noise; the report lists the others.
+/// Orders equivalent forms: the simplest first, then by the vector terminals in order of appearance (`R`,
+/// `T`, `N`, `vrel`, `v`, `r`), then by the trig functions (`cos` before `sin`), then by
+/// text. So a radial form wins over an along-track one whatever its phase. A
+/// convention, so that the reported form does not depend on the noise; the report lists
+/// the others.
 pub fn canonical_key(n: &Node) -> String {
-    let rank = |word: &str| match word {
-        "R" => Some('\u{1}'),
-        "T" => Some('\u{2}'),
-        "N" => Some('\u{3}'),
-        "vrel" => Some('\u{4}'),
-        "v" => Some('\u{5}'),
-        "r" => Some('\u{6}'),
-        "cos" => Some('\u{7}'),
-        "sin" => Some('\u{8}'),
-        _ => None,
-    };
     let text = n.to_string();
-    let mut key = String::new();
-    let mut word = String::new();
-    for c in text.chars().chain(std::iter::once(' ')) {
-        if c.is_ascii_alphanumeric() || c == '_' {
-            word.push(c);
-            continue;
+    let mut directions = String::new();
+    let mut trig = String::new();
+    for word in text.split(|c: char| !(c.is_ascii_alphanumeric() || c == '_')) {
+        match word {
+            "R" => directions.push('1'),
+            "T" => directions.push('2'),
+            "N" => directions.push('3'),
+            "vrel" => directions.push('4'),
+            "v" => directions.push('5'),
+            "r" => directions.push('6'),
+            "cos" => trig.push('1'),
+            "sin" => trig.push('2'),
+            _ => {}
         }
-        match rank(&word) {
-            Some(r) => key.push(r),
-            None => key.push_str(&word),
-        }
-        word.clear();
-        key.push(c);
     }
-    key
+    format!("{:06}|{directions}|{trig}|{text}", n.complexity())
 }
 
 /// Learns the missing force of `arc` under the known forces `make_model(epoch)` builds.
