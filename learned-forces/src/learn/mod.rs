@@ -658,9 +658,21 @@ pub fn learn(
     // Refine the most promising front members with the force in the dynamics, then
     // re-test each term's significance around the refined solution.
     let mut refined: Vec<(usize, Solution, FitResult, f64)> = Vec::new();
+    // "Most promising" by BIC (χ² + k ln m, k coefficients and constants): by χ² alone
+    // the most complex members always win, and a simpler one only a fraction of a χ²
+    // unit worse was never refined. The best fit by χ² is refined too.
+    let ln_m = (problem.rows().max(2) as f64).ln();
+    let bic = |s: &Solution| s.cost + (s.coefficients.len() + s.constants.len()) as f64 * ln_m;
     let mut order: Vec<usize> = (0..found.front.len()).collect();
-    order.sort_by(|&a, &b| found.front[a].cost.total_cmp(&found.front[b].cost));
+    order.sort_by(|&a, &b| bic(&found.front[a]).total_cmp(&bic(&found.front[b])));
     order.truncate(options.refine_top);
+    if let Some(best_fit) =
+        (0..found.front.len()).min_by(|&a, &b| found.front[a].cost.total_cmp(&found.front[b].cost))
+    {
+        if !order.contains(&best_fit) {
+            order.push(best_fit);
+        }
+    }
     order.sort();
     for idx in order {
         let mut sol = found.front[idx].clone();
