@@ -11,7 +11,7 @@ use nalgebra::Vector3;
 use propagator::force::two_body::TwoBody;
 use propagator::force::zonal::Zonal;
 use propagator::force::{Force, ForceError};
-use propagator::integrator::{Method, Settings};
+use propagator::integrator::Method;
 use propagator::plugin::loader::PluginForce;
 use propagator::propagation::{propagate, Options, Request, Silent};
 use propagator::{CentralBody, Epoch, ForceModel, StateVector};
@@ -267,15 +267,7 @@ fn bench(c: &mut Criterion) {
             with(Box::new(|m| m.with(f.force(&reference).unwrap()))),
         ),
     ];
-    let options = Options {
-        settings: Settings {
-            method: Method::Dp853,
-            rtol: 1e-10,
-            atol: 1e-10,
-            ..Settings::default()
-        },
-        ..Options::default()
-    };
+    let options = Options::with_method(Method::Dp853, 1e-10, 1e-10);
     for (label, model) in &models {
         g.bench_function(*label, |b| {
             b.iter(|| {

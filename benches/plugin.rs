@@ -5,7 +5,7 @@ use criterion::{criterion_group, criterion_main, Criterion};
 use drag_sail_plugin::DragSail;
 use propagator::force::two_body::TwoBody;
 use propagator::force::zonal::Zonal;
-use propagator::integrator::{Method, Settings};
+use propagator::integrator::Method;
 use propagator::plugin::loader::PluginForce;
 use propagator::propagation::{propagate, Options, Request, Silent};
 use propagator::{Epoch, Force, ForceModel, StateVector};
@@ -41,15 +41,7 @@ fn bench(c: &mut Criterion) {
     let a: f64 = 6378.1363 + 480.0;
     let v = (398_600.441_8 / a).sqrt();
     let x0 = StateVector::new(a, 0.0, 0.0, 0.0, v * 0.6, v * 0.8);
-    let options = Options {
-        settings: Settings {
-            method: Method::Dp853,
-            rtol: 1e-10,
-            atol: 1e-10,
-            ..Settings::default()
-        },
-        ..Options::default()
-    };
+    let options = Options::with_method(Method::Dp853, 1e-10, 1e-10);
     let req = Request {
         x0,
         t0_s: 0.0,

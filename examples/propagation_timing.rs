@@ -6,7 +6,7 @@ use propagator::atmosphere::Exponential;
 use propagator::force::drag::Drag;
 use propagator::force::two_body::TwoBody;
 use propagator::force::zonal::Zonal;
-use propagator::integrator::{Method, Settings};
+use propagator::integrator::Method;
 use propagator::propagation::{propagate, Options, Request, Silent};
 use propagator::{CentralBody, ForceModel, StateVector};
 use std::hint::black_box;
@@ -43,15 +43,7 @@ fn main() {
     let v = (body.mu_km3_s2 / a).sqrt();
     let i = 51.6f64.to_radians();
     let x0 = StateVector::new(a, 0.0, 0.0, 0.0, v * i.cos(), v * i.sin());
-    let options = Options {
-        settings: Settings {
-            method: Method::Dp853,
-            rtol: 1e-10,
-            atol: 1e-10,
-            ..Settings::default()
-        },
-        ..Options::default()
-    };
+    let options = Options::with_method(Method::Dp853, 1e-10, 1e-10);
     let req = Request {
         x0,
         t0_s: 0.0,

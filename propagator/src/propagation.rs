@@ -99,6 +99,22 @@ impl Default for Options {
     }
 }
 
+impl Options {
+    /// The defaults with `method` at relative and absolute tolerances `rtol`, `atol`
+    /// (km and km/s alike).
+    pub fn with_method(method: crate::integrator::Method, rtol: f64, atol: f64) -> Self {
+        Self {
+            settings: Settings {
+                method,
+                rtol,
+                atol,
+                ..Settings::default()
+            },
+            ..Self::default()
+        }
+    }
+}
+
 /// Why a propagation could not be done (as opposed to ending in a decay).
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum PropagationError {
