@@ -323,8 +323,20 @@ impl Node {
             Cos(a) => fold1(s(a), f64::cos, Cos),
             Exp(a) => fold1(s(a), f64::exp, Exp),
             Sqrt(a) => fold1(s(a), f64::sqrt, Sqrt),
-            Norm(a) => Norm(b(s(a))),
-            Dot(a, c) => Dot(b(s(a)), b(s(c))),
+            // R, T, N and sun are unit vectors, and R, T, N orthogonal, by construction.
+            Norm(a) => match s(a) {
+                UnitR | UnitT | UnitN | SunDir => Const(1.0),
+                x => Norm(b(x)),
+            },
+            Dot(a, c) => match (s(a), s(c)) {
+                (x, y) if x == y && matches!(x, UnitR | UnitT | UnitN | SunDir) => Const(1.0),
+                (x, y)
+                    if matches!(x, UnitR | UnitT | UnitN) && matches!(y, UnitR | UnitT | UnitN) =>
+                {
+                    Const(0.0)
+                }
+                (x, y) => Dot(b(x), b(y)),
+            },
             Cross(a, c) => Cross(b(s(a)), b(s(c))),
             Pow(a, n) => match (s(a), *n) {
                 (x, 1) => x,

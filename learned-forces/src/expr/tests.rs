@@ -189,3 +189,16 @@ fn canonical_order_puts_radial_before_along_track_and_cos_before_sin() {
     // Words that merely contain the letters are not terminals.
     assert!(key("norm(r) * T") != key("norm(v) * T"));
 }
+
+#[test]
+fn unit_vectors_simplify() {
+    for (text, want) in [
+        ("rho * norm(R)^2 * T", "rho * T"),
+        ("dot(T, T) * N", "N"),
+        ("norm(sun) * sun", "sun"),
+        ("(1 + dot(R, N)) * R", "R"),
+        ("dot(R, sun) * T", "dot(R, sun) * T"),
+    ] {
+        assert_eq!(parse(text).unwrap().simplify().to_string(), want, "{text}");
+    }
+}
