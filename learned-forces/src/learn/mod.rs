@@ -577,6 +577,33 @@ pub fn predicts_as_well(rms: f64, best: f64, held: &Arc, tolerance: f64) -> bool
         && chi2(rms) - chi2(best) <= HELD_OUT_DCHI2.max(0.01 * chi2(best))
 }
 
+/// Whether flipping the sign of constant `j` leaves every formula unchanged (to 1e-12)
+/// at a few epochs across `span_s` and the given states.
+fn sign_invisible(
+    nodes: &[Node],
+    constants: &[f64],
+    j: usize,
+    states: &[propagator::StateVector],
+    span_s: f64,
+    context: &Context,
+) -> bool {
+    let mut flipped = constants.to_vec();
+    flipped[j] = -flipped[j];
+    [0.0, 0.31, 0.5, 0.77, 1.0].iter().all(|f| {
+        states.iter().all(|x| {
+            let p = crate::expr::Terminals::of_state(f * span_s, x, context);
+            nodes.iter().all(|n| {
+                let (a, b) = (
+                    n.eval(&p, constants).vector(),
+                    n.eval(&p, &flipped).vector(),
+                );
+                let scale = a.iter().map(|v| v.abs()).fold(0.0, f64::max);
+                (0..3).all(|i| (a[i] - b[i]).abs() <= 1e-12 * scale)
+            })
+        })
+    })
+}
+
 /// Below this change of χ², two forms of a term (same number of coefficients) are
 /// equivalent on the arc: with equal parameter counts Δχ² is ΔAIC, and ΔAIC ≤ 2 is the
 /// usual "both substantially supported" line (Burnham & Anderson, Model Selection and
@@ -845,6 +872,17 @@ pub fn learn(
                 .join(" + ")
         )));
     }
+    // A constant whose sign the formulas cannot see (a width inside a square) is
+    // reported positive, as a reader expects of a width.
+    let span_s = arc.end().seconds_since(&arc.start());
+    for j in 0..constants.len() {
+        let ends = [full.x0, full.x_last];
+        if constants[j] < 0.0
+            && sign_invisible(&sol.nodes, &constants, j, &ends, span_s, &l.context)
+        {
+            constants[j] = -constants[j];
+        }
+    }
     let absorbed: Vec<f64> = sol
         .nodes
         .iter()
@@ -875,4 +913,49 @@ pub fn learn(
         notes,
         search_stats: stats,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::expr::parse;
+    use propagator::solar_system::CenturyClock;
+
+    #[test]
+    fn the_sign_of_a_width_inside_a_square_is_invisible_and_a_time_constant_is_not() {
+        let context = Context {
+            radius_km: 6378.1363,
+            rotation_rad_s: 7.292115e-5,
+            clock: CenturyClock { t0_centuries: 0.31 },
+        };
+        let states = [propagator::StateVector::new(
+            6878.0, 0.0, 0.0, 0.0, 4.8, 5.9,
+        )];
+        let bump = [parse("exp(-((t - k0) / k1)^2) * vrel").unwrap()];
+        assert!(sign_invisible(
+            &bump,
+            &[40000.0, -900.0],
+            1,
+            &states,
+            86400.0,
+            &context
+        ));
+        assert!(!sign_invisible(
+            &bump,
+            &[40000.0, -900.0],
+            0,
+            &states,
+            86400.0,
+            &context
+        ));
+        let decay = [parse("exp(-t / k0) * T").unwrap()];
+        assert!(!sign_invisible(
+            &decay,
+            &[-21600.0],
+            0,
+            &states,
+            86400.0,
+            &context
+        ));
+    }
 }
