@@ -1,7 +1,9 @@
 //! The bad-input table for the commands not covered elsewhere (build, learn, simulate,
 //! screen, rank, check): each case exits 2 with one clear line and leaves no output.
 
-use std::path::{Path, PathBuf};
+mod common;
+use common::write;
+use std::path::Path;
 use std::process::Command;
 
 fn arcwise_env(args: &[String], env: &[(&str, &str)]) -> (i32, String) {
@@ -17,12 +19,6 @@ fn arcwise_env(args: &[String], env: &[(&str, &str)]) -> (i32, String) {
     )
 }
 
-fn w(dir: &Path, name: &str, text: &str) -> PathBuf {
-    let p = dir.join(name);
-    std::fs::write(&p, text).unwrap();
-    p
-}
-
 #[test]
 fn every_command_refuses_bad_input_clearly() {
     let dir = tempfile::tempdir().unwrap();
@@ -30,14 +26,14 @@ fn every_command_refuses_bad_input_clearly() {
     let sc = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/scenarios/quiet.yaml");
     let good_learned =
         Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/learned_example.yaml");
-    let forces = w(d, "forces.yaml", "gravity: { zonal_degree: 2 }\n");
-    let arc = w(d, "arc.csv", "epoch_utc,x_km,y_km,z_km\n2031-05-04T00:00:00Z,7000,0,0\n2031-05-04T00:01:00Z,6990,400,0\n2031-05-04T00:02:00Z,6970,800,0\n");
-    let metres = w(
+    let forces = write(d, "forces.yaml", "gravity: { zonal_degree: 2 }\n");
+    let arc = write(d, "arc.csv", "epoch_utc,x_km,y_km,z_km\n2031-05-04T00:00:00Z,7000,0,0\n2031-05-04T00:01:00Z,6990,400,0\n2031-05-04T00:02:00Z,6970,800,0\n");
+    let metres = write(
         d,
         "m.csv",
         "epoch_utc,x_km,y_km,z_km\n2031-05-04T00:00:00Z,7000000,0,0\n",
     );
-    let tampered = w(
+    let tampered = write(
         d,
         "tampered.yaml",
         &std::fs::read_to_string(&good_learned).unwrap().replacen(
@@ -46,14 +42,14 @@ fn every_command_refuses_bad_input_clearly() {
             1,
         ),
     );
-    let state = w(
+    let state = write(
         d,
         "s.yaml",
         "epoch_utc: 2031-05-04T00:00:00Z\nr_km: [7000, 0, 0]\nv_km_s: [0, 7.5, 0]\n",
     );
-    let hyp_bad = w(d, "h.yaml", "hypotheses: [teleport]\n");
-    let empty = w(d, "empty.yaml", "");
-    let bad_track = w(
+    let hyp_bad = write(d, "h.yaml", "hypotheses: [teleport]\n");
+    let empty = write(d, "empty.yaml", "");
+    let bad_track = write(
         d,
         "sc.yaml",
         &std::fs::read_to_string(&sc)

@@ -1,24 +1,9 @@
 //! End-to-end `arcwise learn`: learned files written, used by `propagate`, identical for
 //! 1 and 2 threads, nothing learned on a quiet arc, tampered files refused.
 
+mod common;
+use common::{arcwise, s};
 use std::path::{Path, PathBuf};
-use std::process::Command;
-
-fn arcwise(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_arcwise"))
-        .args(args)
-        .output()
-        .unwrap();
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
-
-fn s(p: &Path) -> &str {
-    p.to_str().unwrap()
-}
 
 fn simulate(dir: &Path, name: &str) -> PathBuf {
     let out = dir.join(name);

@@ -1,8 +1,9 @@
 //! End-to-end tests of `arcwise propagate`: a good run, and every bad input giving a
 //! clear message, exit code 2 and no output file.
 
+mod common;
+use common::{arcwise, write};
 use std::path::{Path, PathBuf};
-use std::process::Command;
 
 const FORCES: &str = r#"
 central_body: { mu_km3_s2: 398600.4418, radius_km: 6378.1363, rotation_rad_s: 7.292115e-5 }
@@ -16,24 +17,6 @@ plugins: []
 "#;
 
 const STATE: &str = "epoch_utc: \"2031-05-04T12:00:00.000Z\"\nr_km: [6778.1363, 0.0, 0.0]\nv_km_s: [0.0, 4.7, 6.0]\n";
-
-fn write(dir: &Path, name: &str, text: &str) -> PathBuf {
-    let p = dir.join(name);
-    std::fs::write(&p, text).unwrap();
-    p
-}
-
-fn arcwise(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_arcwise"))
-        .args(args)
-        .output()
-        .unwrap();
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
 
 #[test]
 fn propagates_to_oem_and_csv_with_a_report() {

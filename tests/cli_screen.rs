@@ -1,23 +1,8 @@
 //! End-to-end `arcwise screen` on a constructed crossing, with states and an ephemeris.
 
+mod common;
+use common::{arcwise, s};
 use std::path::Path;
-use std::process::Command;
-
-fn arcwise(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_arcwise"))
-        .args(args)
-        .output()
-        .unwrap();
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
-
-fn s(p: &Path) -> &str {
-    p.to_str().unwrap()
-}
 
 #[test]
 fn screen_finds_the_crossing_and_says_it_is_a_screening_aid() {

@@ -1,20 +1,9 @@
 //! End-to-end: `arcwise simulate` on the shipped scenarios, then `arcwise fit`, and the
 //! bad inputs of both.
 
+mod common;
+use common::{arcwise, s};
 use std::path::{Path, PathBuf};
-use std::process::Command;
-
-fn arcwise(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_arcwise"))
-        .args(args)
-        .output()
-        .unwrap();
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
 
 fn scenario(name: &str) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR"))
@@ -26,10 +15,6 @@ fn with_field(line: &str, k: usize, value: &str) -> String {
     let mut f: Vec<&str> = line.split(',').collect();
     f[k] = value;
     f.join(",")
-}
-
-fn s(p: &Path) -> &str {
-    p.to_str().unwrap()
 }
 
 #[test]

@@ -19,6 +19,11 @@ pub fn arcwise(args: &[&str]) -> (i32, String, String) {
     )
 }
 
+/// A path as the `&str` an argument list wants (test paths are UTF-8).
+pub fn s(p: &Path) -> &str {
+    p.to_str().expect("test paths are UTF-8")
+}
+
 /// Writes `text` to `dir/name` and returns the path.
 pub fn write(dir: &Path, name: &str, text: &str) -> PathBuf {
     let p = dir.join(name);
