@@ -8,12 +8,10 @@ use learned_forces::expr::compiled::Program;
 use learned_forces::expr::random::vector_tree;
 use learned_forces::expr::{Context, Terminals};
 use learned_forces::learned_file::*;
-use propagator::force::two_body::TwoBody;
-use propagator::force::zonal::Zonal;
 use propagator::plugin::loader::PluginForce;
 use propagator::propagation::{output_grid, propagate, Options, Request, Silent};
 use propagator::solar_system::CenturyClock;
-use propagator::{Epoch, Force, ForceModel, StateVector};
+use propagator::{Epoch, Force, StateVector};
 use rand_chacha::ChaCha8Rng;
 use rand_core::SeedableRng;
 
@@ -307,19 +305,33 @@ fn propagation_with_the_native_plugin_reproduces_in_process_within_1e_9_km() {
     let reference = Epoch::parse_utc(EPOCH).unwrap();
     let dir = tempfile::tempdir().unwrap();
     let so = build(&f, "venting_like", dir.path()).unwrap();
-    let base = || {
-        ForceModel::new()
-            .with(TwoBody {
-                mu_km3_s2: 398_600.441_8,
-            })
-            .with(Zonal::egm96(398_600.441_8, 6378.1363, 2).unwrap())
+    // Both loaded the way a user names them: in forces.yaml `plugins:`.
+    let mut learned = f.clone();
+    std::fs::write(dir.path().join("learned.yaml"), learned.to_yaml()).unwrap();
+    let load = |name: &str, plugins: String| {
+        let path = dir.path().join(name);
+        std::fs::write(
+            &path,
+            format!("gravity: {{ zonal_degree: 2 }}\nplugins: [{plugins}]\n"),
+        )
+        .unwrap();
+        propagator::config::ForcesFile::load(&path)
+            .unwrap()
+            .build_with(&path, reference, &LearnedResolver)
+            .unwrap()
+            .model
     };
-    let mut a = base();
-    a.push(Box::new(
-        PluginForce::load(&so, &reference, Some(&f.checksum)).unwrap(),
-    ));
-    let mut b = base();
-    b.push(Box::new(f.force(&reference).unwrap()));
+    let a = load(
+        "native.yaml",
+        format!(
+            "{{ path: {}, source_checksum: \"{}\" }}",
+            so.display(),
+            f.checksum
+        ),
+    );
+    let b = load("in_process.yaml", "learned.yaml".into());
+    assert_eq!(a.names().len(), 3, "{:?}", a.names());
+    assert_eq!(b.names().len(), 3, "{:?}", b.names());
     let x0 = StateVector::new(6878.0, 0.0, 0.0, 0.0, 4.8, 5.9);
     let grid = output_grid(0.0, 86400.0, 3600.0);
     let req = Request {
