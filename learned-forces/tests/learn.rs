@@ -213,9 +213,11 @@ fn a_small_once_per_rev_radial_signal_is_explained() {
     // 3e-11 km/s² cos(u) radial on top of a ten times larger constant along-track push,
     // σ = 1 m, 2-day arc. Over such an arc a once-per-revolution radial acceleration, an
     // along-track one at the quadrature phase and an inertially fixed (Sun-pointing) one
-    // change the eccentricity vector alike (Gauss: f_T sin u ≡ −f_R/2 cos u in the
-    // secular terms); only a 2.5 cm short-periodic radial displacement separates them,
-    // well under 1σ of this arc. The learner finds one of them, notes that the others fit
+    // change the eccentricity vector alike (Gauss's equations: f_T sin u ≡ −f_R/2 cos u
+    // in the secular terms); after the initial state absorbs what it can, only a
+    // short-periodic displacement of about A/(5n²) ≈ 5 mm separates them (solving
+    // Hill's equations for both forcings; from memory), well under 1σ of this arc. The
+    // truth is the simulated scenario. The learner finds one of them, notes that the others fit
     // alike, and reports the canonical form (R before T): the radial term, whose
     // amplitude then has to match the truth.
     let (mut spec, path) = scenario("quiet.yaml");
@@ -278,7 +280,7 @@ fn a_small_once_per_rev_radial_signal_is_explained() {
 fn a_constant_radial_term_is_reported_as_absorbed_by_the_initial_state() {
     // A constant radial acceleration acts like a slightly different μ: the orbit with a
     // slightly different semi-major axis reproduces it (Hill's equations: a constant
-    // radial offset and a steady along-track drift). Its signature, once the six
+    // radial offset and a steady along-track drift; from memory). Its signature, once the six
     // initial-state directions are projected out, is almost nothing; a decaying
     // along-track push keeps its curvature (a quadratic along-track drift that no
     // initial state gives). The learner notes terms beyond 99.9 % absorbed.
