@@ -300,3 +300,51 @@ fn a_truth_term_written_as_a_formula_acts_like_the_built_in_one() {
         .to_string()
         .contains("k-constants"));
 }
+
+/// Fits a noise-free arc with every observation's σ set to `sigma_km`.
+fn fit_smooth(spec: &ScenarioSpec, path: &Path, sigma_km: f64) -> FitResult {
+    let mut spec = spec.clone();
+    spec.tracking.sigma_km = 0.0;
+    let sim = spec.simulate(path).unwrap();
+    let mut arc = sim.train.clone();
+    for o in &mut arc.observations {
+        o.sigma_km = sigma_km;
+    }
+    let forces = spec
+        .models(path)
+        .unwrap()
+        .known
+        .build(Path::new("forces"), arc.start())
+        .unwrap();
+    fit(&arc, forces.model, &FitOptions::default(), &mut QuietFit).unwrap()
+}
+
+#[test]
+fn a_smooth_ephemeris_is_quiet_and_structure_that_matters_still_speaks() {
+    // A perfect ephemeris (the quiet scenario without noise) stated at σ = 10 m: the
+    // residuals are integration error, far below σ, and correlated as any smooth series
+    // is. That must not be called an anomaly.
+    let (spec, path) = scenario("quiet.yaml");
+    let r = fit_smooth(&spec, &path, 0.01);
+    assert!(r.rms_km < 1e-5, "rms {} km", r.rms_km);
+    assert!(!r.verdict.anomaly, "{:?}", r.verdict.reasons);
+    assert!(r.verdict.structure.iter().all(|s| !s.counted));
+
+    // A real unmodelled push, noise-free: its smooth residual is what it is whatever σ
+    // says. At 0.2 σ the arc cannot show it; at 0.7 σ it must be flagged by structure
+    // alone (χ² is far below its dof there).
+    let (vent, path) = scenario("venting.yaml");
+    let probe = fit_smooth(&vent, &path, 0.01);
+    let rms_axis = probe.rms_km / 3f64.sqrt();
+    let below = fit_smooth(&vent, &path, rms_axis / 0.2);
+    assert!(!below.verdict.anomaly, "{:?}", below.verdict.reasons);
+    let at = fit_smooth(&vent, &path, rms_axis / 0.7);
+    eprintln!(
+        "smooth venting residual {:.1} m per axis; at 0.7σ: {:?}",
+        rms_axis * 1e3,
+        at.verdict.reasons
+    );
+    assert!(at.verdict.anomaly);
+    assert!(at.verdict.p_value > 0.01, "χ² alone would have flagged it");
+    assert!(at.verdict.reasons.iter().any(|m| m.contains("correlated")));
+}

@@ -103,6 +103,7 @@ pub fn fit_json(r: &FitResult) -> serde_json::Value {
         "alpha": v.alpha,
         "residual_structure": v.structure.iter().map(|s| serde_json::json!({
             "component": s.component, "ljung_box_q": s.q, "lags": s.lags, "p_value": s.p_value,
+            "rms_sigma": s.rms_sigma, "counted_in_verdict": s.counted,
         })).collect::<Vec<_>>(),
         "edited": r.edited,
         "edited_observations": r.residuals.iter().filter(|x| !x.used).map(|x| serde_json::json!({

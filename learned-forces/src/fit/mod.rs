@@ -50,6 +50,11 @@ pub struct FitOptions {
     pub alpha: f64,
     /// Lags of the Ljung–Box test.
     pub ljung_box_lags: usize,
+    /// A residual component's structure (Ljung–Box) counts towards the verdict only when
+    /// its RMS is at least this many stated σ: structure far below the stated noise is
+    /// no force the arc can show at that noise (a smooth operator ephemeris fitted to
+    /// 0.1 mm at σ = 10 m is always "correlated").
+    pub structure_floor_sigma: f64,
     /// Initial state at the first observation; estimated from the data when `None`.
     pub initial_state: Option<StateVector>,
     /// Altitude floor for the propagations, km.
@@ -75,6 +80,7 @@ impl Default for FitOptions {
             edit_sigma: 5.0,
             alpha: 1e-3,
             ljung_box_lags: 20,
+            structure_floor_sigma: 0.5,
             initial_state: None,
             altitude_floor_km: 80.0,
             extra: None,
@@ -135,6 +141,11 @@ pub struct StructureTest {
     pub lags: usize,
     /// p-value.
     pub p_value: f64,
+    /// RMS of the component's normalized residuals (residual / σ).
+    pub rms_sigma: f64,
+    /// Whether the test counted towards the verdict (`rms_sigma` at or above
+    /// [`FitOptions::structure_floor_sigma`]).
+    pub counted: bool,
 }
 
 /// The anomaly verdict and the numbers behind it.
@@ -738,9 +749,12 @@ fn verdict(z: &DVector<f64>, dof: usize, residuals: &[Residual], options: &FitOp
             .map(|r| r.rtn_km[c] / r.sigma_km)
             .collect();
         let (q, p) = stats::ljung_box(&series, options.ljung_box_lags);
-        if p < per_test {
+        let rms_sigma =
+            (series.iter().map(|v| v * v).sum::<f64>() / series.len().max(1) as f64).sqrt();
+        let counted = rms_sigma >= options.structure_floor_sigma;
+        if p < per_test && counted {
             reasons.push(format!(
-                "{name} residuals are correlated in time (Ljung–Box Q = {q:.1} on {} lags, p = {p:.2e})",
+                "{name} residuals are correlated in time (Ljung–Box Q = {q:.1} on {} lags, p = {p:.2e}; RMS {rms_sigma:.2} σ)",
                 options.ljung_box_lags
             ));
         }
@@ -749,6 +763,8 @@ fn verdict(z: &DVector<f64>, dof: usize, residuals: &[Residual], options: &FitOp
             q,
             lags: options.ljung_box_lags,
             p_value: p,
+            rms_sigma,
+            counted,
         });
     }
     Verdict {
