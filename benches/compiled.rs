@@ -84,6 +84,7 @@ fn file() -> LearnedFile {
             r_km: [7000.0, 0.0, 0.0],
             v_km_s: [0.0, 7.5, 0.0],
         },
+        state_at_end_known_forces: None,
         notes: vec![],
         checksum: String::new(),
     };

@@ -6,34 +6,10 @@
 
 use learned_forces::arc::{Arc, ArcDefaults};
 use learned_forces::learned_file::LearnedFile;
+use learned_forces::next_arc::{noise_rms_km, predict, GateRule};
 use propagator::config::ForcesFile;
-use propagator::propagation::{propagate, Options, Request, Silent};
-use propagator::{Epoch, ForceModel, StateVector, TimeAxis};
 use std::path::Path;
 use std::process::ExitCode;
-
-fn rms(model: &ForceModel, x0: StateVector, axis: &TimeAxis, arc: &Arc) -> Result<f64, String> {
-    let times: Vec<f64> = arc
-        .observations
-        .iter()
-        .map(|o| axis.seconds(&o.epoch))
-        .collect();
-    let req = Request {
-        x0,
-        t0_s: 0.0,
-        t_end_s: *times.last().ok_or("empty arc")?,
-        output_times_s: &times,
-        stop_times_s: &[],
-    };
-    let p = propagate(model, &req, &Options::default(), &mut Silent).map_err(|e| e.to_string())?;
-    let ss: f64 = p
-        .samples
-        .iter()
-        .zip(&arc.observations)
-        .map(|((_, x), o)| (o.r_km - x.fixed_rows::<3>(0)).norm_squared())
-        .sum();
-    Ok((ss / times.len() as f64).sqrt())
-}
 
 fn run(args: &[String]) -> Result<bool, String> {
     let [learned, forces, next, max] = args else {
@@ -44,19 +20,16 @@ fn run(args: &[String]) -> Result<bool, String> {
     let spec = ForcesFile::load(Path::new(forces)).map_err(|e| e.to_string())?;
     let arc = Arc::load(Path::new(next), ArcDefaults::default(), &spec.central_body)
         .map_err(|e| e.to_string())?;
-    let s = &file.state_at_end;
-    let epoch = Epoch::parse_utc(&s.epoch_utc).map_err(|e| e.to_string())?;
-    let x0 = StateVector::new(
-        s.r_km[0],
-        s.r_km[1],
-        s.r_km[2],
-        s.v_km_s[0],
-        s.v_km_s[1],
-        s.v_km_s[2],
-    );
-    let axis = TimeAxis::new(epoch);
+    // The learned prediction starts from the fit with the learned force; the baseline
+    // from the known-forces fit of the same training arc.
+    let (epoch, x0) = file.state_at_end.state("state_at_end")?;
+    let (known_epoch, known_x0) = file
+        .state_at_end_known_forces
+        .as_ref()
+        .ok_or("the learned file has no known-forces end state; run learn again")?
+        .state("state_at_end_known_forces")?;
     let base = spec
-        .build(Path::new(forces), epoch)
+        .build(Path::new(forces), known_epoch)
         .map_err(|e| e.to_string())?
         .model;
     let mut corrected = spec
@@ -64,16 +37,22 @@ fn run(args: &[String]) -> Result<bool, String> {
         .map_err(|e| e.to_string())?
         .model;
     corrected.push(Box::new(file.force(&epoch)?));
-    let (rb, rl) = (
-        rms(&base, x0, &axis, &arc)?,
-        rms(&corrected, x0, &axis, &arc)?,
-    );
+    let rb = predict(&base, &known_epoch, known_x0, &arc)?.rms_km;
+    let rl = predict(&corrected, &epoch, x0, &arc)?.rms_km;
+    let gate = GateRule {
+        max_rms_km: Some(max),
+        ..GateRule::default()
+    }
+    .judge(rl, rb, noise_rms_km(&arc));
     println!(
-        "next arc RMS: {:.2} m with the learned force, {:.2} m without",
+        "next arc RMS: {:.2} m with the learned force, {:.2} m with the known forces only",
         rl * 1e3,
         rb * 1e3
     );
-    Ok(rl <= max)
+    for r in &gate.reasons {
+        println!("  {r}");
+    }
+    Ok(gate.passed)
 }
 
 fn main() -> ExitCode {

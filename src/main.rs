@@ -75,7 +75,12 @@ fn main() -> ExitCode {
             return ExitCode::from(code);
         }
     };
-    match dispatch(cli.command) {
+    let result = dispatch(cli.command);
+    // Each warning of the run once, whatever the outcome (reports carry them too).
+    for w in propagator::notice::all() {
+        eprintln!("arcwise: warning: {w}");
+    }
+    match result {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
             eprintln!("arcwise: error: {}", e.message);

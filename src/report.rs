@@ -4,9 +4,14 @@ use crate::error::CliError;
 use propagator::ephemeris::write_atomically;
 use std::path::Path;
 
-/// Writes `value` as pretty JSON to `path` (temporary file + rename).
+/// Writes `value` as pretty JSON to `path` (temporary file + rename), with the run's
+/// warnings so far (`warnings`, e.g. a learned force used outside its validity window).
 pub fn write_report(path: &Path, value: &serde_json::Value) -> Result<(), CliError> {
-    let text = serde_json::to_string_pretty(value).map_err(|e| {
+    let mut value = value.clone();
+    if let Some(map) = value.as_object_mut() {
+        map.insert("warnings".into(), propagator::notice::all().into());
+    }
+    let text = serde_json::to_string_pretty(&value).map_err(|e| {
         CliError::input(format!("{}: cannot encode the report: {e}", path.display()))
     })?;
     write_atomically(path, format!("{text}\n").as_bytes()).map_err(CliError::input)

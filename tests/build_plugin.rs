@@ -220,6 +220,7 @@ fn file(terms: Vec<(String, f64)>, outside: OutsidePolicy) -> LearnedFile {
             r_km: [7000.0, 0.0, 0.0],
             v_km_s: [0.0, 7.5, 0.0],
         },
+        state_at_end_known_forces: None,
         notes: vec![],
         checksum: String::new(),
     };
@@ -275,6 +276,17 @@ fn native_plugin_agrees_with_in_process_inside_and_outside_the_window() {
                 (Err(_), Err(_)) => assert_eq!(policy, OutsidePolicy::Refuse),
                 (a, b) => panic!("{policy:?} t={t}: plugin {a:?}, in-process {b:?}"),
             }
+        }
+        // `warn`: both the native plugin (watched by the host) and the in-process force
+        // record that they were used outside (the CLI prints and reports it once).
+        let warned = |prefix: &str| {
+            propagator::notice::all()
+                .iter()
+                .any(|w| w.starts_with(prefix) && w.contains("outside its validity window"))
+        };
+        if policy == OutsidePolicy::Warn {
+            assert!(warned("plugin `random`"), "{:?}", propagator::notice::all());
+            assert!(warned("learned:"), "{:?}", propagator::notice::all());
         }
         // Non-finite inputs are refused by both, whatever the policy (never a zero).
         let x = StateVector::new(7000.0, 0.0, 0.0, 0.0, 7.5, 0.1);

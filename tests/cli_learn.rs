@@ -45,8 +45,11 @@ fn venting_learned_file_is_deterministic_and_usable() {
         assert!(stdout.contains("learned:"), "{stdout}");
         let r: serde_json::Value =
             serde_json::from_str(&std::fs::read_to_string(&rep).unwrap()).unwrap();
+        assert_eq!(r["outcome"], "explained", "{stdout}");
+        assert!(stdout.contains("outcome: explained"), "{stdout}");
         for key in [
-            "verdict",
+            "verdict_known_forces",
+            "verdict_learned",
             "model",
             "rms_km_before",
             "rms_km_after",
@@ -103,6 +106,39 @@ fn venting_learned_file_is_deterministic_and_usable() {
     ]);
     assert_eq!(code, 0, "{stderr}");
     assert!(stdout.contains("learned:"), "{stdout}");
+    // Inside the validity window (the arc plus one arc span): no warning.
+    assert!(!stderr.contains("validity window"), "{stderr}");
+    // Three days past the window with `outside: warn`: one warning on stderr, and the
+    // report records it.
+    let prep = v.join("p.json");
+    let (code, _, stderr) = arcwise(&[
+        "propagate",
+        "--forces",
+        s(&f2),
+        "--state",
+        s(&state),
+        "--to",
+        "2031-05-09T00:00:00Z",
+        "--step",
+        "3600",
+        "--out",
+        s(&v.join("p-late.csv")),
+        "--report",
+        s(&prep),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    assert_eq!(
+        stderr.matches("outside its validity window").count(),
+        1,
+        "{stderr}"
+    );
+    let r: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&prep).unwrap()).unwrap();
+    let warnings = r["warnings"].as_array().unwrap();
+    assert!(
+        warnings.len() == 1 && warnings[0].as_str().unwrap().contains("learned:train"),
+        "{warnings:?}"
+    );
     // check: passes with the learned force (exit 0), fails a tight threshold (exit 1),
     // refuses bad input (exit 2).
     let rep = v.join("check.json");
@@ -121,7 +157,14 @@ fn venting_learned_file_is_deterministic_and_usable() {
     let r: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(&rep).unwrap()).unwrap();
     assert_eq!(r["passed"], true);
-    assert!(r["rms_km_learned"].as_f64().unwrap() < r["rms_km_base"].as_f64().unwrap());
+    // The baseline is the known forces' own fit of the training arc: on this arc it
+    // predicts the next 12 h about 1 km off (the learned end state gave it ~30 m).
+    let (learned_rms, base_rms) = (
+        r["rms_km_learned"].as_f64().unwrap(),
+        r["rms_km_base"].as_f64().unwrap(),
+    );
+    assert!(base_rms > 0.3, "baseline {base_rms} km");
+    assert!(learned_rms * 10.0 < base_rms, "{learned_rms} vs {base_rms}");
     let (code, _, _) = arcwise(&[
         "check",
         "--learned",
@@ -145,7 +188,7 @@ fn venting_learned_file_is_deterministic_and_usable() {
     ]);
     assert_eq!(code, 2, "{stderr}");
     assert!(
-        stderr.contains("before the learned file's end state"),
+        stderr.contains("give the arc that follows the training arc"),
         "{stderr}"
     );
     // A tampered learned file is refused, naming the checksum.

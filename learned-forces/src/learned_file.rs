@@ -123,6 +123,28 @@ pub struct StateEntry {
     pub v_km_s: [f64; 3],
 }
 
+impl StateEntry {
+    /// A state entry from an epoch and an ECI state.
+    pub fn new(epoch: &Epoch, x: &StateVector) -> Self {
+        Self {
+            epoch_utc: epoch.to_utc_string(),
+            r_km: [x[0], x[1], x[2]],
+            v_km_s: [x[3], x[4], x[5]],
+        }
+    }
+
+    /// The epoch and ECI state, checked finite; `field` names the entry in errors.
+    pub fn state(&self, field: &str) -> Result<(Epoch, StateVector), String> {
+        let epoch =
+            Epoch::parse_utc(&self.epoch_utc).map_err(|e| format!("{field}.epoch_utc: {e}"))?;
+        if !self.r_km.iter().chain(&self.v_km_s).all(|x| x.is_finite()) {
+            return Err(format!("{field}: r_km and v_km_s must be finite"));
+        }
+        let (r, v) = (self.r_km, self.v_km_s);
+        Ok((epoch, StateVector::new(r[0], r[1], r[2], v[0], v[1], v[2])))
+    }
+}
+
 /// Earth constants the terminals use.
 #[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -159,6 +181,11 @@ pub struct LearnedFile {
     pub provenance: ProvenanceEntry,
     /// Fitted state at the end of the training arc (with the learned force).
     pub state_at_end: StateEntry,
+    /// Fitted state at the end of the training arc with the known forces only: where
+    /// `check`'s baseline prediction starts. Absent in files written before it existed
+    /// (their checksum does not cover it).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub state_at_end_known_forces: Option<StateEntry>,
     /// Notes for the reader (degenerate terms, verdicts).
     #[serde(default)]
     pub notes: Vec<String>,
@@ -325,10 +352,9 @@ impl LearnedFile {
                 return Err(format!("{name} = {x}: must be finite and ≥ 0"));
             }
         }
-        let s = &self.state_at_end;
-        Epoch::parse_utc(&s.epoch_utc).map_err(|e| format!("state_at_end.epoch_utc: {e}"))?;
-        if !s.r_km.iter().chain(&s.v_km_s).all(|x| x.is_finite()) {
-            return Err("state_at_end: r_km and v_km_s must be finite".into());
+        self.state_at_end.state("state_at_end")?;
+        if let Some(k) = &self.state_at_end_known_forces {
+            k.state("state_at_end_known_forces")?;
         }
         Ok(())
     }
@@ -362,6 +388,7 @@ impl LearnedFile {
                 self.validity.max_altitude_km + self.validity.altitude_margin_km,
             ),
             policy: self.validity.outside,
+            epoch,
             outside_seen: AtomicBool::new(false),
         })
     }
@@ -383,6 +410,8 @@ pub struct LearnedForce {
     pub altitude_km: (f64, f64),
     /// Outside policy.
     pub policy: OutsidePolicy,
+    /// Formula time zero (the file's `epoch_utc`).
+    epoch: Epoch,
     outside_seen: AtomicBool,
 }
 
@@ -390,6 +419,19 @@ impl LearnedForce {
     /// Whether a `warn` force was evaluated outside its window at least once.
     pub fn was_used_outside(&self) -> bool {
         self.outside_seen.load(Ordering::Relaxed)
+    }
+
+    /// The warning recorded (once per run) when a `warn` force is used outside.
+    fn outside_warning(&self) -> String {
+        let utc = |s: f64| self.epoch.plus_seconds(s).to_utc_string();
+        format!(
+            "{} was used outside its validity window ({} to {}, {:.0} to {:.0} km altitude): the force there is an extrapolation of the training arc",
+            self.name,
+            utc(self.window_s.0),
+            utc(self.window_s.1),
+            self.altitude_km.0,
+            self.altitude_km.1
+        )
     }
 
     fn inside(&self, tf: f64, x: &StateVector) -> bool {
@@ -415,7 +457,9 @@ impl LearnedForce {
         }
         match self.policy {
             OutsidePolicy::Warn => {
-                self.outside_seen.store(true, Ordering::Relaxed);
+                if !self.outside_seen.swap(true, Ordering::Relaxed) {
+                    propagator::notice::warn_once(self.outside_warning());
+                }
                 Ok(true)
             }
             OutsidePolicy::Zero => Ok(false),

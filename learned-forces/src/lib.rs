@@ -15,3 +15,4 @@ pub use propagator;
 pub mod expr;
 pub mod learn;
 pub mod learned_file;
+pub mod next_arc;

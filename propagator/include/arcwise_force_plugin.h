@@ -52,7 +52,11 @@ uint32_t arcwise_plugin_abi_version(void);
  *   "source_checksum"      string ("sha256:<hex>") of the learned-force file it was
  *                          compiled from, or null for a hand-written plugin
  *   "validity"             null, or { "start_utc", "end_utc", "min_altitude_km",
- *                          "max_altitude_km", "outside": "warn" | "zero" | "refuse" }
+ *                          "max_altitude_km", "outside": "warn" | "zero" | "refuse",
+ *                          optional "time_margin_s", "altitude_margin_km" (default 0),
+ *                          optional "radius_km" of the altitudes (default 6378.1363) }.
+ *                          With "warn" the host checks the window itself and warns
+ *                          its user once when the plugin is used outside it.
  *   "units"                { "time": "s", "state": "km, km/s", "acceleration": "km/s^2" }
  */
 const char *arcwise_plugin_metadata(void);

@@ -23,6 +23,7 @@ pub mod ephemeris;
 pub mod force;
 pub mod frames;
 pub mod integrator;
+pub mod notice;
 pub mod plugin;
 pub mod propagation;
 pub mod screening;

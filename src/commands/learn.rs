@@ -2,7 +2,7 @@
 //! plots.
 
 use crate::commands::fit::{fit_json, parse_estimate, plot_residuals};
-use crate::error::CliError;
+use crate::error::{CliError, EXIT_CHECK_FAILED};
 use crate::plot::{write_panels, Panel, Series};
 use crate::progress::{FitProgress, SearchProgress};
 use crate::report::write_report;
@@ -11,7 +11,7 @@ use learned_forces::arc::{Arc, ArcDefaults};
 use learned_forces::expr::Context;
 use learned_forces::fit::FitOptions;
 use learned_forces::learn::search::SearchOptions;
-use learned_forces::learn::{learn, model_text, trajectory, LearnOptions, Learned};
+use learned_forces::learn::{learn, model_text, trajectory, LearnOptions, Learned, Outcome};
 use learned_forces::learned_file::{
     sha256_hex, ConstantEntry, EarthEntry, FitEntry, LearnedFile, LearnedResolver, OutsidePolicy,
     ProvenanceEntry, StateEntry, TermEntry, ValidityEntry, FORMAT_VERSION,
@@ -176,7 +176,19 @@ pub fn run(a: Args) -> Result<(), CliError> {
     if let Some(path) = &a.report {
         write_report(path, &report(&a, &learned, &file))?;
     }
-    Ok(())
+    let outcome = learned.outcome();
+    if outcome.is_explained() {
+        Ok(())
+    } else {
+        Err(CliError {
+            message: format!(
+                "the arc is anomalous and the learned model does not explain it ({}); {} was written for inspection, not for use",
+                outcome.as_str(),
+                a.out.display()
+            ),
+            code: EXIT_CHECK_FAILED,
+        })
+    }
 }
 
 fn learned_file(
@@ -274,11 +286,8 @@ fn learned_file(
             seed: a.seed,
             tool_version: env!("CARGO_PKG_VERSION").into(),
         },
-        state_at_end: StateEntry {
-            epoch_utc: end.0.to_utc_string(),
-            r_km: [end.1[0], end.1[1], end.1[2]],
-            v_km_s: [end.1[3], end.1[4], end.1[5]],
-        },
+        state_at_end: StateEntry::new(end.0, &end.1),
+        state_at_end_known_forces: Some(StateEntry::new(&l.base.epoch_last, &l.base.x_last)),
         notes: l.notes.clone(),
         checksum: String::new(),
     })
@@ -333,7 +342,23 @@ fn summarize(l: &Learned, out: &Path) {
     for n in &l.notes {
         println!("note: {n}");
     }
+    println!("outcome: {}", outcome_sentence(l));
     println!("wrote {}", out.display());
+}
+
+/// The outcome in one plain sentence.
+fn outcome_sentence(l: &Learned) -> String {
+    let o = l.outcome();
+    let detail = match o {
+        Outcome::NoAnomaly => "the known forces explain the arc; nothing was learned".to_string(),
+        Outcome::Explained => "the learned model explains the arc (it passes the anomaly test the known forces failed)".to_string(),
+        Outcome::NotExplained => format!(
+            "NOT EXPLAINED: with the learned model the arc still fails the anomaly test ({})",
+            l.chosen.as_ref().map(|c| c.fit.verdict.reasons.join("; ")).unwrap_or_default()
+        ),
+        Outcome::NothingFound => "NOT EXPLAINED: the arc is anomalous and no candidate earned its place".to_string(),
+    };
+    format!("{} — {detail}", o.as_str())
 }
 
 fn report(a: &Args, l: &Learned, file: &LearnedFile) -> serde_json::Value {
@@ -346,7 +371,13 @@ fn report(a: &Args, l: &Learned, file: &LearnedFile) -> serde_json::Value {
         "learned_file": a.out.display().to_string(),
         "checksum": file.checksum,
         "seed": a.seed,
-        "verdict": if l.base.verdict.anomaly { "anomaly" } else { "no_anomaly" },
+        // `outcome`: no_anomaly | explained | not_explained | nothing_found (the verdict of
+        // the model written, not of the base fit); `verdict_known_forces` is the base fit's.
+        "outcome": l.outcome().as_str(),
+        "explained": l.outcome().is_explained(),
+        "outcome_sentence": outcome_sentence(l),
+        "verdict_known_forces": if l.base.verdict.anomaly { "anomaly" } else { "no_anomaly" },
+        "verdict_learned": chosen.map(|c| if c.fit.verdict.anomaly { "anomaly" } else { "no_anomaly" }),
         "base_fit": fit_json(&l.base),
         "model": chosen.map(|c| model_text(&c.nodes, &c.coefficients, &c.constants)),
         // `absorbed_by_initial_state`: the share of the term's signature on this arc that

@@ -95,6 +95,9 @@ pub fn metadata(file: &LearnedFile, name: &str) -> Metadata {
                 OutsidePolicy::Refuse => "refuse",
             }
             .into(),
+            time_margin_s: file.validity.time_margin_s,
+            altitude_margin_km: file.validity.altitude_margin_km,
+            radius_km: Some(file.earth.radius_km),
         }),
         units: Units::default(),
     }

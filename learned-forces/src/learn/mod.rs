@@ -103,6 +103,58 @@ pub struct Learned {
     pub search_stats: Option<(usize, usize, f64)>,
 }
 
+/// What learning concluded about the arc.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Outcome {
+    /// The known forces explain the arc: nothing was learned.
+    NoAnomaly,
+    /// The arc is anomalous and the learned model passes the same anomaly test.
+    Explained,
+    /// A model was learned but the arc still fails the anomaly test with it.
+    NotExplained,
+    /// The arc is anomalous and no candidate earned its place.
+    NothingFound,
+}
+
+impl Outcome {
+    /// The report's name of the outcome.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Outcome::NoAnomaly => "no_anomaly",
+            Outcome::Explained => "explained",
+            Outcome::NotExplained => "not_explained",
+            Outcome::NothingFound => "nothing_found",
+        }
+    }
+
+    /// Whether the arc ends up explained (by the known forces or the learned model).
+    pub fn is_explained(self) -> bool {
+        matches!(self, Outcome::NoAnomaly | Outcome::Explained)
+    }
+}
+
+impl Outcome {
+    /// From the base fit's verdict and the learned model's (`None`: nothing learned).
+    pub fn from_verdicts(base_anomaly: bool, learned_anomaly: Option<bool>) -> Outcome {
+        match (base_anomaly, learned_anomaly) {
+            (false, _) => Outcome::NoAnomaly,
+            (true, Some(false)) => Outcome::Explained,
+            (true, Some(true)) => Outcome::NotExplained,
+            (true, None) => Outcome::NothingFound,
+        }
+    }
+}
+
+impl Learned {
+    /// The outcome: the verdict of the model that was written, not of the base fit.
+    pub fn outcome(&self) -> Outcome {
+        Outcome::from_verdicts(
+            self.base.verdict.anomaly,
+            self.chosen.as_ref().map(|c| c.fit.verdict.anomaly),
+        )
+    }
+}
+
 /// Why learning could not be done.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum LearnError {
@@ -920,6 +972,20 @@ mod tests {
     use super::*;
     use crate::expr::parse;
     use propagator::solar_system::CenturyClock;
+
+    #[test]
+    fn the_outcome_is_the_written_models_verdict_not_the_base_fits() {
+        assert_eq!(Outcome::from_verdicts(false, None), Outcome::NoAnomaly);
+        assert_eq!(
+            Outcome::from_verdicts(true, Some(false)),
+            Outcome::Explained
+        );
+        // A learned model that still fails the anomaly test must not read as success.
+        let o = Outcome::from_verdicts(true, Some(true));
+        assert_eq!(o, Outcome::NotExplained);
+        assert!(!o.is_explained());
+        assert!(!Outcome::from_verdicts(true, None).is_explained());
+    }
 
     #[test]
     fn the_sign_of_a_width_inside_a_square_is_invisible_and_a_time_constant_is_not() {

@@ -8,7 +8,7 @@
 //!
 //! A plugin is native code and runs with the rights of the user who loads it.
 
-use super::{status_text, Metadata, ABI_VERSION};
+use super::{status_text, Metadata, Validity, ABI_VERSION};
 use crate::force::{Force, ForceError};
 use crate::state::StateVector;
 use crate::time::Epoch;
@@ -16,6 +16,7 @@ use libloading::Library;
 use nalgebra::Vector3;
 use std::ffi::{c_char, CStr};
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::Arc;
 
 type AbiVersionFn = unsafe extern "C" fn() -> u32;
@@ -51,8 +52,82 @@ pub struct PluginForce {
     partials: Option<PartialsFn>,
     /// Plugin time = our `t_s` + this offset, s.
     offset_s: f64,
+    /// For an `outside: warn` plugin: the window the host watches.
+    watch: Option<Watch>,
     // Declared last: dropped after the function pointers above are no longer usable.
     _library: Arc<Library>,
+}
+
+/// The validity window of an `outside: warn` plugin, watched by the host so the user
+/// hears (once) that the plugin was used outside it.
+struct Watch {
+    /// Plugin times, s.
+    window_s: (f64, f64),
+    /// Altitudes, km.
+    altitude_km: (f64, f64),
+    radius_km: f64,
+    seen: AtomicBool,
+    warning: String,
+}
+
+impl Watch {
+    fn new(v: &Validity, plugin_ref: &Epoch, name: &str, path: &Path) -> Result<Self, PluginError> {
+        let at = |s: &str, field: &str| {
+            Epoch::parse_utc(s)
+                .map(|e| e.seconds_since(plugin_ref))
+                .map_err(|e| refuse(path, format!("metadata validity.{field}: {e}")))
+        };
+        let window_s = (
+            at(&v.start_utc, "start_utc")?,
+            at(&v.end_utc, "end_utc")? + v.time_margin_s,
+        );
+        let altitude_km = (
+            v.min_altitude_km - v.altitude_margin_km,
+            v.max_altitude_km + v.altitude_margin_km,
+        );
+        let radius_km = v.radius_km.unwrap_or(6378.1363);
+        let numbers = [
+            window_s.0,
+            window_s.1,
+            altitude_km.0,
+            altitude_km.1,
+            radius_km,
+        ];
+        if !numbers.iter().all(|x| x.is_finite())
+            || window_s.1 < window_s.0
+            || altitude_km.1 < altitude_km.0
+        {
+            return Err(refuse(
+                path,
+                "metadata validity: the window must be finite and ordered",
+            ));
+        }
+        Ok(Self {
+            window_s,
+            altitude_km,
+            radius_km,
+            seen: AtomicBool::new(false),
+            warning: format!(
+                "plugin `{name}` ({}) was used outside its validity window ({} to {} plus {} s, {:.0} to {:.0} km altitude): the force there is an extrapolation",
+                path.display(), v.start_utc, v.end_utc, v.time_margin_s, altitude_km.0, altitude_km.1
+            ),
+        })
+    }
+
+    /// Records the warning the first time `(t, x)` (plugin time) is outside.
+    fn observe(&self, t: f64, x: &StateVector) {
+        if self.seen.load(Ordering::Relaxed) {
+            return;
+        }
+        let h = x.fixed_rows::<3>(0).norm() - self.radius_km;
+        let inside = t >= self.window_s.0
+            && t <= self.window_s.1
+            && h >= self.altitude_km.0
+            && h <= self.altitude_km.1;
+        if !inside && !self.seen.swap(true, Ordering::Relaxed) {
+            crate::notice::warn_once(self.warning.clone());
+        }
+    }
 }
 
 impl std::fmt::Debug for PluginForce {
@@ -204,10 +279,17 @@ impl PluginForce {
                 None => return Err(refuse(path, format!("has no source checksum, expected {want}"))),
             }
         }
+        let watch = match &metadata.validity {
+            Some(v) if v.outside == "warn" => {
+                Some(Watch::new(v, &plugin_ref, &metadata.name, path)?)
+            }
+            _ => None,
+        };
         Ok(Self {
             name: format!("plugin:{}", metadata.name),
             path: path.to_path_buf(),
             offset_s: reference.seconds_since(&plugin_ref),
+            watch,
             metadata,
             acceleration,
             batch,
@@ -295,6 +377,9 @@ impl Force for PluginForce {
     }
 
     fn acceleration(&self, t_s: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
+        if let Some(w) = &self.watch {
+            w.observe(t_s + self.offset_s, x);
+        }
         let mut out = [0.0f64; 3];
         // SAFETY: 6 readable and 3 writable doubles, as the ABI requires; the library
         // stays loaded while `self` lives.

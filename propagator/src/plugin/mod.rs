@@ -81,6 +81,16 @@ pub struct Validity {
     pub max_altitude_km: f64,
     /// What the plugin does outside: `warn`, `zero` or `refuse`.
     pub outside: String,
+    /// Seconds after `end_utc` still inside (optional, default 0).
+    #[serde(default)]
+    pub time_margin_s: f64,
+    /// Kilometres below the lowest and above the highest altitude still inside
+    /// (optional, default 0).
+    #[serde(default)]
+    pub altitude_margin_km: f64,
+    /// Earth radius of the altitudes, km (optional, default 6378.1363).
+    #[serde(default)]
+    pub radius_km: Option<f64>,
 }
 
 /// The units block of the metadata.
