@@ -184,7 +184,9 @@ pub unsafe extern "C" fn arcwise_plugin_acceleration(t: f64, s: *const f64, out:
 
 fn bench(c: &mut Criterion) {
     let f = file();
-    let dir = std::env::temp_dir().join(format!("arcwise-bench-plugin-{}", std::process::id()));
+    // A private, freshly created folder (never a predictable name in the shared temp dir).
+    let scratch = tempfile::tempdir().expect("temp dir");
+    let dir = scratch.path().join("crate");
     let so = build(&f, "bench", &dir).expect("plugin build");
     let reference = Epoch::parse_utc(EPOCH).unwrap();
     let native = PluginForce::load(&so, &reference, Some(&f.checksum)).unwrap();

@@ -4,6 +4,7 @@
 
 pub mod commands;
 mod error;
+mod paths;
 mod plot;
 mod progress;
 mod report;
@@ -66,6 +67,12 @@ pub fn run_words(words: &[String]) -> Result<(), CliError> {
 }
 
 fn main() -> ExitCode {
+    // SIGINT/SIGTERM: remove what the run is in the middle of writing (temporary files,
+    // build folders), then exit 130 as a shell expects after an interrupt.
+    let _ = ctrlc::set_handler(|| {
+        propagator::cleanup::remove_all();
+        std::process::exit(130);
+    });
     let cli = match Cli::try_parse() {
         Ok(c) => c,
         Err(e) => {
@@ -76,6 +83,11 @@ fn main() -> ExitCode {
         }
     };
     let result = dispatch(cli.command);
+    if propagator::cleanup::interrupted() {
+        // The signal handler is cleaning up; finish that here and exit as interrupted.
+        propagator::cleanup::remove_all();
+        return ExitCode::from(130);
+    }
     // Each warning of the run once, whatever the outcome (reports carry them too).
     for w in propagator::notice::all() {
         eprintln!("arcwise: warning: {w}");

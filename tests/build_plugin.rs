@@ -316,7 +316,7 @@ fn propagation_with_the_native_plugin_reproduces_in_process_within_1e_9_km() {
     );
     let reference = Epoch::parse_utc(EPOCH).unwrap();
     let dir = tempfile::tempdir().unwrap();
-    let so = build(&f, "venting_like", dir.path()).unwrap();
+    let so = build(&f, "venting_like", &dir.path().join("crate")).unwrap();
     // Both loaded the way a user names them: in forces.yaml `plugins:`.
     let mut learned = f.clone();
     std::fs::write(dir.path().join("learned.yaml"), learned.to_yaml()).unwrap();

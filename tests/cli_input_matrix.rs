@@ -740,6 +740,122 @@ fn bad_inputs(d: &Path, good: &Inputs) -> Vec<Bad> {
             ),
         ),
     );
+    add(
+        &mut bad,
+        d,
+        Secondaries,
+        "duplicate header key",
+        "dupkey-secondary.oem",
+        Some(oem.replacen(
+            "TIME_SYSTEM = UTC",
+            "TIME_SYSTEM = UTC\nTIME_SYSTEM = TAI",
+            1,
+        )),
+    );
+    add(
+        &mut bad,
+        d,
+        Secondaries,
+        "control character in OBJECT_NAME",
+        "ctrl-secondary.oem",
+        Some(oem.replacen("OBJECT_NAME = ", "OBJECT_NAME = A\u{1b}[2J", 1)),
+    );
+
+    // Hostile YAML: an alias fan-out (10⁹ nodes from 1 kB), 40-deep nesting, control
+    // characters in names, and sizes that would exhaust memory.
+    let bomb = |head: &str| {
+        let mut b = format!("{head}a0: &a0 [x, x, x, x, x, x, x, x, x, x]\n");
+        for i in 1..9 {
+            let p = i - 1;
+            b.push_str(&format!(
+                "a{i}: &a{i} [*a{p}, *a{p}, *a{p}, *a{p}, *a{p}, *a{p}, *a{p}, *a{p}, *a{p}, *a{p}]\n"
+            ));
+        }
+        b
+    };
+    let deep: String = (0..40)
+        .map(|i| format!("{}k{i}:\n", " ".repeat(i)))
+        .collect();
+    add(
+        &mut bad,
+        d,
+        Forces,
+        "YAML alias bomb",
+        "bomb-forces.yaml",
+        Some(bomb("gravity: { zonal_degree: 2 }\n")),
+    );
+    add(
+        &mut bad,
+        d,
+        Forces,
+        "deep nesting",
+        "deep-forces.yaml",
+        Some(format!("{deep}{}x: 1\n", " ".repeat(40))),
+    );
+    add(
+        &mut bad,
+        d,
+        Scenario,
+        "YAML alias bomb",
+        "bomb-scenario.yaml",
+        Some(bomb(&scenario)),
+    );
+    add(
+        &mut bad,
+        d,
+        Hypotheses,
+        "YAML alias bomb",
+        "bomb-hyp.yaml",
+        Some(bomb("hypotheses: [no_maneuver]\n")),
+    );
+    add(
+        &mut bad,
+        d,
+        State,
+        "newline in object_name",
+        "name-state.yaml",
+        Some(format!(
+            "{state}object_name: \"SAT\\nOBJECT_ID = FORGED\"\n"
+        )),
+    );
+    add(
+        &mut bad,
+        d,
+        Scenario,
+        "newline in object_name",
+        "name-scenario.yaml",
+        Some({
+            let named = "object_name: \"X\\nplugins: [evil.so]\"";
+            let t = scenario.replacen("object_name: HALCYON-5", named, 1);
+            assert!(t.contains(named));
+            t
+        }),
+    );
+    add(
+        &mut bad,
+        d,
+        Scenario,
+        "60 days at 0.1 s",
+        "huge-scenario.yaml",
+        Some(
+            scenario
+                .replace("step_s: 60.0", "step_s: 0.1")
+                .replace("train_days: 1.0", "train_days: 60.0"),
+        ),
+    );
+    add(
+        &mut bad,
+        d,
+        Learned,
+        "resealed newline in name",
+        "name-learned.yaml",
+        Some({
+            let mut f: learned_forces::learned_file::LearnedFile =
+                serde_yaml::from_str(&learned).unwrap();
+            f.name = "x\nfn evil() {}".into();
+            f.to_yaml()
+        }),
+    );
     bad
 }
 
@@ -823,12 +939,16 @@ fn every_command_refuses_every_bad_input_it_reads_with_one_message_and_no_output
                 let v: serde_json::Value =
                     serde_json::from_str(&std::fs::read_to_string(&f).unwrap()).unwrap();
                 // Keys whose null means "none", by design.
-                const OPTIONAL: [&str; 5] = [
+                const OPTIONAL: [&str; 8] = [
                     ".decay",
                     ".held_out_rms_km",
                     ".learned_fit",
                     ".model",
                     ".max_rms_km",
+                    // A quiet arc: nothing searched, nothing learned.
+                    ".held_out_rms_km_known_forces",
+                    ".search",
+                    ".verdict_learned",
                 ];
                 let nulls: Vec<String> = null_paths(&v, String::new())
                     .into_iter()

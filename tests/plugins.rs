@@ -201,6 +201,12 @@ fn a_plugin_failing_mid_propagation_stops_it_with_the_plugin_and_epoch_named() {
             "out[0] = 0; out[1] = 0; out[2] = 0; return t > 3600.0 ? 3 : 0;",
             "status 3",
         ),
+        // A finite but absurd value used to end as an anonymous tolerance failure.
+        (
+            "huge",
+            "out[0] = t > 3600.0 ? 1e300 : 0.0; out[1] = 0; out[2] = 0; return 0;",
+            "beyond any physical acceleration",
+        ),
     ] {
         let so = common::c_plugin(dir.path(), name, &good_c(1, accel));
         let mut model = base();

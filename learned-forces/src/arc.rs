@@ -54,8 +54,8 @@ impl Default for ArcDefaults {
 impl Arc {
     /// Reads a CSV or OEM arc (by extension) and validates it.
     pub fn load(path: &Path, defaults: ArcDefaults, body: &CentralBody) -> Result<Arc, FileError> {
-        let text = std::fs::read_to_string(path)
-            .map_err(|e| file_error_at(path, None, format!("cannot read: {e}")))?;
+        let text = propagator::input::read_text(path, propagator::input::MAX_DATA_BYTES)
+            .map_err(|e| file_error_at(path, None, e))?;
         Self::parse(&text, path, defaults, body)
     }
 

@@ -237,7 +237,8 @@ impl LearnedFile {
             path: path.display().to_string(),
             message: m,
         };
-        let text = std::fs::read_to_string(path).map_err(|e| err(format!("cannot read: {e}")))?;
+        let text =
+            propagator::input::read_text(path, propagator::input::MAX_CONFIG_BYTES).map_err(err)?;
         Self::parse(&text).map_err(err)
     }
 
@@ -246,7 +247,7 @@ impl LearnedFile {
         if text.trim().is_empty() {
             return Err("the file is empty".into());
         }
-        let f: LearnedFile = serde_yaml::from_str(text).map_err(|e| e.to_string())?;
+        let f: LearnedFile = propagator::input::yaml_from_str(text)?;
         if f.format_version != FORMAT_VERSION {
             return Err(format!(
                 "format_version {} is not supported (this arcwise reads {FORMAT_VERSION})",
@@ -305,6 +306,7 @@ impl LearnedFile {
     /// The numbers outside the formulas: a file edited (and resealed) by hand must not
     /// give a silently wrong force, such as a validity window that nothing is inside.
     fn check_numbers(&self) -> Result<(), String> {
+        propagator::text::check_name("name", &self.name)?;
         let e = &self.earth;
         if !(e.radius_km.is_finite() && (6000.0..7000.0).contains(&e.radius_km)) {
             return Err(format!(

@@ -10,7 +10,7 @@ use propagator::force::drag::Drag;
 use propagator::force::{Force, ForceError, Segment};
 use propagator::frames::eci_to_rtn;
 use propagator::integrator::{Method, Settings};
-use propagator::propagation::{output_grid, propagate, Options, Request, Silent, Termination};
+use propagator::propagation::{propagate, Options, Request, Silent, Termination};
 use propagator::{Epoch, ForceModel, StateVector, TimeAxis};
 use rand_chacha::ChaCha8Rng;
 use rand_core::{Rng, SeedableRng};
@@ -290,7 +290,8 @@ impl ScenarioSpec {
             file: path.display().to_string(),
             message: m,
         };
-        let text = std::fs::read_to_string(path).map_err(|e| err(format!("cannot read: {e}")))?;
+        let text =
+            propagator::input::read_text(path, propagator::input::MAX_CONFIG_BYTES).map_err(err)?;
         Self::parse(&text, path)
     }
 
@@ -303,7 +304,8 @@ impl ScenarioSpec {
         if text.trim().is_empty() {
             return Err(err("the file is empty".into()));
         }
-        let s: ScenarioSpec = serde_yaml::from_str(text).map_err(|e| err(e.to_string()))?;
+        let s: ScenarioSpec = propagator::input::yaml_from_str(text).map_err(err)?;
+        propagator::text::check_name("object_name", &s.object_name).map_err(err)?;
         let t = &s.tracking;
         for (name, v, ok) in [
             (
@@ -463,7 +465,8 @@ impl ScenarioSpec {
         let t = &self.tracking;
         let train_end = t.train_days * 86400.0;
         let end = train_end + t.next_days * 86400.0;
-        let grid = output_grid(0.0, end, t.step_s);
+        let grid = propagator::propagation::checked_output_grid(0.0, end, t.step_s)
+            .map_err(|e| err(format!("tracking.step_s: {e}")))?;
         let options = Options {
             settings: Settings {
                 method: Method::Dp853,

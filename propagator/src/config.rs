@@ -397,8 +397,8 @@ pub struct LoadedForces {
 impl ForcesFile {
     /// Reads and checks `forces.yaml`.
     pub fn load(path: &Path) -> Result<ForcesFile, ConfigError> {
-        let text = std::fs::read_to_string(path)
-            .map_err(|e| config_error(path, format!("cannot read: {e}")))?;
+        let text = crate::input::read_text(path, crate::input::MAX_CONFIG_BYTES)
+            .map_err(|e| config_error(path, e))?;
         Self::parse(&text, path)
     }
 
@@ -408,7 +408,7 @@ impl ForcesFile {
             return Err(config_error(path, "the file is empty"));
         }
         let spec: ForcesFile =
-            serde_yaml::from_str(text).map_err(|e| config_error(path, e.to_string()))?;
+            crate::input::yaml_from_str(text).map_err(|e| config_error(path, e))?;
         spec.central_body
             .validate()
             .map_err(|m| config_error(path, m))?;
@@ -635,8 +635,8 @@ pub struct InitialState {
 impl StateFile {
     /// Reads a state file and converts it with the central body's μ.
     pub fn load(path: &Path, body: &CentralBody) -> Result<InitialState, ConfigError> {
-        let text = std::fs::read_to_string(path)
-            .map_err(|e| config_error(path, format!("cannot read: {e}")))?;
+        let text = crate::input::read_text(path, crate::input::MAX_CONFIG_BYTES)
+            .map_err(|e| config_error(path, e))?;
         Self::parse(&text, path, body)
     }
 
@@ -645,8 +645,7 @@ impl StateFile {
         if text.trim().is_empty() {
             return Err(config_error(path, "the file is empty"));
         }
-        let f: StateFile =
-            serde_yaml::from_str(text).map_err(|e| config_error(path, e.to_string()))?;
+        let f: StateFile = crate::input::yaml_from_str(text).map_err(|e| config_error(path, e))?;
         let epoch = Epoch::parse_utc(&f.epoch_utc)
             .map_err(|e| config_error(path, format!("epoch_utc: {e}")))?;
         let state =
@@ -668,6 +667,9 @@ impl StateFile {
                 )),
             };
         check_state_plausible(&state, body).map_err(|m| config_error(path, m))?;
+        if let Some(n) = &f.object_name {
+            crate::text::check_name("object_name", n).map_err(|m| config_error(path, m))?;
+        }
         Ok(InitialState {
             epoch,
             state,

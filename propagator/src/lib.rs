@@ -17,11 +17,13 @@
 
 pub mod atmosphere;
 pub mod body;
+pub mod cleanup;
 pub mod config;
 pub mod elements;
 pub mod ephemeris;
 pub mod force;
 pub mod frames;
+pub mod input;
 pub mod integrator;
 pub mod notice;
 pub mod plugin;
@@ -29,6 +31,7 @@ pub mod propagation;
 pub mod screening;
 pub mod solar_system;
 pub mod state;
+pub mod text;
 pub mod time;
 pub mod variational;
 

@@ -440,8 +440,37 @@ fn locate_crossing<S: OdeSystem>(
     Ok(b)
 }
 
+/// The most output states one request may ask for (a 10-million-line CSV is ~1.5 GB).
+pub const MAX_OUTPUT_STATES: f64 = 1.0e7;
+/// The smallest output spacing, s: files carry epochs to the microsecond, and anything
+/// finer than a millisecond writes epochs that round together.
+pub const MIN_OUTPUT_STEP_S: f64 = 1.0e-3;
+
+/// [`output_grid`] for a user's request: refuses a step that is not finite, below
+/// [`MIN_OUTPUT_STEP_S`], or that would ask for more than [`MAX_OUTPUT_STATES`] states —
+/// before anything is allocated (`--step 1e-9` over a day asked for 28 TB).
+pub fn checked_output_grid(t0_s: f64, t_end_s: f64, step_s: f64) -> Result<Vec<f64>, String> {
+    if !(step_s.is_finite() && step_s >= MIN_OUTPUT_STEP_S) {
+        return Err(format!(
+            "step {step_s} s: must be at least {MIN_OUTPUT_STEP_S} s (epochs are written to the microsecond)"
+        ));
+    }
+    let span = (t_end_s - t0_s).abs();
+    if !span.is_finite() {
+        return Err("the span is not finite".into());
+    }
+    let n = span / step_s + 2.0;
+    if n > MAX_OUTPUT_STATES {
+        return Err(format!(
+            "a {span} s span at {step_s} s asks for {n:.3e} states, more than {MAX_OUTPUT_STATES:.0e}: use a larger step or a shorter span"
+        ));
+    }
+    Ok(output_grid(t0_s, t_end_s, step_s))
+}
+
 /// Output times `t0, t0 ± step, …` up to and including `t_end` (the end is always
-/// included, even when the span is not a whole number of steps). `step_s` > 0.
+/// included, even when the span is not a whole number of steps). `step_s` > 0; for a
+/// user's request use [`checked_output_grid`].
 pub fn output_grid(t0_s: f64, t_end_s: f64, step_s: f64) -> Vec<f64> {
     let dir = if t_end_s >= t0_s { 1.0 } else { -1.0 };
     let span = (t_end_s - t0_s).abs();

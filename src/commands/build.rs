@@ -25,33 +25,36 @@ pub struct Args {
 
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
+    crate::paths::check_distinct(&[("LEARNED.yaml", &a.learned)], &[("--out", &a.out)])?;
     let file = LearnedFile::load(&a.learned).map_err(CliError::input)?;
     let name = a.name.clone().unwrap_or_else(|| file.name.clone());
-    let src_dir = if a.keep_source {
-        let mut p = a.out.clone().into_os_string();
-        p.push(".src");
-        PathBuf::from(p)
+    propagator::text::check_name("--name", &name).map_err(CliError::input)?;
+    // The crate is generated in a folder created exclusively and private to the user:
+    // PLUGIN.so.src/ with --keep-source (refused if it exists), otherwise a fresh
+    // random folder in the temporary directory, removed on every exit path.
+    let scratch = if a.keep_source {
+        None
     } else {
-        std::env::temp_dir().join(format!(
-            "arcwise-build-{}-{}",
-            std::process::id(),
-            file.checksum
-                .trim_start_matches("sha256:")
-                .get(..12)
-                .unwrap_or("x")
-        ))
+        Some(
+            tempfile::Builder::new()
+                .prefix("arcwise-build-")
+                .tempdir()
+                .map_err(|e| CliError::input(format!("cannot create a build folder: {e}")))?,
+        )
     };
-    let built = build(&file, &name, &src_dir)
-        .map_err(|e| CliError::input(format!("{}: {e}", a.learned.display())));
-    let built = match built {
-        Ok(b) => b,
-        Err(e) => {
-            if !a.keep_source {
-                let _ = std::fs::remove_dir_all(&src_dir);
-            }
-            return Err(e);
+    let _registered = scratch
+        .as_ref()
+        .map(|t| propagator::cleanup::Registered::new(t.path()));
+    let src_dir = match &scratch {
+        Some(t) => t.path().join("crate"),
+        None => {
+            let mut p = a.out.clone().into_os_string();
+            p.push(".src");
+            PathBuf::from(p)
         }
     };
+    let built = build(&file, &name, &src_dir)
+        .map_err(|e| CliError::input(format!("{}: {e}", a.learned.display())))?;
     let bytes =
         std::fs::read(&built).map_err(|e| CliError::input(format!("{}: {e}", built.display())))?;
     propagator::ephemeris::write_atomically(&a.out, &bytes).map_err(CliError::input)?;
@@ -60,9 +63,6 @@ pub fn run(a: Args) -> Result<(), CliError> {
         use std::os::unix::fs::PermissionsExt;
         std::fs::set_permissions(&a.out, std::fs::Permissions::from_mode(0o755))
             .map_err(|e| CliError::input(format!("{}: {e}", a.out.display())))?;
-    }
-    if !a.keep_source {
-        let _ = std::fs::remove_dir_all(&src_dir);
     }
     println!(
         "built {} from {} ({} terms, checksum {}){}",

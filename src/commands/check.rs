@@ -43,6 +43,20 @@ pub struct Args {
 
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
+    crate::paths::check_distinct(
+        &[
+            ("--learned", &a.learned),
+            ("--forces", &a.forces),
+            ("--arc", &a.arc),
+        ],
+        &[
+            a.report.as_deref().map(|p| ("--report", p)),
+            a.plot.as_deref().map(|p| ("--plot", p)),
+        ]
+        .into_iter()
+        .flatten()
+        .collect::<Vec<_>>(),
+    )?;
     if let Some(m) = a.max_rms_km {
         if !(m.is_finite() && m > 0.0) {
             return Err(CliError::input(

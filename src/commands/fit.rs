@@ -145,6 +145,16 @@ pub fn plot_residuals(path: &Path, title: &str, r: &FitResult) -> Result<(), Cli
 
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
+    crate::paths::check_distinct(
+        &[("--arc", &a.arc), ("--forces", &a.forces)],
+        &[
+            a.report.as_deref().map(|p| ("--report", p)),
+            a.plot.as_deref().map(|p| ("--plot", p)),
+        ]
+        .into_iter()
+        .flatten()
+        .collect::<Vec<_>>(),
+    )?;
     let options = FitOptions {
         estimate: parse_estimate(&a.estimate)?,
         edit_sigma: a.edit_sigma,

@@ -71,8 +71,24 @@ pub struct Args {
     name: Option<String>,
 }
 
+/// The plots `--plot DIR` writes.
+const PLOT_FILES: [&str; 3] = [
+    "residuals_before.svg",
+    "residuals_after.svg",
+    "learned_acceleration.svg",
+];
+
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
+    let plot_files: Vec<PathBuf> = a
+        .plot
+        .iter()
+        .flat_map(|d| PLOT_FILES.iter().map(move |f| d.join(f)))
+        .collect();
+    let mut outputs: Vec<(&str, &Path)> = vec![("--out", &a.out)];
+    outputs.extend(a.report.as_deref().map(|p| ("--report", p)));
+    outputs.extend(plot_files.iter().map(|p| ("--plot", p.as_path())));
+    crate::paths::check_distinct(&[("--arc", &a.arc), ("--forces", &a.forces)], &outputs)?;
     let outside = match a.outside.as_str() {
         "warn" => OutsidePolicy::Warn,
         "zero" => OutsidePolicy::Zero,
@@ -97,6 +113,9 @@ pub fn run(a: Args) -> Result<(), CliError> {
     }
     if !(a.sigma_km.is_finite() && a.sigma_km > 0.0) {
         return Err(CliError::input("--sigma-km must be positive (km)"));
+    }
+    if let Some(n) = &a.name {
+        propagator::text::check_name("--name", n).map_err(CliError::input)?;
     }
     let estimate = parse_estimate(&a.estimate)?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
@@ -164,7 +183,12 @@ pub fn run(a: Args) -> Result<(), CliError> {
     let name = a.name.clone().unwrap_or_else(|| {
         a.arc
             .file_stem()
-            .map(|s| s.to_string_lossy().to_string())
+            .map(|s| {
+                propagator::text::sanitized(&s.to_string_lossy())
+                    .chars()
+                    .take(propagator::text::MAX_NAME_CHARS)
+                    .collect()
+            })
             .unwrap_or_else(|| "learned".into())
     });
     let mut file = learned_file(&a, &arc, &spec, &learned, &name, outside)?;
@@ -408,13 +432,13 @@ fn plots(
     fit: &FitOptions,
 ) -> Result<(), CliError> {
     plot_residuals(
-        &dir.join("residuals_before.svg"),
+        &dir.join(PLOT_FILES[0]),
         "Residuals with the known forces",
         &l.base,
     )?;
     let Some(c) = &l.chosen else { return Ok(()) };
     plot_residuals(
-        &dir.join("residuals_after.svg"),
+        &dir.join(PLOT_FILES[1]),
         "Residuals with the learned force",
         &c.fit,
     )?;
@@ -453,7 +477,7 @@ fn plots(
         })
         .collect();
     write_panels(
-        &dir.join("learned_acceleration.svg"),
+        &dir.join(PLOT_FILES[2]),
         "Learned acceleration in RTN",
         &format!("hours since {}", c.fit.epoch0),
         &panels,

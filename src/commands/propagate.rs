@@ -7,7 +7,7 @@ use clap::Args as ClapArgs;
 use propagator::config::{ForcesFile, InitialState, StateFile};
 use propagator::ephemeris::{Ephemeris, EphemerisPoint, Format};
 use propagator::integrator::{Method, Settings};
-use propagator::propagation::{output_grid, propagate, Options, Request, Termination};
+use propagator::propagation::{checked_output_grid, propagate, Options, Request, Termination};
 use propagator::{Epoch, TimeAxis};
 use std::path::PathBuf;
 use std::time::Instant;
@@ -81,6 +81,16 @@ fn load_initial(
 
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
+    crate::paths::check_distinct(
+        &[("--forces", &a.forces), ("--state", &a.state)],
+        &[
+            Some(("--out", a.out.as_path())),
+            a.report.as_deref().map(|p| ("--report", p)),
+        ]
+        .into_iter()
+        .flatten()
+        .collect::<Vec<_>>(),
+    )?;
     let method = Method::parse(&a.integrator).ok_or_else(|| {
         CliError::input(format!(
             "--integrator {}: expected rk4, dp54 or dp853",
@@ -130,7 +140,8 @@ pub fn run(a: Args) -> Result<(), CliError> {
         body: loaded.body,
         altitude: loaded.altitude,
     };
-    let grid = output_grid(0.0, t_end, a.step);
+    let grid = checked_output_grid(0.0, t_end, a.step)
+        .map_err(|e| CliError::input(format!("--step: {e}")))?;
     let request = Request {
         x0: initial.state,
         t0_s: 0.0,

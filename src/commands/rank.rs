@@ -42,8 +42,20 @@ pub struct Args {
 
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
-    let text = std::fs::read_to_string(&a.hypotheses)
-        .map_err(|e| CliError::input(format!("{}: cannot read: {e}", a.hypotheses.display())))?;
+    crate::paths::check_distinct(
+        &[
+            ("--arc", &a.arc),
+            ("--forces", &a.forces),
+            ("--hypotheses", &a.hypotheses),
+        ],
+        &a.report
+            .as_deref()
+            .map(|p| ("--report", p))
+            .into_iter()
+            .collect::<Vec<_>>(),
+    )?;
+    let text = propagator::input::read_text(&a.hypotheses, propagator::input::MAX_CONFIG_BYTES)
+        .map_err(|e| CliError::input(format!("{}: {e}", a.hypotheses.display())))?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
     let arc = Arc::load(
         &a.arc,

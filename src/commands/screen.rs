@@ -6,7 +6,9 @@ use clap::Args as ClapArgs;
 use learned_forces::learned_file::{LearnedFile, LearnedResolver};
 use propagator::config::{ForcesFile, StateFile};
 use propagator::ephemeris::{Ephemeris, Format};
-use propagator::propagation::{output_grid, propagate, Options, Request, Silent, Termination};
+use propagator::propagation::{
+    checked_output_grid, propagate, Options, Request, Silent, Termination,
+};
 use propagator::screening::{approaches, Approach, Track};
 use propagator::{Epoch, ForceModel, StateVector, TimeAxis};
 use rayon::prelude::*;
@@ -142,8 +144,8 @@ fn load_track(path: &Path, ctx: &Ctx) -> Result<Track, String> {
             states,
         });
     }
-    let text = std::fs::read_to_string(path)
-        .map_err(|e| format!("{}: cannot read: {e}", path.display()))?;
+    let text = propagator::input::read_text(path, propagator::input::MAX_DATA_BYTES)
+        .map_err(|e| format!("{}: {e}", path.display()))?;
     if text.contains("format_version:") {
         let f = LearnedFile::load(path).map_err(|e| e.to_string())?;
         let s = &f.state_at_end;
@@ -172,6 +174,17 @@ fn load_track(path: &Path, ctx: &Ctx) -> Result<Track, String> {
 
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
+    let mut inputs: Vec<(&str, &std::path::Path)> = vec![("--primary", &a.primary)];
+    inputs.extend(a.secondaries.iter().map(|p| ("--secondaries", p.as_path())));
+    inputs.extend(a.forces.as_deref().map(|p| ("--forces", p)));
+    crate::paths::check_distinct(
+        &inputs,
+        &a.report
+            .as_deref()
+            .map(|p| ("--report", p))
+            .into_iter()
+            .collect::<Vec<_>>(),
+    )?;
     if !(a.threshold_km.is_finite() && a.threshold_km > 0.0) {
         return Err(CliError::input(
             "--threshold-km must be a positive number of km",
@@ -193,7 +206,8 @@ pub fn run(a: Args) -> Result<(), CliError> {
         Some(p) => Some(ForcesFile::load(p).map_err(CliError::input)?),
         None => None,
     };
-    let grid = output_grid(0.0, span, a.step);
+    let grid = checked_output_grid(0.0, span, a.step)
+        .map_err(|e| CliError::input(format!("--step: {e}")))?;
     let ctx = Ctx {
         axis: TimeAxis::new(from),
         grid: &grid,

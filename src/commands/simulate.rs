@@ -5,7 +5,7 @@ use crate::report::write_report;
 use clap::Args as ClapArgs;
 use learned_forces::scenario::ScenarioSpec;
 use propagator::ephemeris::write_atomically;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 /// Options of `arcwise simulate`.
 #[derive(ClapArgs, Debug)]
@@ -24,8 +24,17 @@ pub struct Args {
     report: Option<PathBuf>,
 }
 
+/// The files written into the output folder.
+const OUTPUT_FILES: [&str; 4] = ["train.csv", "next.csv", "truth.oem", "forces.yaml"];
+
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
+    let file = |name: &str| a.out.join(name);
+    let report_path = a.report.clone().unwrap_or_else(|| file("simulate.json"));
+    let written: Vec<PathBuf> = OUTPUT_FILES.iter().map(|f| file(f)).collect();
+    let mut outputs: Vec<(&str, &Path)> = written.iter().map(|p| ("--out", p.as_path())).collect();
+    outputs.push(("--report", &report_path));
+    crate::paths::check_distinct(&[("SCENARIO.yaml", &a.scenario)], &outputs)?;
     let mut spec = ScenarioSpec::load(&a.scenario).map_err(CliError::input)?;
     if let Some(s) = a.seed {
         spec.tracking.seed = s;
@@ -44,15 +53,15 @@ pub fn run(a: Args) -> Result<(), CliError> {
             sim.train.observations.len()
         )));
     }
-    let file = |name: &str| a.out.join(name);
     write_atomically(&file("train.csv"), sim.train.to_csv().as_bytes()).map_err(CliError::input)?;
     write_atomically(&file("next.csv"), sim.next.to_csv().as_bytes()).map_err(CliError::input)?;
     sim.truth
         .save(&file("truth.oem"))
         .map_err(CliError::input)?;
+    // Both go into a YAML comment: quoted and escaped, so neither can add a line.
     let header = format!(
-        "# Known force model of scenario {} (object {}), written by arcwise simulate.\n",
-        a.scenario.display(),
+        "# Known force model of scenario {:?} (object {:?}), written by arcwise simulate.\n",
+        a.scenario.display().to_string(),
         spec.object_name
     );
     write_atomically(
@@ -83,7 +92,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
         "train_start_utc": sim.train.start().to_utc_string(),
         "train_end_utc": sim.train.end().to_utc_string(),
         "truth_terms": spec.truth.iter().map(|t| format!("{t:?}")).collect::<Vec<_>>(),
-        "files": ["train.csv", "next.csv", "truth.oem", "forces.yaml"],
+        "files": OUTPUT_FILES,
     });
-    write_report(&a.report.unwrap_or_else(|| file("simulate.json")), &report)
+    write_report(&report_path, &report)
 }

@@ -127,16 +127,20 @@ pub fn generate(file: &LearnedFile, name: &str) -> Result<String, BuildError> {
     };
     let meta =
         serde_json::to_string(&metadata(file, name)).map_err(|e| BuildError(e.to_string()))?;
-    let formulas: Vec<String> = file
-        .terms
+    // Everything from the file reaches the source only as a checked value, a printed
+    // (parsed) formula or an escaped literal: a newline in a name or a formula's text
+    // must never become a line of code.
+    let formulas: Vec<String> = nodes
         .iter()
-        .map(|t| format!("//   {:?} * ({})", t.coefficient, t.formula))
+        .zip(&coefs)
+        .map(|(n, c)| format!("//   {:?}", format!("{c:?} * ({n})")))
         .collect();
+    propagator::text::check_name("name", name).map_err(BuildError)?;
     let mut src = String::new();
     let _ = write!(
         src,
-        r#"//! arcwise force plugin generated from the learned-force file `{name}`
-//! (checksum {checksum}). Do not edit: rebuild with `arcwise build`.
+        r#"//! arcwise force plugin generated from the learned-force file {name:?}
+//! (checksum {checksum:?}). Do not edit: rebuild with `arcwise build`.
 //!
 //! The force, km/s² in ECI, t in s from {epoch}:
 {formulas}
@@ -295,7 +299,7 @@ pub unsafe extern "C" fn arcwise_plugin_partials(t: f64, state: *const f64, out:
 "#,
         name = name,
         checksum = file.checksum,
-        epoch = file.epoch_utc,
+        epoch = epoch.to_utc_string(),
         formulas = if formulas.is_empty() {
             "//   (no terms: zero)".to_string()
         } else {
@@ -330,6 +334,12 @@ name = "{crate_name}"
 version = "0.1.0"
 edition = "2021"
 publish = false
+# No build script, ever: the folder is private, and a build.rs is code cargo would run.
+build = false
+autobins = false
+autoexamples = false
+autotests = false
+autobenches = false
 
 [lib]
 crate-type = ["cdylib"]
@@ -344,7 +354,38 @@ panic = "unwind"
     )
 }
 
-/// Writes the crate into `dir` and builds it; returns the path of the built library.
+/// Creates `dir` exclusively, readable by the owner only (0700 on Unix): an existing
+/// folder, or anything planted at its name, is refused, never reused.
+fn create_private_dir(dir: &Path) -> Result<(), BuildError> {
+    let mut b = std::fs::DirBuilder::new();
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::DirBuilderExt;
+        b.mode(0o700);
+    }
+    b.create(dir).map_err(|e| {
+        BuildError(if e.kind() == std::io::ErrorKind::AlreadyExists {
+            format!(
+                "{} already exists: the build folder is never reused (remove it, or choose another path)",
+                dir.display()
+            )
+        } else {
+            format!("{}: cannot create the build folder: {e}", dir.display())
+        })
+    })
+}
+
+/// A working folder for cargo with no configuration above it that others could plant.
+fn neutral_dir() -> PathBuf {
+    if cfg!(unix) {
+        PathBuf::from("/")
+    } else {
+        std::env::temp_dir()
+    }
+}
+
+/// Writes the crate into `dir` — which must not exist: it is created here, private to
+/// the user — and builds it; returns the path of the built library.
 pub fn build(file: &LearnedFile, name: &str, dir: &Path) -> Result<PathBuf, BuildError> {
     let crate_name: String = name
         .chars()
@@ -357,7 +398,8 @@ pub fn build(file: &LearnedFile, name: &str, dir: &Path) -> Result<PathBuf, Buil
         })
         .collect::<String>();
     let crate_name = format!("arcwise_learned_{}", crate_name.trim_matches('_'));
-    std::fs::create_dir_all(dir).map_err(|e| BuildError(format!("{}: {e}", dir.display())))?;
+    create_private_dir(dir)?;
+    let _registered = propagator::cleanup::Registered::new(dir);
     let write = |p: &str, text: &str| {
         std::fs::write(dir.join(p), text)
             .map_err(|e| BuildError(format!("{}: {e}", dir.join(p).display())))
@@ -366,18 +408,38 @@ pub fn build(file: &LearnedFile, name: &str, dir: &Path) -> Result<PathBuf, Buil
     write("runtime.rs", RUNTIME_SOURCE)?;
     write("lib.rs", &generate(file, name)?)?;
     let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".into());
-    let output = Command::new(&cargo)
-        .args(["build", "--release", "--offline", "--quiet", "--manifest-path"])
+    // Cargo reads `.cargo/config.toml` from its working folder and every folder above
+    // it: run it from the root, so a configuration planted in a shared folder such as
+    // the temporary directory (a `rustc-wrapper`, say) is never read.
+    let mut command = Command::new(&cargo);
+    command
+        .current_dir(neutral_dir())
+        .args([
+            "build",
+            "--release",
+            "--offline",
+            "--quiet",
+            "--manifest-path",
+        ])
         .arg(dir.join("Cargo.toml"))
         .arg("--target-dir")
         .arg(dir.join("target"))
         .env_remove("CARGO_TARGET_DIR")
-        .output()
-        .map_err(|e| {
-            BuildError(format!(
-                "cannot run `{cargo}` ({e}): a Rust toolchain is needed to build plugins (install it with rustup); the learned file itself also works in forces.yaml plugins:, evaluated in process"
-            ))
-        })?;
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped());
+    // Its own process group, so that a signal to arcwise can stop the whole build
+    // (cargo and its rustc processes) before the folder is removed.
+    #[cfg(unix)]
+    std::os::unix::process::CommandExt::process_group(&mut command, 0);
+    let child = command.spawn().map_err(|e| {
+        BuildError(format!(
+            "cannot run `{cargo}` ({e}): a Rust toolchain is needed to build plugins (install it with rustup); the learned file itself also works in forces.yaml plugins:, evaluated in process"
+        ))
+    })?;
+    let _child_registered = propagator::cleanup::ChildRegistered::new(child.id());
+    let output = child
+        .wait_with_output()
+        .map_err(|e| BuildError(format!("waiting for cargo: {e}")))?;
     if !output.status.success() {
         return Err(BuildError(format!(
             "cargo could not build the plugin in {}:\n{}",

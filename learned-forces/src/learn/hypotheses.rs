@@ -51,7 +51,7 @@ pub fn parse_hypotheses(
     if text.trim().is_empty() {
         return Err(err("the file is empty".into()));
     }
-    let file: HypothesesFile = serde_yaml::from_str(text).map_err(|e| err(e.to_string()))?;
+    let file: HypothesesFile = propagator::input::yaml_from_str(text).map_err(err)?;
     if file.hypotheses.is_empty() {
         return Err(err("no hypotheses".into()));
     }

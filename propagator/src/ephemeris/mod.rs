@@ -102,8 +102,8 @@ impl Ephemeris {
     /// Reads a CSV or OEM ephemeris (by extension) and checks it: epochs strictly
     /// increasing, every state finite and plausible (outside the Earth, km not metres).
     pub fn load(path: &Path, body: &CentralBody) -> Result<Ephemeris, FileError> {
-        let text = std::fs::read_to_string(path)
-            .map_err(|e| file_error(path, None, format!("cannot read: {e}")))?;
+        let text = crate::input::read_text(path, crate::input::MAX_DATA_BYTES)
+            .map_err(|e| file_error(path, None, e))?;
         let (eph, lines) = match Format::from_path(path)? {
             Format::Csv => csv::parse_ephemeris(&text, path)?,
             Format::Oem => oem::parse(&text, path)?,
@@ -166,7 +166,14 @@ impl Ephemeris {
 }
 
 /// Writes `bytes` to `path` through a temporary file in the same folder and a rename.
+///
+/// The temporary file is created exclusively (`O_EXCL`, a random name, mode 0600): a
+/// file or symbolic link planted at a predictable name cannot redirect the write. It is
+/// removed on every error, and on SIGINT/SIGTERM through [`crate::cleanup`]. The rename
+/// replaces `path` itself, never what a link there points to. The result is readable by
+/// all (0644), as an ordinary output file.
 pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), FileError> {
+    use std::io::Write;
     let dir = path
         .parent()
         .filter(|p| !p.as_os_str().is_empty())
@@ -177,11 +184,21 @@ pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), FileError> {
         .unwrap_or_else(|| "out".into());
     std::fs::create_dir_all(dir)
         .map_err(|e| file_error(path, None, format!("cannot create the folder: {e}")))?;
-    let tmp = dir.join(format!(".{name}.tmp-{}", std::process::id()));
-    std::fs::write(&tmp, bytes)
-        .map_err(|e| file_error(path, None, format!("cannot write: {e}")))?;
-    std::fs::rename(&tmp, path).map_err(|e| {
-        let _ = std::fs::remove_file(&tmp);
-        file_error(path, None, format!("cannot write: {e}"))
-    })
+    let cannot = |e: std::io::Error| file_error(path, None, format!("cannot write: {e}"));
+    let mut tmp = tempfile::Builder::new()
+        .prefix(&format!(".{name}."))
+        .suffix(".tmp")
+        .tempfile_in(dir)
+        .map_err(cannot)?;
+    let _registered = crate::cleanup::Registered::new(tmp.path());
+    tmp.write_all(bytes).map_err(cannot)?;
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        tmp.as_file()
+            .set_permissions(std::fs::Permissions::from_mode(0o644))
+            .map_err(cannot)?;
+    }
+    tmp.persist(path).map_err(|e| cannot(e.error))?;
+    Ok(())
 }

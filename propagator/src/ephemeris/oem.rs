@@ -13,15 +13,17 @@ use std::path::Path;
 
 /// Formats an ephemeris as an OEM.
 pub fn format(eph: &Ephemeris) -> String {
+    // Names are checked where they are read; a name handed in by other code is made
+    // harmless here, so it can never add a line to the header.
     let name = if eph.object_name.is_empty() {
-        "UNNAMED"
+        "UNNAMED".to_string()
     } else {
-        &eph.object_name
+        crate::text::sanitized(&eph.object_name)
     };
     let id = if eph.object_id.is_empty() {
-        "UNKNOWN"
+        "UNKNOWN".to_string()
     } else {
-        &eph.object_id
+        crate::text::sanitized(&eph.object_id)
     };
     let mut s = String::with_capacity(512 + eph.points.len() * 140);
     s.push_str("CCSDS_OEM_VERS = 2.0\n");
@@ -71,6 +73,10 @@ pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileErr
     let mut scale = None;
     let mut saw_version = false;
     let mut segments = 0;
+    // Keys seen in the header and in the current metadata block: a key given twice is
+    // refused rather than silently overriding the first.
+    let mut header_keys: Vec<&str> = Vec::new();
+    let mut meta_keys: Vec<&str> = Vec::new();
     for (i, raw) in text.lines().enumerate() {
         let ln = i + 1;
         let l = raw.trim();
@@ -78,11 +84,27 @@ pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileErr
             continue;
         }
         let kv = l.split_once('=').map(|(k, v)| (k.trim(), v.trim()));
+        if let (Where::Header | Where::Meta, Some((k, _))) = (&at, kv) {
+            let keys = if at == Where::Header {
+                &mut header_keys
+            } else {
+                &mut meta_keys
+            };
+            if keys.contains(&k) {
+                return Err(file_error(
+                    path,
+                    Some(ln),
+                    format!("{k} is given twice in the same block"),
+                ));
+            }
+            keys.push(k);
+        }
         match at {
             Where::Header | Where::Data if l == "META_START" => {
                 at = Where::Meta;
                 scale = None;
                 segments += 1;
+                meta_keys.clear();
             }
             Where::Header => match kv {
                 Some(("CCSDS_OEM_VERS", v)) => {
@@ -131,8 +153,14 @@ pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileErr
                     )
                 })?;
                 match k {
-                    "OBJECT_NAME" => eph.object_name = v.to_string(),
-                    "OBJECT_ID" => eph.object_id = v.to_string(),
+                    "OBJECT_NAME" | "OBJECT_ID" => {
+                        crate::text::check_name(k, v).map_err(|m| file_error(path, Some(ln), m))?;
+                        if k == "OBJECT_NAME" {
+                            eph.object_name = v.to_string();
+                        } else {
+                            eph.object_id = v.to_string();
+                        }
+                    }
                     "CENTER_NAME" => {
                         if !v.eq_ignore_ascii_case("EARTH") {
                             return Err(file_error(path, Some(ln), format!("CENTER_NAME = {v}: only Earth-centred ephemerides are supported")));

@@ -135,6 +135,34 @@ fn non_finite_acceleration(name: &str, t_s: f64, a: Vector3<f64>) -> ForceError 
     }
 }
 
+/// The largest acceleration any force may return, km/s²: about 100 g, far beyond every
+/// force on an orbiting object (gravity at the surface is 0.0098 km/s²). Larger values
+/// are a broken force, not physics.
+pub const MAX_PLAUSIBLE_KM_S2: f64 = 1.0;
+
+/// Whether an acceleration is finite and within [`MAX_PLAUSIBLE_KM_S2`].
+#[inline(always)]
+pub fn plausible(a: &Vector3<f64>) -> bool {
+    // NaN fails the comparison.
+    a.norm_squared() <= MAX_PLAUSIBLE_KM_S2 * MAX_PLAUSIBLE_KM_S2
+}
+
+#[cold]
+#[inline(never)]
+fn implausible(name: &str, t_s: f64, a: Vector3<f64>) -> ForceError {
+    if !crate::plugin::all_finite(a.as_slice()) {
+        return non_finite_acceleration(name, t_s, a);
+    }
+    ForceError {
+        force: name.to_string(),
+        t_s,
+        reason: format!(
+            "returned |a| = {:.3e} km/s², beyond any physical acceleration (> {MAX_PLAUSIBLE_KM_S2} km/s²): the force is broken",
+            a.norm()
+        ),
+    }
+}
+
 /// An ordered set of forces; the acceleration is their sum, added in order (so results
 /// do not depend on anything but the list).
 ///
@@ -197,13 +225,44 @@ impl ForceModel {
         self.forces.iter().map(|f| f.name().to_string()).collect()
     }
 
-    /// Total acceleration, km/s² ECI; the first failing force's error otherwise.
+    /// Total acceleration, km/s² ECI; the first failing force's error otherwise. A total
+    /// that is not finite or beyond [`MAX_PLAUSIBLE_KM_S2`] is an error naming the force
+    /// that produced it (a plugin returning 1e300 used to surface as a tolerance failure
+    /// nobody could trace).
     pub fn acceleration(&self, t_s: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
         let mut a = Vector3::zeros();
         for f in &self.forces {
             a += f.acceleration(t_s, x)?;
         }
-        finite_or_error("force model", t_s, a)
+        if plausible(&a) {
+            Ok(a)
+        } else {
+            Err(self.culprit(t_s, x, a, None))
+        }
+    }
+
+    /// The force whose output makes the total implausible (cold path).
+    #[cold]
+    #[inline(never)]
+    fn culprit(
+        &self,
+        t_s: f64,
+        x: &StateVector,
+        total: Vector3<f64>,
+        segment: Option<Segment>,
+    ) -> ForceError {
+        for f in &self.forces {
+            let a = match segment {
+                Some(s) => f.acceleration_in(t_s, x, s),
+                None => f.acceleration(t_s, x),
+            };
+            if let Ok(a) = a {
+                if !plausible(&a) {
+                    return implausible(f.name(), t_s, a);
+                }
+            }
+        }
+        implausible("force model", t_s, total)
     }
 
     /// Total acceleration inside an integration segment (see [`Segment`]).
@@ -217,7 +276,11 @@ impl ForceModel {
         for f in &self.forces {
             a += f.acceleration_in(t_s, x, segment)?;
         }
-        finite_or_error("force model", t_s, a)
+        if plausible(&a) {
+            Ok(a)
+        } else {
+            Err(self.culprit(t_s, x, a, Some(segment)))
+        }
     }
 
     /// Sum of the forces' partials ∂a/∂(r, v).

@@ -140,11 +140,13 @@ impl std::fmt::Debug for PluginForce {
     }
 }
 
-/// Checks that a file is not writable by group or others (Unix).
-fn check_permissions(path: &Path, meta: &std::fs::Metadata) -> Result<(), PluginError> {
+/// Checks who can change the file (Unix): it must belong to the user running arcwise
+/// (or to root), be writable by nobody else, and sit in a folder nobody else can write
+/// (where another user could swap it between the check and the load).
+fn check_permissions(path: &Path, abs: &Path, meta: &std::fs::Metadata) -> Result<(), PluginError> {
     #[cfg(unix)]
     {
-        use std::os::unix::fs::PermissionsExt;
+        use std::os::unix::fs::{MetadataExt, PermissionsExt};
         let mode = meta.permissions().mode();
         if mode & 0o022 != 0 {
             return Err(refuse(
@@ -155,8 +157,43 @@ fn check_permissions(path: &Path, meta: &std::fs::Metadata) -> Result<(), Plugin
                 ),
             ));
         }
+        // SAFETY: geteuid has no preconditions and cannot fail.
+        let me = unsafe { libc::geteuid() };
+        if meta.uid() != me && meta.uid() != 0 {
+            return Err(refuse(
+                path,
+                format!(
+                    "the file belongs to another user (uid {}); refusing to load native code another user controls",
+                    meta.uid()
+                ),
+            ));
+        }
+        let folder = abs.parent().unwrap_or(Path::new("/"));
+        let fm = std::fs::metadata(folder)
+            .map_err(|e| refuse(path, format!("cannot read its folder: {e}")))?;
+        let fmode = fm.permissions().mode();
+        if fmode & 0o022 != 0 {
+            return Err(refuse(
+                path,
+                format!(
+                    "its folder {} is writable by group or others (mode {:o}): another user could replace the plugin; keep plugins in a folder only you can write",
+                    folder.display(),
+                    fmode & 0o7777
+                ),
+            ));
+        }
+        if fm.uid() != me && fm.uid() != 0 {
+            return Err(refuse(
+                path,
+                format!(
+                    "its folder {} belongs to another user (uid {}); keep plugins in a folder you own",
+                    folder.display(),
+                    fm.uid()
+                ),
+            ));
+        }
     }
-    let _ = (path, meta);
+    let _ = (path, abs, meta);
     Ok(())
 }
 
@@ -199,7 +236,7 @@ impl PluginForce {
         if !meta.is_file() {
             return Err(refuse(path, "not a regular file"));
         }
-        check_permissions(path, &meta)?;
+        check_permissions(path, &abs, &meta)?;
         check_magic(&abs)?;
         // SAFETY: loading runs the library's initialisers: native code with the user's
         // rights, which is what a plugin is. The path is absolute, so nothing is searched.
@@ -259,6 +296,7 @@ impl PluginForce {
                 "metadata abi_version differs from arcwise_plugin_abi_version()",
             ));
         }
+        crate::text::check_name("metadata name", &metadata.name).map_err(|m| refuse(path, m))?;
         if metadata.frame != "ECI" {
             return Err(refuse(
                 path,
@@ -340,8 +378,12 @@ impl PluginForce {
             .chunks(3)
             .map(|c| Vector3::new(c[0], c[1], c[2]))
             .collect();
-        if !super::all_finite(&out) {
-            return Err(self.non_finite_error(t_s[0]));
+        if let Some((i, a)) = v
+            .iter()
+            .enumerate()
+            .find(|(_, a)| !crate::force::plausible(a))
+        {
+            return Err(self.implausible_error(t_s[i], *a));
         }
         Ok(v)
     }
@@ -354,6 +396,24 @@ impl PluginForce {
             reason: format!(
                 "plugin {} reported success but returned a non-finite value (NaN or infinity)",
                 self.path.display()
+            ),
+        }
+    }
+
+    /// The plugin returned NaN, an infinity, or an absurd magnitude.
+    #[cold]
+    fn implausible_error(&self, t_s: f64, a: Vector3<f64>) -> ForceError {
+        if !super::all_finite(a.as_slice()) {
+            return self.non_finite_error(t_s);
+        }
+        ForceError {
+            force: self.name.clone(),
+            t_s,
+            reason: format!(
+                "plugin {} returned |a| = {:.3e} km/s², beyond any physical acceleration (> {} km/s²)",
+                self.path.display(),
+                a.norm(),
+                crate::force::MAX_PLAUSIBLE_KM_S2
             ),
         }
     }
@@ -388,10 +448,11 @@ impl Force for PluginForce {
         if code != 0 {
             return Err(self.status_error(t_s, code));
         }
-        if !super::all_finite(&out) {
-            return Err(self.non_finite_error(t_s));
+        let a = Vector3::new(out[0], out[1], out[2]);
+        if !crate::force::plausible(&a) {
+            return Err(self.implausible_error(t_s, a));
         }
-        Ok(Vector3::new(out[0], out[1], out[2]))
+        Ok(a)
     }
 
     /// The plugin's analytic partials when it exports them; central differences otherwise.
