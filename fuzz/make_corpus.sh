@@ -4,7 +4,7 @@ set -euo pipefail
 cd "$(dirname "$0")/.."
 out=fuzz/corpus/parsers
 mkdir -p "$out"
-write() { { printf "\\x$(printf %02x "$1")"; cat "$2"; } > "$out/seed-$1"; }
+write() { { printf "\\x$(printf %02x "$1")"; cat "$2"; } > "$out/seed-$1-$(basename "$2")"; }
 tmp=$(mktemp -d)
 trap 'rm -rf "$tmp"' EXIT
 printf 'epoch_utc,x_km,y_km,z_km,sigma_km\n2031-05-04T00:00:00Z,6878,0,0,0.005\n2031-05-04T00:01:00Z,6863.4,455.3,0,0.005\n2031-05-04T00:02:00Z,6819.9,908.7,0,0.005\n' > "$tmp/arc.csv"
@@ -15,3 +15,13 @@ write 5 examples/scenarios/venting.yaml
 write 6 tests/data/learned_example.yaml
 write 7 tests/data/learned_example.yaml
 write 9 examples/hypotheses/maneuver_day.yaml
+# Hostile seeds: a YAML alias fan-out, deep nesting, a control character in a name.
+{
+    printf 'gravity: { zonal_degree: 2 }\na0: &a0 [x, x, x, x, x, x, x, x, x, x]\n'
+    for i in 1 2 3 4 5 6 7 8; do p=$((i - 1)); printf 'a%d: &a%d [*a%d, *a%d, *a%d, *a%d, *a%d, *a%d, *a%d, *a%d, *a%d, *a%d]\n' $i $i $p $p $p $p $p $p $p $p $p $p; done
+} > "$tmp/bomb.yaml"
+write 3 "$tmp/bomb.yaml"
+python3 -c 'print("x: " + "[" * 5000 + "]" * 5000)' > "$tmp/deep.yaml"
+write 4 "$tmp/deep.yaml"
+sed 's/^object_name: .*/object_name: "A\\nplugins: [evil.so]"/' examples/scenarios/venting.yaml > "$tmp/name.yaml"
+write 5 "$tmp/name.yaml"
