@@ -67,6 +67,13 @@ pub fn run_words(words: &[String]) -> Result<(), CliError> {
 }
 
 fn main() -> ExitCode {
+    // Rust ignores SIGPIPE, so printing into a closed pipe (`arcwise fit … | head -1`)
+    // would panic; the default action ends the process quietly, as command-line tools do.
+    #[cfg(unix)]
+    // SAFETY: setting a signal's disposition to its default has no preconditions.
+    unsafe {
+        libc::signal(libc::SIGPIPE, libc::SIG_DFL);
+    }
     // SIGINT/SIGTERM: remove what the run is in the middle of writing (temporary files,
     // build folders), then exit 130 as a shell expects after an interrupt.
     let _ = ctrlc::set_handler(|| {

@@ -343,3 +343,34 @@ fn sigterm_during_a_build_leaves_no_build_folder() {
     let left: Vec<_> = std::fs::read_dir(&tmp).unwrap().collect();
     assert!(left.is_empty(), "{left:?}");
 }
+
+#[test]
+fn printing_into_a_closed_pipe_ends_quietly() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let (forces, state) = quiet_inputs(d);
+    let mut child = Command::new(env!("CARGO_BIN_EXE_arcwise"))
+        .args([
+            "propagate",
+            "--forces",
+            s(&forces),
+            "--state",
+            s(&state),
+            "--to",
+            "2031-05-04T03:00:00Z",
+            "--step",
+            "60",
+            "--out",
+            s(&d.join("p.csv")),
+        ])
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    // Close the reading end before arcwise prints anything (as `| head -0` would).
+    drop(child.stdout.take());
+    let out = child.wait_with_output().unwrap();
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(!err.contains("panicked"), "{err}");
+    assert_ne!(out.status.code(), Some(101), "{err}");
+}
