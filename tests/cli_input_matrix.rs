@@ -644,6 +644,17 @@ fn bad_inputs(d: &Path, good: &Inputs) -> Vec<Bad> {
         &mut bad,
         d,
         Scenario,
+        "unknown key in a truth term",
+        "truth-key-scenario.yaml",
+        Some(scenario.replace(
+            "truth: []",
+            "truth: [{ drag_factor: { factor: 2.0, start_utc: \"2031-05-04T06:00:00Z\" } }]",
+        )),
+    );
+    add(
+        &mut bad,
+        d,
+        Scenario,
         "inside the Earth",
         "inside-scenario.yaml",
         Some(scenario.replace("sma_km: 6928.1363", "sma_km: 6000")),

@@ -48,7 +48,7 @@ pub struct ScenarioSpec {
 
 /// An unmodelled force of the truth.
 #[derive(Clone, Debug, Deserialize, PartialEq)]
-#[serde(rename_all = "snake_case")]
+#[serde(rename_all = "snake_case", deny_unknown_fields)]
 pub enum TruthTerm {
     /// An RTN push decaying exponentially from a start epoch (venting gas).
     DecayingPush {
