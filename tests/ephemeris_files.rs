@@ -155,3 +155,31 @@ fn oem_time_systems_are_converted() {
     let dt = sample().points[0].epoch.seconds_since(&tai.points[0].epoch);
     assert!((dt - 37.0).abs() < 1e-6, "{dt}");
 }
+
+#[test]
+fn csv_with_a_byte_order_mark_quoted_fields_and_crlf_reads_like_plain_csv() {
+    // Spreadsheet exports: a UTF-8 BOM, quoted fields, CRLF line ends.
+    let dir = tempfile::tempdir().unwrap();
+    let plain = dir.path().join("plain.csv");
+    sample().save(&plain).unwrap();
+    let text = std::fs::read_to_string(&plain).unwrap();
+    let quoted: String = text
+        .lines()
+        .map(|l| {
+            l.split(',')
+                .map(|f| format!("\"{f}\""))
+                .collect::<Vec<_>>()
+                .join(",")
+        })
+        .map(|l| l + "\r\n")
+        .collect();
+    let odd = dir.path().join("odd.csv");
+    std::fs::write(&odd, format!("\u{feff}{quoted}")).unwrap();
+    let a = Ephemeris::load(&plain, &CentralBody::EARTH_EGM96).unwrap();
+    let b = Ephemeris::load(&odd, &CentralBody::EARTH_EGM96).unwrap();
+    assert_eq!(a.points, b.points);
+    // An unknown column is named visibly (quoted, escapes shown), never with an invisible
+    // character in the message.
+    let e = load_text("bad.csv", &format!("\u{200b}epoch_utc,x_km,y_km,z_km\n"));
+    assert!(e.contains("\\u{200b}"), "{e}");
+}

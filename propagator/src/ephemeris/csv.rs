@@ -1,8 +1,9 @@
 //! CSV: `epoch_utc,x_km,y_km,z_km[,vx_km_s,vy_km_s,vz_km_s][,sigma_km]`, header required.
 //!
-//! Blank lines and lines starting with `#` are ignored. Columns are found by their
-//! header names, so their order is free; unknown columns are errors (a column named
-//! `x_m` is called out as metres).
+//! Read with the `csv` crate: a UTF-8 byte-order mark, quoted fields and CRLF line ends
+//! are accepted. Blank lines and lines starting with `#` are ignored. Columns are found
+//! by their header names, so their order is free; unknown columns are errors (a column
+//! named `x_m` is called out as metres).
 
 use super::{file_error, Ephemeris, EphemerisPoint, FileError};
 use crate::state::StateVector;
@@ -38,15 +39,30 @@ const KNOWN: [&str; 8] = [
 
 /// Parses the rows of a CSV (no order or plausibility checks: callers do those).
 pub fn parse_records(text: &str, path: &Path) -> Result<Vec<CsvRecord>, FileError> {
-    let mut lines = text
-        .lines()
-        .enumerate()
-        .map(|(i, l)| (i + 1, l.trim()))
-        .filter(|(_, l)| !l.is_empty() && !l.starts_with('#'));
-    let (hline, header) = lines
+    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    let mut reader = ::csv::ReaderBuilder::new()
+        .has_headers(false)
+        .comment(Some(b'#'))
+        .trim(::csv::Trim::All)
+        .flexible(true)
+        .from_reader(text.as_bytes());
+    let mut rows = reader.records().filter_map(|r| match r {
+        // A record of one empty field is a blank line.
+        Ok(r) if r.len() == 1 && r[0].is_empty() => None,
+        Ok(r) => {
+            let line = r.position().map(|p| p.line() as usize).unwrap_or(0);
+            Some(Ok((line, r)))
+        }
+        Err(e) => {
+            let line = e.position().map(|p| p.line() as usize);
+            Some(Err(file_error(path, line, format!("not valid CSV: {e}"))))
+        }
+    });
+    let (hline, header) = rows
         .next()
+        .transpose()?
         .ok_or_else(|| file_error(path, None, "the file is empty (a header line is required)"))?;
-    let names: Vec<&str> = header.split(',').map(|s| s.trim()).collect();
+    let names: Vec<&str> = header.iter().collect();
     let mut col = [usize::MAX; 8];
     for (i, n) in names.iter().enumerate() {
         match KNOWN.iter().position(|k| k == n) {
@@ -67,7 +83,7 @@ pub fn parse_records(text: &str, path: &Path) -> Result<Vec<CsvRecord>, FileErro
                 return Err(file_error(
                     path,
                     Some(hline),
-                    format!("unknown column `{n}`{hint}; expected epoch_utc,x_km,y_km,z_km[,vx_km_s,vy_km_s,vz_km_s][,sigma_km]"),
+                    format!("unknown column {n:?}{hint}; expected epoch_utc,x_km,y_km,z_km[,vx_km_s,vy_km_s,vz_km_s][,sigma_km]"),
                 ));
             }
         }
@@ -90,8 +106,8 @@ pub fn parse_records(text: &str, path: &Path) -> Result<Vec<CsvRecord>, FileErro
         ));
     }
     let mut out = Vec::new();
-    for (ln, l) in lines {
-        let fields: Vec<&str> = l.split(',').map(|s| s.trim()).collect();
+    for row in rows {
+        let (ln, fields) = row?;
         if fields.len() != names.len() {
             return Err(file_error(
                 path,
@@ -100,12 +116,12 @@ pub fn parse_records(text: &str, path: &Path) -> Result<Vec<CsvRecord>, FileErro
             ));
         }
         let num = |k: usize| -> Result<f64, FileError> {
-            let s = fields[col[k]];
+            let s = &fields[col[k]];
             let v: f64 = s.parse().map_err(|_| {
                 file_error(
                     path,
                     Some(ln),
-                    format!("{}: `{s}` is not a number", KNOWN[k]),
+                    format!("{}: {s:?} is not a number", KNOWN[k]),
                 )
             })?;
             if !v.is_finite() {
@@ -117,7 +133,7 @@ pub fn parse_records(text: &str, path: &Path) -> Result<Vec<CsvRecord>, FileErro
             }
             Ok(v)
         };
-        let epoch = Epoch::parse_utc(fields[col[0]])
+        let epoch = Epoch::parse_utc(&fields[col[0]])
             .map_err(|e| file_error(path, Some(ln), format!("epoch_utc: {e}")))?;
         let r_km = Vector3::new(num(1)?, num(2)?, num(3)?);
         let v_km_s = if nv == 3 {
