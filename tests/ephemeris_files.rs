@@ -180,6 +180,6 @@ fn csv_with_a_byte_order_mark_quoted_fields_and_crlf_reads_like_plain_csv() {
     assert_eq!(a.points, b.points);
     // An unknown column is named visibly (quoted, escapes shown), never with an invisible
     // character in the message.
-    let e = load_text("bad.csv", &format!("\u{200b}epoch_utc,x_km,y_km,z_km\n"));
+    let e = load_text("bad.csv", "\u{200b}epoch_utc,x_km,y_km,z_km\n");
     assert!(e.contains("\\u{200b}"), "{e}");
 }

@@ -31,15 +31,6 @@ impl Scale {
             _ => None,
         }
     }
-
-    fn hifitime(self) -> TimeScale {
-        match self {
-            Scale::Utc => TimeScale::UTC,
-            Scale::Tai => TimeScale::TAI,
-            Scale::Tt => TimeScale::TT,
-            Scale::Gps => TimeScale::GPST,
-        }
-    }
 }
 
 /// An instant in time (nanosecond resolution), independent of any scale.
@@ -147,19 +138,73 @@ impl Epoch {
         if second == 60 && scale != Scale::Utc {
             return Err(parse_error(text, "second 60 exists only in UTC"));
         }
-        let epoch = HfEpoch::maybe_from_gregorian(
-            year,
-            month as u8,
-            day as u8,
-            hour as u8,
-            minute as u8,
-            second as u8,
-            nanos,
-            scale.hifitime(),
-        )
-        .map_err(|e| parse_error(text, e.to_string()))?;
-        // Held on TAI so that arithmetic counts SI seconds across leap seconds.
-        Ok(Epoch(epoch.to_time_scale(TimeScale::TAI)))
+        let day = days_from_civil(year, month, day);
+        let sod_ns = i128::from(hour * 3600 + minute * 60 + second) * NS + i128::from(nanos);
+        let tai_ns = match scale {
+            Scale::Utc => {
+                let dat = tai_minus_utc_on_day(day);
+                // 23:59:60 exists only at the end of a day that ends with a leap second.
+                if second == 60
+                    && !(hour == 23 && minute == 59 && tai_minus_utc_on_day(day + 1) - dat == NS)
+                {
+                    return Err(parse_error(
+                        text,
+                        "second 60 exists only at 23:59:60 UTC of a day that ends with a leap second",
+                    ));
+                }
+                day as i128 * DAY_NS + sod_ns + dat
+            }
+            Scale::Tai => day as i128 * DAY_NS + sod_ns,
+            // TT = TAI + 32.184 s; GPS = TAI − 19 s (definitions of the scales).
+            Scale::Tt => day as i128 * DAY_NS + sod_ns - 32_184_000_000,
+            Scale::Gps => day as i128 * DAY_NS + sod_ns + 19 * NS,
+        };
+        Ok(Epoch::from_tai_ns_since_1900(tai_ns))
+    }
+
+    /// The epoch `ns` nanoseconds of TAI after 1900-01-01T00:00:00 TAI.
+    fn from_tai_ns_since_1900(ns: i128) -> Epoch {
+        let origin = HfEpoch::from_gregorian_tai(1900, 1, 1, 0, 0, 0, 0);
+        Epoch(origin + hifitime::Duration::from_total_nanoseconds(ns))
+    }
+
+    /// Nanoseconds of TAI since 1900-01-01T00:00:00 TAI.
+    fn tai_ns_since_1900(&self) -> i128 {
+        let origin = HfEpoch::from_gregorian_tai(1900, 1, 1, 0, 0, 0, 0);
+        (self.0 - origin).total_nanoseconds()
+    }
+
+    /// The UTC calendar fields `(year, month, day, hour, minute, second, nanosecond)`,
+    /// with `second = 60` during an inserted leap second, after rounding to `round_ns`.
+    fn utc_fields(&self, round_ns: i128) -> (i32, u32, u32, u32, u32, u32, u32) {
+        let (day, sod) = self.utc_day_and_ns(round_ns);
+        let (y, mo, d) = civil_from_days(day);
+        let ns = (sod % NS) as u32;
+        let secs = (sod / NS) as u32;
+        if secs >= 86_400 {
+            return (y, mo, d, 23, 59, 60 + (secs - 86_400), ns);
+        }
+        (y, mo, d, secs / 3600, secs / 60 % 60, secs % 60, ns)
+    }
+
+    /// The UTC day (days since 1900-01-01) and nanoseconds into it (up to 86401 s on a
+    /// day with a leap second), after rounding to `round_ns`.
+    fn utc_day_and_ns(&self, round_ns: i128) -> (i64, i128) {
+        let t = self.tai_ns_since_1900();
+        let t = (t + round_ns / 2).div_euclid(round_ns) * round_ns;
+        let mut day = t.div_euclid(DAY_NS) as i64;
+        loop {
+            let sod = t - day as i128 * DAY_NS - tai_minus_utc_on_day(day);
+            // A day with a leap second lasts 86401 s.
+            let length = DAY_NS + tai_minus_utc_on_day(day + 1) - tai_minus_utc_on_day(day);
+            if sod < 0 {
+                day -= 1;
+            } else if sod >= length {
+                day += 1;
+            } else {
+                return (day, sod);
+            }
+        }
     }
 
     /// Formats as ISO 8601 UTC with microseconds and a trailing `Z`,
@@ -173,11 +218,11 @@ impl Epoch {
 
     /// As [`Epoch::to_utc_string`] without the `Z` (the CCSDS OEM habit).
     pub fn to_utc_string_no_zone(&self) -> String {
-        // Round to the microsecond first so that 59.9999996 s carries into the minute.
-        let rounded = self.0.round(Unit::Microsecond * 1);
-        let (y, mo, d, h, mi, s, ns) = rounded.to_gregorian_utc();
+        // Rounded to the microsecond first, so that 59.9999996 s carries into the minute;
+        // an inserted leap second is written as 23:59:60.
+        let (y, mo, d, h, mi, sec, ns) = self.utc_fields(1_000);
         format!(
-            "{y:04}-{mo:02}-{d:02}T{h:02}:{mi:02}:{s:02}.{:06}",
+            "{y:04}-{mo:02}-{d:02}T{h:02}:{mi:02}:{sec:02}.{:06}",
             ns / 1000
         )
     }
@@ -202,9 +247,11 @@ impl Epoch {
         (self.0.to_jde_tt_days() - 2_451_545.0) / 36_525.0
     }
 
-    /// TAI − UTC at this epoch, seconds (leap seconds from hifitime's table).
+    /// TAI − UTC at this epoch, seconds (leap seconds from hifitime's table; during an
+    /// inserted leap second, the value before it).
     pub fn tai_minus_utc_s(&self) -> f64 {
-        self.0.leap_seconds(true).unwrap_or(0.0)
+        let (day, _) = self.utc_day_and_ns(1);
+        tai_minus_utc_on_day(day) as f64 / 1e9
     }
 
     /// The underlying hifitime epoch.
@@ -222,6 +269,44 @@ impl fmt::Display for Epoch {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         f.write_str(&self.to_utc_string())
     }
+}
+
+const NS: i128 = 1_000_000_000;
+const DAY_NS: i128 = 86_400 * NS;
+
+/// TAI − UTC in force during the UTC day `day` (days since 1900-01-01), ns. Leap
+/// seconds are inserted at the end of a UTC day, so one value holds for the whole day;
+/// it is read at the day's noon from hifitime's leap-second table (IERS leap seconds,
+/// 0 before 1972).
+fn tai_minus_utc_on_day(day: i64) -> i128 {
+    let noon = HfEpoch::from_gregorian_tai(1900, 1, 1, 12, 0, 0, 0) + Unit::Day * day;
+    (noon.leap_seconds(true).unwrap_or(0.0) * 1e9).round() as i128
+}
+
+/// Days from 1900-01-01 to the civil date (proleptic Gregorian; H. Hinnant's
+/// `days_from_civil`, shifted to our origin).
+fn days_from_civil(y: i32, m: u32, d: u32) -> i64 {
+    let y = i64::from(if m <= 2 { y - 1 } else { y });
+    let era = y.div_euclid(400);
+    let yoe = y - era * 400;
+    let m = i64::from(m);
+    let doy = (153 * (if m > 2 { m - 3 } else { m + 9 }) + 2) / 5 + i64::from(d) - 1;
+    let doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
+    era * 146_097 + doe - 719_468 + 25_567
+}
+
+/// The civil date of a day count from 1900-01-01 (inverse of [`days_from_civil`]).
+fn civil_from_days(days: i64) -> (i32, u32, u32) {
+    let z = days - 25_567 + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z - era * 146_097;
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let d = (doy - (153 * mp + 2) / 5 + 1) as u32;
+    let m = if mp < 10 { mp + 3 } else { mp - 9 } as u32;
+    let y = yoe + era * 400 + i64::from(m <= 2);
+    (y as i32, m, d)
 }
 
 /// The time axis of a propagation: a reference epoch and SI seconds (TAI) from it.

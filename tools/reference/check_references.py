@@ -15,6 +15,7 @@ ROOT = HERE.parents[1]
 sys.path.insert(0, str(HERE))
 
 import chi2  # noqa: E402
+import leap_seconds  # noqa: E402
 import sun_moon  # noqa: E402
 import third_body_trajectories  # noqa: E402
 import trajectories  # noqa: E402
@@ -27,6 +28,7 @@ FILES = [
     "tests/data/reference/sun_moon_de421.json",
     "tests/data/reference/third_body_trajectories.json",
     "tests/data/reference/chi2_sf.json",
+    "tests/data/reference/leap_seconds.json",
 ]
 
 
@@ -52,6 +54,7 @@ def main():
         sun_moon.main(tmp)
         third_body_trajectories.main(tmp)
         chi2.main(tmp)
+        leap_seconds.main(tmp)
         bad = 0
         for rel in FILES:
             new, old = (tmp / rel).read_text(), (ROOT / rel).read_text()
