@@ -180,3 +180,163 @@ fn rank_cli_orders_hypotheses_and_reports_them() {
     assert_eq!(code, 2);
     assert!(stderr.contains("teleport"), "{stderr}");
 }
+
+/// The constructed crossing (0.5 km at 12:00) with J2, the secondary as OEMs sampled
+/// every `steps` seconds from 10:00 to 14:00; returns (dir, forces, primary, OEM paths).
+fn sparse_crossing(
+    steps: &[u32],
+) -> (
+    tempfile::TempDir,
+    std::path::PathBuf,
+    std::path::PathBuf,
+    Vec<std::path::PathBuf>,
+) {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let forces = common::write(d, "forces.yaml", "gravity: { zonal_degree: 2 }\n");
+    let (a, mu): (f64, f64) = (7000.0, 398_600.441_8);
+    let (v, v2) = ((mu / a).sqrt(), (mu / (a + 0.5)).sqrt());
+    let p = common::write(
+        d,
+        "p.yaml",
+        &format!("object_name: PRIMARY-1\nepoch_utc: 2031-05-04T12:00:00Z\nr_km: [{a}, 0, 0]\nv_km_s: [0, {v}, 0]\n"),
+    );
+    let q = common::write(
+        d,
+        "q.yaml",
+        &format!("object_name: CROSSER-2\nepoch_utc: 2031-05-04T12:00:00Z\nr_km: [{}, 0, 0]\nv_km_s: [0, 0, {v2}]\n", a + 0.5),
+    );
+    let run = |state: &Path, to: &str, step: u32, out: &Path| {
+        let (code, _, err) = arcwise(&[
+            "propagate",
+            "--forces",
+            s(&forces),
+            "--state",
+            s(state),
+            "--to",
+            to,
+            "--step",
+            &step.to_string(),
+            "--out",
+            s(out),
+        ]);
+        assert_eq!(code, 0, "{err}");
+    };
+    // Back to 10:00, then forward to 14:00 at each sampling.
+    let back = d.join("back.oem");
+    run(&q, "2031-05-04T10:00:00Z", 60, &back);
+    let e = propagator::ephemeris::Ephemeris::load(&back, &propagator::CentralBody::EARTH_EGM96)
+        .unwrap();
+    let x = e.points[0].state;
+    let start = common::write(
+        d,
+        "start.yaml",
+        &format!(
+            "object_name: CROSSER-2\nepoch_utc: {}\nr_km: [{}, {}, {}]\nv_km_s: [{}, {}, {}]\n",
+            e.points[0].epoch, x[0], x[1], x[2], x[3], x[4], x[5]
+        ),
+    );
+    let outs = steps
+        .iter()
+        .map(|st| {
+            let out = d.join(format!("q{st}.oem"));
+            run(&start, "2031-05-04T14:00:00Z", *st, &out);
+            out
+        })
+        .collect();
+    (dir, forces, p, outs)
+}
+
+fn screen(forces: &Path, primary: &Path, secondary: &Path, report: &Path) -> (i32, String, String) {
+    arcwise(&[
+        "screen",
+        "--primary",
+        s(primary),
+        "--secondaries",
+        s(secondary),
+        "--forces",
+        s(forces),
+        "--from",
+        "2031-05-04T11:00:00Z",
+        "--to",
+        "2031-05-04T13:00:00Z",
+        "--threshold-km",
+        "5",
+        "--report",
+        s(report),
+    ])
+}
+
+#[test]
+fn sparse_legal_oem_sampling_still_gives_the_right_miss() {
+    // 10- and 15-minute sampling is legal in an OEM; cubic Hermite over 600 s at 7000 km
+    // is off by kilometres (h⁴/384·n⁴·r), which used to give a 3.9 km miss for 1.5 km.
+    let (dir, forces, p, oems) = sparse_crossing(&[60, 600, 900]);
+    for oem in &oems {
+        let rep = dir.path().join("s.json");
+        let (code, out, err) = screen(&forces, &p, oem, &rep);
+        assert_eq!(code, 0, "{err}");
+        let r: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&rep).unwrap()).unwrap();
+        let aps = r["approaches"].as_array().unwrap();
+        assert_eq!(aps.len(), 1, "{}: {out}", oem.display());
+        let miss = aps[0]["miss_km"].as_f64().unwrap();
+        assert!(
+            (miss - 0.5).abs() < 0.01,
+            "{}: miss {miss} km",
+            oem.display()
+        );
+        assert!(aps[0]["tca_utc"]
+            .as_str()
+            .unwrap()
+            .starts_with("2031-05-04T12:00:00"));
+        // Objects are named by their OBJECT_NAME, not by path.
+        assert_eq!(aps[0]["secondary_object"], "CROSSER-2");
+        assert!(out.contains("CROSSER-2"), "{out}");
+    }
+}
+
+#[test]
+fn gaps_segments_other_objects_and_the_primary_itself_are_refused() {
+    let (dir, forces, p, oems) = sparse_crossing(&[60]);
+    let d = dir.path();
+    let text = std::fs::read_to_string(&oems[0]).unwrap();
+    let (head, data) = text.split_once("META_STOP\n").unwrap();
+    let rows: Vec<&str> = data.lines().filter(|l| !l.trim().is_empty()).collect();
+    let meta = &head[head.find("META_START").unwrap()..];
+    // Two segments 10:00–11:30 and 13:30–14:00: a 2-hour gap inside the window.
+    let gap = format!(
+        "{head}META_STOP\n{}\n\n{meta}META_STOP\n{}\n",
+        rows[..91].join("\n"),
+        rows[210..].join("\n")
+    );
+    let gapped = common::write(d, "gap.oem", &gap);
+    let rep = d.join("s.json");
+    let (code, _, err) = screen(&forces, &p, &gapped, &rep);
+    assert_eq!(code, 2, "{err}");
+    assert!(
+        err.contains("between OEM segments") && err.contains("gap"),
+        "{err}"
+    );
+    // The same file with another object in the second segment.
+    let two = gap.replacen(
+        &format!("{meta}META_STOP\n{}", rows[210]),
+        &format!(
+            "{}META_STOP\n{}",
+            meta.replace("CROSSER-2", "OTHER-9"),
+            rows[210]
+        ),
+        1,
+    );
+    assert!(two.contains("OTHER-9"));
+    let (code, _, err) = screen(&forces, &p, &common::write(d, "two.oem", &two), &rep);
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("one object per file"), "{err}");
+    // The primary against itself, as another file naming the same object.
+    let same = common::write(d, "same.yaml", &std::fs::read_to_string(&p).unwrap());
+    let (code, _, err) = screen(&forces, &p, &same, &rep);
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("against itself"), "{err}");
+    let (code, _, err) = screen(&forces, &p, &p, &rep);
+    assert_eq!(code, 2, "{err}");
+}

@@ -26,6 +26,7 @@ fn sample() -> Ephemeris {
         object_name: "KESTREL-3".into(),
         object_id: "2031-042A".into(),
         points,
+        segment_starts: vec![],
     }
 }
 

@@ -500,6 +500,7 @@ impl ScenarioSpec {
             object_name: self.object_name.clone(),
             object_id: String::new(),
             points: Vec::new(),
+            segment_starts: vec![],
         };
         for (ts, x) in &p.samples {
             truth.points.push(EphemerisPoint {

@@ -172,6 +172,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
         object_name: initial.object_name.clone().unwrap_or_default(),
         object_id: String::new(),
         points,
+        segment_starts: vec![],
     };
     eph.save(&a.out).map_err(CliError::input)?;
 

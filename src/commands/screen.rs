@@ -111,38 +111,142 @@ fn model_for(ctx: &Ctx, epoch: Epoch, name: &Path) -> Result<ForceModel, String>
         .map_err(|e| e.to_string())
 }
 
-fn load_track(path: &Path, ctx: &Ctx) -> Result<Track, String> {
+/// The largest cubic-Hermite error accepted between two ephemeris states, km; beyond
+/// it the grid is filled by propagating from the nearer state.
+const HERMITE_TOLERANCE_KM: f64 = 1e-3;
+
+/// An upper estimate of the cubic-Hermite position error over one interval of `h_s`
+/// seconds at radius `r_km`: h⁴/384 · max|r⁗| (the interpolation remainder), with
+/// |r⁗| ≈ 4 (μ/r³)² r for orbital motion (the factor 4 covers moderate eccentricity).
+fn hermite_error_km(h_s: f64, r_km: f64, mu: f64) -> f64 {
+    let n2 = mu / (r_km * r_km * r_km);
+    h_s.powi(4) / 384.0 * 4.0 * n2 * n2 * r_km
+}
+
+/// States of an ephemeris on the screening grid, one OEM segment at a time: cubic
+/// Hermite where its error bound is below [`HERMITE_TOLERANCE_KM`], otherwise the
+/// nearer state propagated (with --forces, or two-body + J2); never across a segment
+/// boundary, and an error where the window falls outside every segment.
+fn track_from_ephemeris(eph: &Ephemeris, path: &Path, ctx: &Ctx) -> Result<Track, String> {
+    let body = ctx.forces.map(|f| f.0.central_body).unwrap_or_default();
+    let times: Vec<f64> = eph
+        .points
+        .iter()
+        .map(|p| ctx.axis.seconds(&p.epoch))
+        .collect();
+    let segments = eph.segments();
+    let model = match ctx.forces {
+        Some(_) => model_for(ctx, ctx.axis.reference, path)?,
+        None => ForcesFile::parse("gravity: { zonal_degree: 2 }\n", path)
+            .and_then(|f| f.build(path, ctx.axis.reference))
+            .map(|l| l.model)
+            .map_err(|e| e.to_string())?,
+    };
+    let utc = |t: f64| ctx.axis.epoch(t).to_utc_string();
+    let mut states = Vec::with_capacity(ctx.grid.len());
+    let mut k = 0;
+    while k < ctx.grid.len() {
+        let t = ctx.grid[k];
+        let Some(seg) = segments
+            .iter()
+            .find(|r| times[r.start] <= t && t <= times[r.end - 1])
+        else {
+            let before = segments.iter().rev().find(|r| times[r.end - 1] < t);
+            let after = segments.iter().find(|r| times[r.start] > t);
+            return Err(match (before, after) {
+                (Some(b), Some(a)) => format!(
+                    "{}: no states from {} to {} (between OEM segments) inside the window: screening never interpolates across a gap; give a complete ephemeris or a state to propagate",
+                    path.display(), utc(times[b.end - 1]), utc(times[a.start])
+                ),
+                _ => format!(
+                    "{}: the ephemeris ({} to {}) does not cover the window",
+                    path.display(),
+                    utc(times[0]),
+                    utc(times[times.len() - 1])
+                ),
+            });
+        };
+        // The interval [i, i + 1] of this segment that holds t, and every grid time in it.
+        let i = (seg.start + times[seg.clone()].partition_point(|s| *s <= t))
+            .saturating_sub(1)
+            .clamp(seg.start, (seg.end - 1).max(seg.start + 1) - 1);
+        let j = (i + 1).min(seg.end - 1);
+        let mut inside = vec![t];
+        while k + inside.len() < ctx.grid.len() && ctx.grid[k + inside.len()] <= times[j] {
+            inside.push(ctx.grid[k + inside.len()]);
+        }
+        let (x0, x1) = (eph.points[i].state, eph.points[j].state);
+        let r = x0
+            .fixed_rows::<3>(0)
+            .norm()
+            .min(x1.fixed_rows::<3>(0).norm());
+        let h = times[j] - times[i];
+        if j == i || hermite_error_km(h, r, body.mu_km3_s2) <= HERMITE_TOLERANCE_KM {
+            let raw = Track {
+                times: vec![times[i], times[j].max(times[i] + 1e-9)],
+                states: vec![x0, x1],
+            };
+            for tt in &inside {
+                let (p, v) = raw.at(*tt);
+                states.push(StateVector::new(p[0], p[1], p[2], v[0], v[1], v[2]));
+            }
+        } else {
+            let mid = 0.5 * (times[i] + times[j]);
+            let (first, second): (Vec<f64>, Vec<f64>) = inside.iter().partition(|tt| **tt <= mid);
+            let run = |x: StateVector, t0: f64, outs: &[f64]| -> Result<Vec<StateVector>, String> {
+                if outs.is_empty() {
+                    return Ok(vec![]);
+                }
+                let end = if outs[0] < t0 {
+                    outs[0]
+                } else {
+                    outs[outs.len() - 1]
+                };
+                let req = Request {
+                    x0: x,
+                    t0_s: t0,
+                    t_end_s: end,
+                    output_times_s: outs,
+                    stop_times_s: &[],
+                };
+                let p = propagate(&model, &req, &Options::default(), &mut Silent)
+                    .map_err(|e| format!("{}: filling between states: {e}", path.display()))?;
+                Ok(p.samples.into_iter().map(|s| s.1).collect())
+            };
+            states.extend(run(x0, times[i], &first)?);
+            // Backward from the later state: outputs in decreasing time, then reversed.
+            let back: Vec<f64> = second.iter().rev().copied().collect();
+            let mut later = run(x1, times[j], &back)?;
+            later.reverse();
+            states.extend(later);
+        }
+        k += inside.len();
+    }
+    if states.len() != ctx.grid.len() {
+        return Err(format!("{}: could not fill the window", path.display()));
+    }
+    Ok(Track {
+        times: ctx.grid.to_vec(),
+        states,
+    })
+}
+
+/// A trajectory on the grid, the object's name for display (OEM `OBJECT_NAME`, the state
+/// file's or learned file's name, or the file name), and the name that identifies the
+/// object when the file states one (OEM `OBJECT_NAME`, a state file's `object_name`).
+fn load_track(path: &Path, ctx: &Ctx) -> Result<(Track, String, Option<String>), String> {
+    let stem = || {
+        path.file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_default()
+    };
     if Format::from_path(path).is_ok() {
         let body = ctx.forces.map(|f| f.0.central_body).unwrap_or_default();
         let eph = Ephemeris::load(path, &body).map_err(|e| e.to_string())?;
-        let times: Vec<f64> = eph
-            .points
-            .iter()
-            .map(|p| ctx.axis.seconds(&p.epoch))
-            .collect();
-        let end = *ctx.grid.last().unwrap_or(&0.0);
-        if times.first().is_none_or(|t| *t > 0.0) || times.last().is_none_or(|t| *t < end) {
-            return Err(format!(
-                "{}: the ephemeris does not cover the window",
-                path.display()
-            ));
-        }
-        let raw = Track {
-            times,
-            states: eph.points.iter().map(|p| p.state).collect(),
-        };
-        let states = ctx
-            .grid
-            .iter()
-            .map(|t| {
-                let (r, v) = raw.at(*t);
-                StateVector::new(r[0], r[1], r[2], v[0], v[1], v[2])
-            })
-            .collect();
-        return Ok(Track {
-            times: ctx.grid.to_vec(),
-            states,
-        });
+        let named = (!eph.object_name.is_empty() && eph.object_name != "UNNAMED")
+            .then(|| eph.object_name.clone());
+        let name = named.clone().unwrap_or_else(stem);
+        return Ok((track_from_ephemeris(&eph, path, ctx)?, name, named));
     }
     let text = propagator::input::read_text(path, propagator::input::MAX_DATA_BYTES)
         .map_err(|e| format!("{}: {e}", path.display()))?;
@@ -164,12 +268,17 @@ fn load_track(path: &Path, ctx: &Ctx) -> Result<Track, String> {
             s.v_km_s[1],
             s.v_km_s[2],
         );
-        return sampled(&model, epoch, x, ctx, path);
+        return Ok((sampled(&model, epoch, x, ctx, path)?, f.name.clone(), None));
     }
     let body = ctx.forces.map(|f| f.0.central_body).unwrap_or_default();
     let st = StateFile::parse(&text, path, &body).map_err(|e| e.to_string())?;
     let model = model_for(ctx, st.epoch, path)?;
-    sampled(&model, st.epoch, st.state, ctx, path)
+    let name = st.object_name.clone().unwrap_or_else(stem);
+    Ok((
+        sampled(&model, st.epoch, st.state, ctx, path)?,
+        name,
+        st.object_name,
+    ))
 }
 
 /// Runs the command.
@@ -213,19 +322,32 @@ pub fn run(a: Args) -> Result<(), CliError> {
         grid: &grid,
         forces: spec.as_ref().zip(a.forces.as_deref()),
     };
-    let primary = load_track(&a.primary, &ctx).map_err(CliError::input)?;
-    let results: Vec<Result<Vec<Approach>, String>> = a
+    let (primary, primary_name, primary_id) =
+        load_track(&a.primary, &ctx).map_err(CliError::input)?;
+    let primary_file = std::fs::canonicalize(&a.primary).ok();
+    let results: Vec<Result<(String, Vec<Approach>), String>> = a
         .secondaries
         .par_iter()
-        .map(|s| load_track(s, &ctx).map(|t| approaches(&primary, &t, a.threshold_km)))
+        .map(|s| {
+            let (t, name, id) = load_track(s, &ctx)?;
+            let same_file = primary_file.is_some() && std::fs::canonicalize(s).ok() == primary_file;
+            if same_file || (id.is_some() && id == primary_id) {
+                return Err(format!(
+                    "{}: the secondary is the primary object ({name}): screening an object against itself finds nothing real",
+                    s.display()
+                ));
+            }
+            Ok((name, approaches(&primary, &t, a.threshold_km)))
+        })
         .collect();
     let mut rows = Vec::new();
     for (path, r) in a.secondaries.iter().zip(results) {
-        for ap in r.map_err(CliError::input)? {
-            rows.push((path.clone(), ap));
+        let (name, found) = r.map_err(CliError::input)?;
+        for ap in found {
+            rows.push((path.clone(), name.clone(), ap));
         }
     }
-    rows.sort_by(|x, y| x.1.tca_s.total_cmp(&y.1.tca_s));
+    rows.sort_by(|x, y| x.2.tca_s.total_cmp(&y.2.tca_s));
     println!("{SCREENING_NOTICE}");
     println!(
         "screened {} against {} secondaries, {} → {}, threshold {} km: {} close approaches",
@@ -236,9 +358,9 @@ pub fn run(a: Args) -> Result<(), CliError> {
         a.threshold_km,
         rows.len()
     );
-    for (p, ap) in &rows {
+    for (p, name, ap) in &rows {
         println!(
-            "  TCA {}  miss {:.3} km  rel. speed {:.3} km/s  RTN [{:.3}, {:.3}, {:.3}] km  {}",
+            "  TCA {}  miss {:.3} km  rel. speed {:.3} km/s  RTN [{:.3}, {:.3}, {:.3}] km  {name} ({})",
             ctx.axis.epoch(ap.tca_s),
             ap.miss_km,
             ap.relative_speed_km_s,
@@ -258,8 +380,10 @@ pub fn run(a: Args) -> Result<(), CliError> {
             "from_utc": from.to_utc_string(),
             "to_utc": to.to_utc_string(),
             "threshold_km": a.threshold_km,
-            "approaches": rows.iter().map(|(p, ap)| serde_json::json!({
+            "primary_object": primary_name,
+            "approaches": rows.iter().map(|(p, name, ap)| serde_json::json!({
                 "secondary": p.display().to_string(),
+                "secondary_object": name,
                 "tca_utc": ctx.axis.epoch(ap.tca_s).to_utc_string(),
                 "miss_km": ap.miss_km,
                 "relative_speed_km_s": ap.relative_speed_km_s,

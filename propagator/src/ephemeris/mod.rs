@@ -31,6 +31,23 @@ pub struct Ephemeris {
     pub object_id: String,
     /// States, strictly increasing in epoch.
     pub points: Vec<EphemerisPoint>,
+    /// Index in `points` of the first state of each OEM segment after the first (empty
+    /// for one segment). States are never interpolated across a segment boundary.
+    pub segment_starts: Vec<usize>,
+}
+
+impl Ephemeris {
+    /// The index ranges of the segments in `points`.
+    pub fn segments(&self) -> Vec<std::ops::Range<usize>> {
+        let mut bounds = vec![0];
+        bounds.extend(self.segment_starts.iter().copied());
+        bounds.push(self.points.len());
+        bounds
+            .windows(2)
+            .map(|w| w[0]..w[1])
+            .filter(|r| !r.is_empty())
+            .collect()
+    }
 }
 
 /// A file that could not be read or written, with the line where known.

@@ -105,6 +105,9 @@ pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileErr
                 scale = None;
                 segments += 1;
                 meta_keys.clear();
+                if segments > 1 && !eph.points.is_empty() {
+                    eph.segment_starts.push(eph.points.len());
+                }
             }
             Where::Header => match kv {
                 Some(("CCSDS_OEM_VERS", v)) => {
@@ -155,11 +158,17 @@ pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileErr
                 match k {
                     "OBJECT_NAME" | "OBJECT_ID" => {
                         crate::text::check_name(k, v).map_err(|m| file_error(path, Some(ln), m))?;
-                        if k == "OBJECT_NAME" {
-                            eph.object_name = v.to_string();
+                        let field = if k == "OBJECT_NAME" {
+                            &mut eph.object_name
                         } else {
-                            eph.object_id = v.to_string();
+                            &mut eph.object_id
+                        };
+                        // An ephemeris is one object's: segments of several objects in
+                        // one file would be merged into one impossible trajectory.
+                        if segments > 1 && *field != v {
+                            return Err(file_error(path, Some(ln), format!("{k} = {v} in segment {segments}, but the first segment's is {field}: give one object per file")));
                         }
+                        *field = v.to_string();
                     }
                     "CENTER_NAME" => {
                         if !v.eq_ignore_ascii_case("EARTH") {
