@@ -9,13 +9,16 @@ use learned_forces::arc::{Arc, ArcDefaults};
 use learned_forces::expr::Context;
 use learned_forces::fit::FitOptions;
 use learned_forces::learn::hypotheses::parse_hypotheses;
-use learned_forces::learn::rank::rank;
+use learned_forces::learn::rank::{best_explains, evidence_words, rank, Param};
 use learned_forces::learn::{linearize, LearnOptions};
 use learned_forces::learned_file::LearnedResolver;
 use propagator::config::ForcesFile;
 use propagator::solar_system::CenturyClock;
 use propagator::Epoch;
 use std::path::PathBuf;
+
+/// The caution printed with every ranking and kept in its report.
+pub const RANK_NOTICE: &str = "Maneuver hypotheses from a covariance-free linearized fit: a screening aid only. Maneuver and collision-avoidance decisions follow the operator's own procedures and the applicable space-safety rules.";
 
 /// Options of `arcwise rank`.
 #[derive(ClapArgs, Debug)]
@@ -94,40 +97,71 @@ pub fn run(a: Args) -> Result<(), CliError> {
     progress.finish();
     let (_, problem) = lin.map_err(|e| CliError::input(format!("{}: {e}", a.arc.display())))?;
     let ranked = rank(&problem, &hyps);
-    let show = |name: &str, v: f64| {
-        if name == "epoch_s" || name == "start_s" {
-            t0.plus_seconds(v).to_utc_string()
+    let alpha = FitOptions::default().alpha;
+    let explains = best_explains(&ranked, alpha);
+    let none_bic = ranked
+        .iter()
+        .find(|r| r.name == "no_maneuver")
+        .map(|r| r.bic)
+        .unwrap_or_else(|| problem.base_cost());
+    // Timing parameters are seconds from the arc's start; shown as UTC under a UTC name.
+    let timing = |name: &str| name == "epoch_s" || name == "start_s";
+    let shown = |p: &Param| {
+        if timing(&p.name) {
+            format!(
+                "{} = {} ± {:.1} s",
+                p.name.replace("_s", "_utc"),
+                t0.plus_seconds(p.value),
+                p.sigma
+            )
         } else {
-            format!("{v:.6e}")
+            format!("{} = {:.6e} ± {:.2e}", p.name, p.value, p.sigma)
         }
     };
-    println!("Maneuver hypotheses ranked by BIC (a screening aid; maneuver decisions follow the operator's procedures):");
+    println!("{RANK_NOTICE}");
+    println!("Maneuver hypotheses ranked by BIC (ΔBIC against no maneuver; evidence on the Kass–Raftery scale):");
     for (i, r) in ranked.iter().enumerate() {
-        let params: Vec<String> = r
-            .params
-            .iter()
-            .map(|p| format!("{} = {} ± {:.2e}", p.name, show(&p.name, p.value), p.sigma))
-            .collect();
+        let params: Vec<String> = r.params.iter().map(shown).collect();
         println!(
-            "  {}. {:<24} BIC {:>14.1}  log10 evidence vs none {:>10.1}  {}",
+            "  {}. {:<24} ΔBIC {:>+12.1}  evidence {:<20} χ²/dof {:>8.2}  {}",
             i + 1,
             r.name,
-            r.bic,
-            r.log10_evidence_vs_none,
+            r.bic - none_bic,
+            evidence_words(r.bic - none_bic),
+            r.cost / r.dof as f64,
             params.join(", ")
         );
     }
+    let verdict = if explains {
+        format!("the best hypothesis ({}) explains the arc", ranked[0].name)
+    } else {
+        format!(
+            "NONE of these hypotheses explains the arc: the best ({}) still leaves χ² = {:.0} on {} dof (p = {:.1e}); the order above is not evidence for any of them",
+            ranked.first().map(|r| r.name.as_str()).unwrap_or("-"),
+            ranked.first().map(|r| r.cost).unwrap_or(f64::NAN),
+            ranked.first().map(|r| r.dof).unwrap_or(0),
+            ranked.first().map(|r| r.p_value).unwrap_or(0.0)
+        )
+    };
+    println!("{verdict}");
     if let Some(path) = &a.report {
         let report = serde_json::json!({
             "command": "rank",
             "arcwise_version": env!("CARGO_PKG_VERSION"),
+            "notice": RANK_NOTICE,
             "arc_file": a.arc.display().to_string(),
+            "arc_start_utc": t0.to_utc_string(),
+            "best_explains_arc": explains,
+            "verdict": verdict,
+            "alpha": alpha,
             "hypotheses": ranked.iter().map(|r| serde_json::json!({
-                "name": r.name, "parameters_fitted": r.k, "chi2": r.cost, "bic": r.bic,
+                "name": r.name, "parameters_fitted": r.k, "chi2": r.cost, "dof": r.dof,
+                "p_value": r.p_value, "bic": r.bic, "delta_bic_vs_no_maneuver": r.bic - none_bic,
+                "evidence_vs_no_maneuver": evidence_words(r.bic - none_bic),
                 "log10_evidence_vs_no_maneuver": r.log10_evidence_vs_none,
                 "parameters": r.params.iter().map(|p| {
                     let mut j = serde_json::json!({"name": p.name, "value": p.value, "sigma": p.sigma});
-                    if p.name == "epoch_s" || p.name == "start_s" {
+                    if timing(&p.name) {
                         j["utc"] = t0.plus_seconds(p.value).to_utc_string().into();
                     }
                     j
@@ -135,6 +169,12 @@ pub fn run(a: Args) -> Result<(), CliError> {
             })).collect::<Vec<_>>(),
         });
         write_report(path, &report)?;
+    }
+    if !explains {
+        return Err(CliError {
+            message: "none of the hypotheses explains the arc".into(),
+            code: crate::error::EXIT_CHECK_FAILED,
+        });
     }
     Ok(())
 }

@@ -7,6 +7,7 @@
 //!   - impulsive: { from_utc: "2031-05-04T01:00:00Z", to_utc: "2031-05-04T23:00:00Z" }
 //!   - finite_burn: { from_utc: "…", to_utc: "…", max_duration_s: 3600 }
 //!   - continuous_along_track
+//!   - thrust_from_epoch: { from_utc: "…", to_utc: "…" }
 //! ```
 
 use super::rank::Hypothesis;
@@ -35,6 +36,10 @@ enum HypothesisSpec {
         max_duration_s: f64,
     },
     ContinuousAlongTrack,
+    ThrustFromEpoch {
+        from_utc: String,
+        to_utc: String,
+    },
 }
 
 /// Parses a hypotheses file for an arc that starts at `arc_start` and lasts
@@ -84,6 +89,10 @@ pub fn parse_hypotheses(
                 HypothesisSpec::Impulsive { from_utc, to_utc } => {
                     let (from_s, to_s) = window(i, from_utc, to_utc)?;
                     Hypothesis::Impulsive { from_s, to_s }
+                }
+                HypothesisSpec::ThrustFromEpoch { from_utc, to_utc } => {
+                    let (from_s, to_s) = window(i, from_utc, to_utc)?;
+                    Hypothesis::ThrustFromEpoch { from_s, to_s }
                 }
                 HypothesisSpec::FiniteBurn {
                     from_utc,
