@@ -238,3 +238,39 @@ fn bad_arcs_and_options_exit_2_with_one_message_and_no_output() {
         "{stderr}"
     );
 }
+
+#[test]
+fn off_a_terminal_long_work_prints_progress_lines() {
+    // stderr is a pipe here, as in a log or CI: no bar, but timed lines (every 5 s by
+    // default; every update with ARCWISE_PROGRESS_EVERY_S=0).
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("q");
+    let (code, _, err) = arcwise(&["simulate", s(&scenario("quiet.yaml")), "--out", s(&out)]);
+    assert_eq!(code, 0, "{err}");
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_arcwise"))
+        .args([
+            "fit",
+            "--arc",
+            s(&out.join("train.csv")),
+            "--forces",
+            s(&out.join("forces.yaml")),
+        ])
+        .env("ARCWISE_PROGRESS_EVERY_S", "0")
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(o.status.success(), "{err}");
+    assert!(err.lines().any(|l| l.starts_with("fit: stage")), "{err}");
+    // Without the override, a run this short prints no progress line at all.
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_arcwise"))
+        .args([
+            "fit",
+            "--arc",
+            s(&out.join("train.csv")),
+            "--forces",
+            s(&out.join("forces.yaml")),
+        ])
+        .output()
+        .unwrap();
+    assert!(!String::from_utf8_lossy(&o.stderr).contains("fit: stage"));
+}

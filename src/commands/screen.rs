@@ -325,9 +325,11 @@ pub fn run(a: Args) -> Result<(), CliError> {
     let (primary, primary_name, primary_id) =
         load_track(&a.primary, &ctx).map_err(CliError::input)?;
     let primary_file = std::fs::canonicalize(&a.primary).ok();
+    let progress = crate::progress::CountProgress::new("screen", a.secondaries.len());
     let results: Vec<Result<(String, Vec<Approach>), String>> = a
         .secondaries
         .par_iter()
+        .inspect(|_| progress.tick())
         .map(|s| {
             let (t, name, id) = load_track(s, &ctx)?;
             let same_file = primary_file.is_some() && std::fs::canonicalize(s).ok() == primary_file;
@@ -340,6 +342,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
             Ok((name, approaches(&primary, &t, a.threshold_km)))
         })
         .collect();
+    progress.finish();
     let mut rows = Vec::new();
     for (path, r) in a.secondaries.iter().zip(results) {
         let (name, found) = r.map_err(CliError::input)?;
