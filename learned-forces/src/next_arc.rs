@@ -77,7 +77,7 @@ pub fn predict(
         stop_times_s: &[],
     };
     let p = propagate(model, &req, &Options::default(), &mut Silent)
-        .map_err(|e| format!("prediction failed: {e}"))?;
+        .map_err(|e| format!("prediction failed: {}", e.with_utc(start)))?;
     if p.samples.len() != times.len() {
         return Err("the prediction decays before the end of the arc".into());
     }

@@ -126,6 +126,19 @@ pub enum PropagationError {
     BadRequest(String),
 }
 
+impl PropagationError {
+    /// The message with the time in UTC as well, for a model whose `t_s = 0` is
+    /// `reference` (a relative `t = 86402.55 s` alone tells a user nothing).
+    pub fn with_utc(&self, reference: &crate::time::Epoch) -> String {
+        match self {
+            PropagationError::Integration(e) => {
+                format!("{self} [at {}]", reference.plus_seconds(e.t_s()))
+            }
+            PropagationError::BadRequest(_) => self.to_string(),
+        }
+    }
+}
+
 /// An impulsive maneuver as applied during a propagation.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct AppliedImpulse {

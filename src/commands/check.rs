@@ -65,6 +65,18 @@ pub fn run(a: Args) -> Result<(), CliError> {
         }
     }
     let file = LearnedFile::load(&a.learned).map_err(CliError::input)?;
+    // A force learned against one known model means little on top of another: say so.
+    let forces_hash = std::fs::read(&a.forces)
+        .map(|b| learned_forces::learned_file::sha256_hex(&b))
+        .map_err(|e| CliError::input(format!("{}: {e}", a.forces.display())))?;
+    if forces_hash != file.provenance.forces_sha256 {
+        propagator::notice::warn_once(format!(
+            "{} is not the forces file {} was learned with ({} there, {forces_hash} here): the learned force may miss or double-count what the two models treat differently",
+            a.forces.display(),
+            a.learned.display(),
+            file.provenance.forces_sha256
+        ));
+    }
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
     let arc = Arc::load(
         &a.arc,

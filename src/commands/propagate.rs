@@ -57,7 +57,8 @@ pub struct Args {
     report: Option<PathBuf>,
 }
 
-/// The initial state from a state file, or the last state of an ephemeris.
+/// The initial state from a state file, the last state of an ephemeris, or a learned
+/// file's fitted end state (`state_at_end`).
 fn load_initial(
     path: &std::path::Path,
     body: &propagator::CentralBody,
@@ -75,7 +76,26 @@ fn load_initial(
                 object_name: (!eph.object_name.is_empty()).then(|| eph.object_name.clone()),
             })
         }
-        Err(_) => StateFile::load(path, body).map_err(CliError::input),
+        Err(_) => {
+            let text = propagator::input::read_text(path, propagator::input::MAX_CONFIG_BYTES)
+                .map_err(|e| CliError::input(format!("{}: {e}", path.display())))?;
+            if text.contains("format_version:") && text.contains("state_at_end:") {
+                let f = learned_forces::learned_file::LearnedFile::load(path)
+                    .map_err(CliError::input)?;
+                let (epoch, state) = f
+                    .state_at_end
+                    .state("state_at_end")
+                    .map_err(|e| CliError::input(format!("{}: {e}", path.display())))?;
+                propagator::config::check_state_plausible(&state, body)
+                    .map_err(|e| CliError::input(format!("{}: {e}", path.display())))?;
+                return Ok(InitialState {
+                    epoch,
+                    state,
+                    object_name: Some(f.name.clone()),
+                });
+            }
+            StateFile::parse(&text, path, body).map_err(CliError::input)
+        }
     }
 }
 
@@ -153,7 +173,12 @@ pub fn run(a: Args) -> Result<(), CliError> {
     let started = Instant::now();
     let result = propagate(&loaded.model, &request, &options, &mut progress);
     progress.finish();
-    let result = result.map_err(|e| CliError::input(format!("propagation failed: {e}")))?;
+    let result = result.map_err(|e| {
+        CliError::input(format!(
+            "propagation failed: {}",
+            e.with_utc(&initial.epoch)
+        ))
+    })?;
     let wall_s = started.elapsed().as_secs_f64();
 
     let mut points: Vec<EphemerisPoint> = result

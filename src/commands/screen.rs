@@ -74,7 +74,7 @@ fn sampled(
             stop_times_s: &[],
         };
         let p = propagate(model, &req, &Options::default(), &mut Silent)
-            .map_err(|e| format!("{}: {e}", name.display()))?;
+            .map_err(|e| format!("{}: {}", name.display(), e.with_utc(&ctx.axis.reference)))?;
         p.samples
             .first()
             .map(|s| s.1)
@@ -88,7 +88,7 @@ fn sampled(
         stop_times_s: &[],
     };
     let p = propagate(model, &req, &Options::default(), &mut Silent)
-        .map_err(|e| format!("{}: {e}", name.display()))?;
+        .map_err(|e| format!("{}: {}", name.display(), e.with_utc(&ctx.axis.reference)))?;
     if let Termination::Decayed { t_s, .. } = p.termination {
         return Err(format!(
             "{}: decays inside the window at {}",
@@ -209,8 +209,13 @@ fn track_from_ephemeris(eph: &Ephemeris, path: &Path, ctx: &Ctx) -> Result<Track
                     output_times_s: outs,
                     stop_times_s: &[],
                 };
-                let p = propagate(&model, &req, &Options::default(), &mut Silent)
-                    .map_err(|e| format!("{}: filling between states: {e}", path.display()))?;
+                let p = propagate(&model, &req, &Options::default(), &mut Silent).map_err(|e| {
+                    format!(
+                        "{}: filling between states: {}",
+                        path.display(),
+                        e.with_utc(&ctx.axis.reference)
+                    )
+                })?;
                 Ok(p.samples.into_iter().map(|s| s.1).collect())
             };
             states.extend(run(x0, times[i], &first)?);

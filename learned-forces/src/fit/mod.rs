@@ -239,7 +239,7 @@ impl Problem<'_> {
             stop_times_s: &[],
         };
         propagate_with_partials(fm, &req, &options, &mut Silent)
-            .map_err(|e| FitError::Propagation(e.to_string()))
+            .map_err(|e| FitError::Propagation(e.with_utc(&self.arc.start())))
     }
 
     /// Residuals and Jacobian over observations `0..=last` that are `used`.

@@ -179,6 +179,18 @@ pub enum IntegrationError {
     },
 }
 
+impl IntegrationError {
+    /// Where it happened, s on the model's time axis.
+    pub fn t_s(&self) -> f64 {
+        match self {
+            IntegrationError::Force(e) => e.t_s,
+            IntegrationError::StepTooSmall { t_s, .. }
+            | IntegrationError::TooManySteps { t_s, .. }
+            | IntegrationError::NonFinite { t_s } => *t_s,
+        }
+    }
+}
+
 /// Any of the three steppers, dispatched by `match` (the hot loop stays generic).
 pub enum AnyStepper {
     /// Fixed-step RK4.

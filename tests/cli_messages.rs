@@ -1,0 +1,101 @@
+//! Messages that save users time: failure times in UTC, a learned file accepted as a
+//! starting state, a warning when `check` is given another forces file than the one the
+//! force was learned with.
+
+mod common;
+use common::{arcwise, s, write};
+use std::path::Path;
+
+#[test]
+fn a_failure_says_when_in_utc() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    // A plugin (reference epoch 12:00 UTC) that returns NaN after 13:00 UTC.
+    let so = common::c_plugin(
+        d,
+        "late_nan",
+        &common::c_force_source(
+            1,
+            "out[0] = t > 3600.0 ? NAN : 0.0; out[1] = 0; out[2] = 0; return 0;",
+        ),
+    );
+    let forces = write(
+        d,
+        "forces.yaml",
+        &format!(
+            "gravity: {{ zonal_degree: 2 }}\nplugins: [{}]\n",
+            so.display()
+        ),
+    );
+    let state = write(
+        d,
+        "state.yaml",
+        "epoch_utc: \"2031-05-04T00:00:00Z\"\nelements: { sma_km: 6878.0, ecc: 0.001, inc_deg: 51.6, raan_deg: 0, argp_deg: 0, true_anomaly_deg: 0 }\n",
+    );
+    let (code, _, err) = arcwise(&[
+        "propagate",
+        "--forces",
+        s(&forces),
+        "--state",
+        s(&state),
+        "--to",
+        "2031-05-04T14:00:00Z",
+        "--step",
+        "60",
+        "--out",
+        s(&d.join("p.csv")),
+    ]);
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("[at 2031-05-04T13:00:"), "{err}");
+}
+
+#[test]
+fn a_learned_file_is_a_starting_state_and_check_warns_about_another_forces_file() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let learned = d.join("learned.yaml");
+    std::fs::copy(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/learned_example.yaml"),
+        &learned,
+    )
+    .unwrap();
+    let forces = write(d, "forces.yaml", "gravity: { zonal_degree: 2 }\n");
+    let out = d.join("p.csv");
+    let (code, _, err) = arcwise(&[
+        "propagate",
+        "--forces",
+        s(&forces),
+        "--state",
+        s(&learned),
+        "--to",
+        "2031-05-05T02:00:00Z",
+        "--step",
+        "60",
+        "--out",
+        s(&out),
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let first = std::fs::read_to_string(&out).unwrap();
+    assert!(
+        first
+            .lines()
+            .nth(1)
+            .unwrap()
+            .starts_with("2031-05-05T00:00:00"),
+        "{first}"
+    );
+    // check with a forces file that is not the one of the learned file's provenance.
+    let (_, _, err) = arcwise(&[
+        "check",
+        "--learned",
+        s(&learned),
+        "--forces",
+        s(&forces),
+        "--arc",
+        s(&out),
+    ]);
+    assert!(
+        err.contains("is not the forces file") && err.contains("was learned with"),
+        "{err}"
+    );
+}
