@@ -14,13 +14,34 @@ pub struct Series {
     pub points_only: bool,
 }
 
-/// A panel: a y-axis label with its unit, and its series.
+/// A panel: a y-axis label with its unit, its series, and reference lines.
+#[derive(Default)]
 pub struct Panel {
     /// e.g. `R residual (m)`.
     pub y_label: String,
     /// The series.
     pub series: Vec<Series>,
+    /// Horizontal dashed lines `(legend, y)`, e.g. the ±1σ noise band.
+    pub levels: Vec<(String, f64)>,
+    /// Vertical dashed lines `(legend, x)`, e.g. where the held-out part begins.
+    pub marks: Vec<(String, f64)>,
 }
+
+/// A tick label: exact zero for values that are zero to rounding (no `-3.10e-25`),
+/// scientific notation for very small or large spans.
+fn tick_label(v: f64, span: f64) -> String {
+    if v.abs() <= span * 1e-9 {
+        return "0".into();
+    }
+    if (1e-2..1e5).contains(&span) {
+        format!("{v:.1}")
+    } else {
+        format!("{v:.2e}")
+    }
+}
+
+/// Width of the legend column beside each panel, px.
+const LEGEND_PX: u32 = 230;
 
 const COLOURS: [RGBColor; 4] = [
     RGBColor(31, 100, 180),
@@ -60,14 +81,19 @@ pub fn write_panels(
             x0 = 0.0;
             x1 = 1.0;
         }
-        for (area, panel) in areas.iter().zip(panels) {
+        for (whole, panel) in areas.iter().zip(panels) {
+            // The legend gets its own column, so it never covers the data.
+            let (area, legend) = whole.split_horizontally(1000 - LEGEND_PX);
             let (mut y0, mut y1) = (f64::INFINITY, f64::NEG_INFINITY);
-            for s in &panel.series {
-                for (_, y) in &s.points {
-                    if y.is_finite() {
-                        y0 = y0.min(*y);
-                        y1 = y1.max(*y);
-                    }
+            let levels = panel.levels.iter().map(|(_, y)| *y);
+            let ys = panel
+                .series
+                .iter()
+                .flat_map(|s| s.points.iter().map(|p| p.1));
+            for y in ys.chain(levels) {
+                if y.is_finite() {
+                    y0 = y0.min(y);
+                    y1 = y1.max(y);
                 }
             }
             if !(y0.is_finite() && y1.is_finite()) {
@@ -75,21 +101,14 @@ pub fn write_panels(
                 y1 = 1.0;
             }
             let pad = ((y1 - y0) * 0.08).max(1e-12);
-            let mut chart = ChartBuilder::on(area)
+            let mut chart = ChartBuilder::on(&area)
                 .margin(12)
                 .x_label_area_size(40)
                 .y_label_area_size(80)
                 .build_cartesian_2d(x0..x1, (y0 - pad)..(y1 + pad))
                 .map_err(|e| fail(e.to_string()))?;
             let span = (y1 - y0).abs().max(y1.abs()).max(y0.abs());
-            let exponent = !(1e-2..1e5).contains(&span);
-            let fmt_y = move |v: &f64| {
-                if exponent {
-                    format!("{v:.2e}")
-                } else {
-                    format!("{v:.1}")
-                }
-            };
+            let fmt_y = move |v: &f64| tick_label(*v, span);
             chart
                 .configure_mesh()
                 .y_label_formatter(&fmt_y)
@@ -99,9 +118,10 @@ pub fn write_panels(
                 .axis_desc_style(("sans-serif", 15))
                 .draw()
                 .map_err(|e| fail(e.to_string()))?;
+            let mut entries: Vec<(String, RGBColor, bool)> = Vec::new();
             for (k, s) in panel.series.iter().enumerate() {
                 let colour = COLOURS[k % COLOURS.len()];
-                let drawn = if s.points_only {
+                if s.points_only {
                     chart.draw_series(s.points.iter().map(|p| Circle::new(*p, 2, colour.filled())))
                 } else {
                     chart.draw_series(LineSeries::new(
@@ -110,19 +130,65 @@ pub fn write_panels(
                     ))
                 }
                 .map_err(|e| fail(e.to_string()))?;
-                drawn.label(s.name.as_str()).legend(move |(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 18, y)], colour.stroke_width(3))
-                });
+                entries.push((s.name.clone(), colour, false));
             }
-            chart
-                .configure_series_labels()
-                .background_style(WHITE.mix(0.85))
-                .border_style(BLACK)
-                .label_font(("sans-serif", 14))
-                .draw()
-                .map_err(|e| fail(e.to_string()))?;
+            let grey = RGBColor(90, 90, 90);
+            for (name, y) in &panel.levels {
+                chart
+                    .draw_series(DashedLineSeries::new(
+                        [(x0, *y), (x1, *y)],
+                        6,
+                        4,
+                        grey.stroke_width(1),
+                    ))
+                    .map_err(|e| fail(e.to_string()))?;
+                if !entries.iter().any(|(n, _, _)| n == name) {
+                    entries.push((name.clone(), grey, true));
+                }
+            }
+            let red = RGBColor(190, 30, 45);
+            for (name, x) in &panel.marks {
+                chart
+                    .draw_series(DashedLineSeries::new(
+                        [(*x, y0 - pad), (*x, y1 + pad)],
+                        6,
+                        4,
+                        red.stroke_width(2),
+                    ))
+                    .map_err(|e| fail(e.to_string()))?;
+                entries.push((name.clone(), red, true));
+            }
+            for (i, (name, colour, dashed)) in entries.iter().enumerate() {
+                let y = 24 + 22 * i as i32;
+                let line = if *dashed {
+                    PathElement::new(vec![(6, y), (12, y)], colour.stroke_width(2))
+                } else {
+                    PathElement::new(vec![(6, y), (24, y)], colour.stroke_width(3))
+                };
+                legend.draw(&line).map_err(|e| fail(e.to_string()))?;
+                legend
+                    .draw(&Text::new(
+                        name.clone(),
+                        (30, y - 7),
+                        ("sans-serif", 13).into_font().color(&BLACK),
+                    ))
+                    .map_err(|e| fail(e.to_string()))?;
+            }
         }
         root.present().map_err(|e| fail(e.to_string()))?;
     }
     propagator::ephemeris::write_atomically(path, svg.as_bytes()).map_err(CliError::input)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::tick_label;
+
+    #[test]
+    fn zero_to_rounding_is_labelled_zero() {
+        assert_eq!(tick_label(-3.10e-25, 40.0), "0");
+        assert_eq!(tick_label(20.0, 40.0), "20.0");
+        assert_eq!(tick_label(2.5e-9, 1e-8), "2.50e-9");
+        assert_eq!(tick_label(1e-26, 1e-8), "0");
+    }
 }

@@ -72,6 +72,9 @@ fn venting_learned_file_is_deterministic_and_usable() {
     ] {
         assert!(v.join("plots").join(svg).exists(), "{svg}");
     }
+    // Residual plots carry the noise band and where the held-out part begins.
+    let before = std::fs::read_to_string(v.join("plots/residuals_before.svg")).unwrap();
+    assert!(before.contains("stated noise") && before.contains("held-out part begins"));
     // The learned file in forces.yaml `plugins:` is used by propagate.
     let learned = v.join("learned-1.yaml");
     let forces = std::fs::read_to_string(v.join("forces.yaml")).unwrap();

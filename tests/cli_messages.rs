@@ -99,3 +99,72 @@ fn a_learned_file_is_a_starting_state_and_check_warns_about_another_forces_file(
         "{err}"
     );
 }
+
+#[test]
+fn help_shows_defaults_and_allowed_values_readably() {
+    let (_, out, _) = arcwise(&["propagate", "--help"]);
+    assert!(
+        out.contains("[default: 1e-11]") && !out.contains("0.00000000001"),
+        "{out}"
+    );
+    for cmd in ["fit", "learn", "rank"] {
+        let (_, out, _) = arcwise(&[cmd, "--help"]);
+        assert!(
+            out.contains("drag_scale") && out.contains("emp_1rev_rtn"),
+            "{cmd}: {out}"
+        );
+    }
+    let (code, _, err) = arcwise(&[
+        "fit",
+        "--arc",
+        "a.csv",
+        "--forces",
+        "f.yaml",
+        "--estimate",
+        "drag",
+    ]);
+    assert_eq!(code, 2);
+    assert!(err.contains("drag_scale"), "{err}");
+}
+
+#[test]
+fn rank_and_screen_draw_what_their_tables_say() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let sim = d.join("q");
+    let (code, _, err) = arcwise(&[
+        "simulate",
+        s(&root.join("examples/scenarios/quiet.yaml")),
+        "--out",
+        s(&sim),
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let plot = d.join("rank.svg");
+    let (code, out, err) = arcwise(&[
+        "rank",
+        "--arc",
+        s(&sim.join("train.csv")),
+        "--forces",
+        s(&sim.join("forces.yaml")),
+        "--hypotheses",
+        s(&root.join("examples/hypotheses/maneuver_day.yaml")),
+        "--plot",
+        s(&plot),
+        "--report",
+        s(&d.join("rank.json")),
+    ]);
+    assert_eq!(code, 0, "{err}");
+    assert!(
+        out.contains("explains the arc") && out.contains("no_maneuver"),
+        "{out}"
+    );
+    let svg = std::fs::read_to_string(&plot).unwrap();
+    assert!(
+        svg.contains("impulsive") && svg.contains("finite_burn") && svg.contains("fitted timing")
+    );
+    let r: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d.join("rank.json")).unwrap()).unwrap();
+    assert_eq!(r["best_explains_arc"], true);
+    assert!(r["notice"].as_str().unwrap().contains("screening aid"));
+}

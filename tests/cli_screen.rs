@@ -165,7 +165,7 @@ fn rank_cli_orders_hypotheses_and_reports_them() {
     assert!(stdout.contains("1. no_maneuver"), "{stdout}");
     let r: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(&rep).unwrap()).unwrap();
-    assert_eq!(r["hypotheses"].as_array().unwrap().len(), 4);
+    assert_eq!(r["hypotheses"].as_array().unwrap().len(), 5);
     let bad = dir.path().join("bad.yaml");
     std::fs::write(&bad, "hypotheses:\n  - teleport\n").unwrap();
     let (code, _, stderr) = arcwise(&[
@@ -294,6 +294,31 @@ fn sparse_legal_oem_sampling_still_gives_the_right_miss() {
         assert_eq!(aps[0]["secondary_object"], "CROSSER-2");
         assert!(out.contains("CROSSER-2"), "{out}");
     }
+    // The range around the TCA, drawn.
+    let svg = dir.path().join("s.svg");
+    let (code, _, err) = arcwise(&[
+        "screen",
+        "--primary",
+        s(&p),
+        "--secondaries",
+        s(&oems[1]),
+        "--forces",
+        s(&forces),
+        "--from",
+        "2031-05-04T11:00:00Z",
+        "--to",
+        "2031-05-04T13:00:00Z",
+        "--threshold-km",
+        "5",
+        "--plot",
+        s(&svg),
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let text = std::fs::read_to_string(&svg).unwrap();
+    assert!(
+        text.contains("CROSSER-2") && text.contains("miss 0.5"),
+        "plot lacks the approach"
+    );
 }
 
 #[test]

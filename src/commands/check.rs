@@ -169,6 +169,11 @@ pub fn run(a: Args) -> Result<(), CliError> {
                     series("with the learned force", &learned),
                     series("known forces only", &base),
                 ],
+                levels: vec![(
+                    format!("2× noise RMS ({:.2} m)", 2e3 * noise_km),
+                    2e3 * noise_km,
+                )],
+                ..Panel::default()
             }],
         )?;
     }

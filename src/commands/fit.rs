@@ -20,7 +20,8 @@ pub struct Args {
     /// Known force model.
     #[arg(long, value_name = "FORCES.yaml")]
     forces: PathBuf,
-    /// Also estimate: drag_scale, srp_scale, emp_const_rtn, emp_1rev_rtn (comma-separated).
+    /// Also estimate these, comma-separated: drag_scale, srp_scale (scale factors),
+    /// emp_const_rtn, emp_1rev_rtn (constant and once-per-revolution empirical RTN).
     #[arg(long, value_delimiter = ',', value_name = "LIST")]
     estimate: Vec<String>,
     /// σ of observations without a sigma_km column, km.
@@ -30,7 +31,7 @@ pub struct Args {
     #[arg(long, default_value_t = 5.0)]
     edit_sigma: f64,
     /// Size of the anomaly test (false-alarm probability).
-    #[arg(long, default_value_t = 1e-3)]
+    #[arg(long, default_value = "1e-3")]
     alpha: f64,
     /// Write a JSON report here.
     #[arg(long, value_name = "R.json")]
@@ -122,7 +123,17 @@ pub fn fit_json(r: &FitResult) -> serde_json::Value {
 }
 
 /// Draws R, T, N residuals (m) against hours from the first observation.
-pub fn plot_residuals(path: &Path, title: &str, r: &FitResult) -> Result<(), CliError> {
+/// The R, T, N residuals against time, with the ±1σ band of the observations' stated
+/// noise and, for `learn`, a line where the held-out part begins (`held_out_from_s`,
+/// seconds from the fit's first observation).
+pub fn plot_residuals(
+    path: &Path,
+    title: &str,
+    r: &FitResult,
+    held_out_from_s: Option<f64>,
+) -> Result<(), CliError> {
+    let used: Vec<_> = r.residuals.iter().filter(|x| x.used).collect();
+    let sigma_m = used.iter().map(|x| x.sigma_km).sum::<f64>() / used.len().max(1) as f64 * 1e3;
     let panels: Vec<Panel> = ["R", "T", "N"]
         .iter()
         .enumerate()
@@ -138,6 +149,14 @@ pub fn plot_residuals(path: &Path, title: &str, r: &FitResult) -> Result<(), Cli
                     .collect(),
                 points_only: true,
             }],
+            levels: vec![
+                (format!("±1σ stated noise ({sigma_m:.2} m)"), sigma_m),
+                (format!("±1σ stated noise ({sigma_m:.2} m)"), -sigma_m),
+            ],
+            marks: held_out_from_s
+                .map(|t| ("held-out part begins".to_string(), t / 3600.0))
+                .into_iter()
+                .collect(),
         })
         .collect();
     write_panels(path, title, &format!("hours since {}", r.epoch0), &panels)
@@ -197,7 +216,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
         println!("verdict: no_anomaly — the residuals are consistent with the stated noise");
     }
     if let Some(p) = &a.plot {
-        plot_residuals(p, &format!("Fit residuals, {}", a.arc.display()), &r)?;
+        plot_residuals(p, &format!("Fit residuals, {}", a.arc.display()), &r, None)?;
     }
     if let Some(path) = &a.report {
         let mut j = fit_json(&r);

@@ -57,7 +57,8 @@ pub struct Args {
     /// Individuals per generation.
     #[arg(long, default_value_t = 96)]
     population: usize,
-    /// Classical parameters estimated with the state in every fit.
+    /// Classical parameters estimated with the state in every fit (comma-separated): drag_scale, srp_scale,
+    /// emp_const_rtn, emp_1rev_rtn.
     #[arg(long, value_delimiter = ',', value_name = "LIST")]
     estimate: Vec<String>,
     /// σ of observations without a sigma_km column, km.
@@ -195,7 +196,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
     write_atomically(&a.out, file.to_yaml().as_bytes()).map_err(CliError::input)?;
     summarize(&learned, &a.out);
     if let Some(dir) = &a.plot {
-        plots(dir, &learned, &make, context, &options.fit)?;
+        plots(dir, &learned, &make, context, &options)?;
     }
     if let Some(path) = &a.report {
         write_report(path, &report(&a, &learned, &file))?;
@@ -429,18 +430,24 @@ fn plots(
     l: &Learned,
     make: &(dyn Fn(propagator::Epoch) -> Result<propagator::ForceModel, String> + Sync),
     context: Context,
-    fit: &FitOptions,
+    options: &LearnOptions,
 ) -> Result<(), CliError> {
+    let fit = &options.fit;
+    // Where selection's held-out tail begins (the same cut as the learner's).
+    let last = l.base.residuals.last().map(|r| r.t_s).unwrap_or(0.0);
+    let held_out_from = Some((1.0 - options.holdout_fraction) * last);
     plot_residuals(
         &dir.join(PLOT_FILES[0]),
         "Residuals with the known forces",
         &l.base,
+        held_out_from,
     )?;
     let Some(c) = &l.chosen else { return Ok(()) };
     plot_residuals(
         &dir.join(PLOT_FILES[1]),
         "Residuals with the learned force",
         &c.fit,
+        held_out_from,
     )?;
     let times: Vec<f64> = c.fit.residuals.iter().map(|r| r.t_s).collect();
     let model = make(c.fit.epoch0).map_err(CliError::input)?;
@@ -474,6 +481,7 @@ fn plots(
                     .collect(),
                 points_only: false,
             }],
+            ..Panel::default()
         })
         .collect();
     write_panels(

@@ -35,16 +35,16 @@ pub struct Args {
     #[arg(long, default_value = "dp853", value_name = "NAME")]
     integrator: String,
     /// Relative tolerance of the adaptive integrators.
-    #[arg(long, default_value_t = 1e-11)]
+    #[arg(long, default_value = "1e-11")]
     rtol: f64,
     /// Absolute tolerance of the adaptive integrators (km, km/s).
-    #[arg(long, default_value_t = 1e-11)]
+    #[arg(long, default_value = "1e-11")]
     atol: f64,
     /// Largest integration step, seconds.
     #[arg(long, default_value_t = 3600.0, value_name = "SECONDS")]
     max_step: f64,
     /// Smallest integration step before giving up, seconds.
-    #[arg(long, default_value_t = 1e-6, value_name = "SECONDS")]
+    #[arg(long, default_value = "1e-6", value_name = "SECONDS")]
     min_step: f64,
     /// Fixed integration step of rk4, seconds.
     #[arg(long, default_value_t = 10.0, value_name = "SECONDS")]

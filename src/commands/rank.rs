@@ -2,6 +2,7 @@
 
 use crate::commands::fit::parse_estimate;
 use crate::error::CliError;
+use crate::plot::{write_panels, Panel, Series};
 use crate::progress::FitProgress;
 use crate::report::write_report;
 use clap::Args as ClapArgs;
@@ -32,7 +33,8 @@ pub struct Args {
     /// The hypotheses (see the README).
     #[arg(long, value_name = "H.yaml")]
     hypotheses: PathBuf,
-    /// Classical parameters estimated in the base fit.
+    /// Classical parameters estimated in the base fit (comma-separated): drag_scale, srp_scale,
+    /// emp_const_rtn, emp_1rev_rtn.
     #[arg(long, value_delimiter = ',', value_name = "LIST")]
     estimate: Vec<String>,
     /// σ of observations without a sigma_km column, km.
@@ -41,6 +43,9 @@ pub struct Args {
     /// Write a JSON report here.
     #[arg(long, value_name = "R.json")]
     report: Option<PathBuf>,
+    /// Draw each timed hypothesis's χ² against its trial epoch or start (SVG).
+    #[arg(long, value_name = "P.svg")]
+    plot: Option<PathBuf>,
 }
 
 /// Runs the command.
@@ -51,11 +56,13 @@ pub fn run(a: Args) -> Result<(), CliError> {
             ("--forces", &a.forces),
             ("--hypotheses", &a.hypotheses),
         ],
-        &a.report
-            .as_deref()
-            .map(|p| ("--report", p))
-            .into_iter()
-            .collect::<Vec<_>>(),
+        &[
+            a.report.as_deref().map(|p| ("--report", p)),
+            a.plot.as_deref().map(|p| ("--plot", p)),
+        ]
+        .into_iter()
+        .flatten()
+        .collect::<Vec<_>>(),
     )?;
     let text = propagator::input::read_text(&a.hypotheses, propagator::input::MAX_CONFIG_BYTES)
         .map_err(|e| CliError::input(format!("{}: {e}", a.hypotheses.display())))?;
@@ -169,6 +176,38 @@ pub fn run(a: Args) -> Result<(), CliError> {
             })).collect::<Vec<_>>(),
         });
         write_report(path, &report)?;
+    }
+    if let Some(path) = &a.plot {
+        // χ² above the best of all, against the trial time: how sharply the data pin the
+        // timing down, and whether a second minimum competes.
+        let floor = ranked.iter().map(|r| r.cost).fold(f64::INFINITY, f64::min);
+        let panels: Vec<Panel> = ranked
+            .iter()
+            .filter(|r| !r.scan.is_empty())
+            .map(|r| Panel {
+                y_label: "χ² − best χ²".into(),
+                series: vec![Series {
+                    name: format!("{} (best fit at {})", r.name, shown(&r.params[0])),
+                    points: r
+                        .scan
+                        .iter()
+                        .filter(|(_, c)| c.is_finite())
+                        .map(|(t, c)| (t / 3600.0, c - floor))
+                        .collect(),
+                    points_only: false,
+                }],
+                marks: vec![("fitted timing".into(), r.params[0].value / 3600.0)],
+                ..Panel::default()
+            })
+            .collect();
+        if !panels.is_empty() {
+            write_panels(
+                path,
+                "Maneuver timing scans",
+                &format!("hours since {t0}"),
+                &panels,
+            )?;
+        }
     }
     if !explains {
         return Err(CliError {

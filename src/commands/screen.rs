@@ -1,6 +1,7 @@
 //! `arcwise screen`: a primary against secondaries over a window → close approaches.
 
 use crate::error::CliError;
+use crate::plot::{write_panels, Panel, Series};
 use crate::report::write_report;
 use clap::Args as ClapArgs;
 use learned_forces::learned_file::{LearnedFile, LearnedResolver};
@@ -45,6 +46,9 @@ pub struct Args {
     /// Write a JSON report here.
     #[arg(long, value_name = "R.json")]
     report: Option<PathBuf>,
+    /// Draw the range against time around each TCA (the first six) (SVG).
+    #[arg(long, value_name = "P.svg")]
+    plot: Option<PathBuf>,
 }
 
 struct Ctx<'a> {
@@ -293,11 +297,13 @@ pub fn run(a: Args) -> Result<(), CliError> {
     inputs.extend(a.forces.as_deref().map(|p| ("--forces", p)));
     crate::paths::check_distinct(
         &inputs,
-        &a.report
-            .as_deref()
-            .map(|p| ("--report", p))
-            .into_iter()
-            .collect::<Vec<_>>(),
+        &[
+            a.report.as_deref().map(|p| ("--report", p)),
+            a.plot.as_deref().map(|p| ("--plot", p)),
+        ]
+        .into_iter()
+        .flatten()
+        .collect::<Vec<_>>(),
     )?;
     if !(a.threshold_km.is_finite() && a.threshold_km > 0.0) {
         return Err(CliError::input(
@@ -331,7 +337,8 @@ pub fn run(a: Args) -> Result<(), CliError> {
         load_track(&a.primary, &ctx).map_err(CliError::input)?;
     let primary_file = std::fs::canonicalize(&a.primary).ok();
     let progress = crate::progress::CountProgress::new("screen", a.secondaries.len());
-    let results: Vec<Result<(String, Vec<Approach>), String>> = a
+    type Found = (String, Vec<Approach>, Option<Track>);
+    let results: Vec<Result<Found, String>> = a
         .secondaries
         .par_iter()
         .inspect(|_| progress.tick())
@@ -344,13 +351,20 @@ pub fn run(a: Args) -> Result<(), CliError> {
                     s.display()
                 ));
             }
-            Ok((name, approaches(&primary, &t, a.threshold_km)))
+            let found = approaches(&primary, &t, a.threshold_km);
+            // The track is kept only for the plot of an object that comes close.
+            let keep = (a.plot.is_some() && !found.is_empty()).then_some(t);
+            Ok((name, found, keep))
         })
         .collect();
     progress.finish();
     let mut rows = Vec::new();
+    let mut tracks = std::collections::HashMap::new();
     for (path, r) in a.secondaries.iter().zip(results) {
-        let (name, found) = r.map_err(CliError::input)?;
+        let (name, found, track) = r.map_err(CliError::input)?;
+        if let Some(t) = track {
+            tracks.insert(path.clone(), t);
+        }
         for ap in found {
             rows.push((path.clone(), name.clone(), ap));
         }
@@ -377,6 +391,46 @@ pub fn run(a: Args) -> Result<(), CliError> {
             ap.miss_rtn_km[2],
             p.display()
         );
+    }
+    if let Some(path) = &a.plot {
+        let panels: Vec<Panel> = rows
+            .iter()
+            .take(6)
+            .filter_map(|(p, name, ap)| {
+                let track = tracks.get(p)?;
+                // ±10 min around the TCA, clipped to the window, every 5 s.
+                let (lo, hi) = (
+                    (ap.tca_s - 600.0).max(0.0),
+                    (ap.tca_s + 600.0).min(*grid.last().unwrap_or(&0.0)),
+                );
+                let n = ((hi - lo) / 5.0).ceil().max(1.0) as usize;
+                let points = (0..=n)
+                    .map(|k| {
+                        let t = lo + (hi - lo) * k as f64 / n as f64;
+                        let d = track.at(t).0 - primary.at(t).0;
+                        ((t - ap.tca_s) / 60.0, d.norm())
+                    })
+                    .collect();
+                Some(Panel {
+                    y_label: "range (km)".into(),
+                    series: vec![Series {
+                        name: format!("{name}: TCA {}", ctx.axis.epoch(ap.tca_s)),
+                        points,
+                        points_only: false,
+                    }],
+                    levels: vec![(format!("threshold {} km", a.threshold_km), a.threshold_km)],
+                    marks: vec![(format!("miss {:.3} km", ap.miss_km), 0.0)],
+                })
+            })
+            .collect();
+        if !panels.is_empty() {
+            write_panels(
+                path,
+                &format!("Close approaches of {primary_name} (a screening aid)"),
+                "minutes from TCA",
+                &panels,
+            )?;
+        }
     }
     if let Some(path) = &a.report {
         let report = serde_json::json!({

@@ -83,7 +83,13 @@ pub struct Ranked {
     pub log10_evidence_vs_none: f64,
     /// Fitted parameters ± σ.
     pub params: Vec<Param>,
+    /// The timing scan that seeded the fit: (trial epoch or start, s; least χ² there).
+    /// Empty for hypotheses without timing.
+    pub scan: Vec<(f64, f64)>,
 }
+
+/// A fitted hypothesis before ranking: χ², parameters, their count, the timing scan.
+type Fitted = (f64, Vec<Param>, usize, Vec<(f64, f64)>);
 
 fn rtn(problem: &Problem, k: usize, axis: usize) -> [f64; 3] {
     let p = &problem.terminals[k];
@@ -241,11 +247,11 @@ fn rtn_params(prefix: &str, unit: &str, j: &Joint) -> Vec<Param> {
         .collect()
 }
 
-fn impulsive(problem: &Problem, from: f64, to: f64) -> Option<(f64, Vec<Param>, usize)> {
+fn impulsive(problem: &Problem, from: f64, to: f64) -> Option<Fitted> {
     let (a, b) = grid_range(problem, from, to);
     let t = &problem.grid_t;
     // Seed: the grid epoch of least χ².
-    let (m, _) = (a..b)
+    let scan: Vec<(usize, f64)> = (a..b)
         .map(|m| {
             let cost = impulse_columns(problem, t[m])
                 .and_then(|c| problem.fit_columns(&c))
@@ -253,7 +259,8 @@ fn impulsive(problem: &Problem, from: f64, to: f64) -> Option<(f64, Vec<Param>, 
                 .unwrap_or(f64::INFINITY);
             (m, cost)
         })
-        .min_by(|x, y| x.1.total_cmp(&y.1))?;
+        .collect();
+    let (m, _) = scan.iter().copied().min_by(|x, y| x.1.total_cmp(&y.1))?;
     let h = grid_step(problem);
     let j = joint_fit(problem, vec![t[m]], &[0.25 * h], &[(t[a], t[b - 1])], |p| {
         impulse_columns(problem, p[0])
@@ -264,15 +271,18 @@ fn impulsive(problem: &Problem, from: f64, to: f64) -> Option<(f64, Vec<Param>, 
         sigma: sigma(&j.covariance, 3),
     }];
     params.extend(rtn_params("dv", "km_s", &j));
-    Some((j.cost, params, 4))
+    let scan = scan.iter().map(|(m, c)| (t[*m], *c)).collect();
+    Some((j.cost, params, 4, scan))
 }
 
-fn finite(problem: &Problem, from: f64, to: f64, max_dur: f64) -> Option<(f64, Vec<Param>, usize)> {
+fn finite(problem: &Problem, from: f64, to: f64, max_dur: f64) -> Option<Fitted> {
     let (a, b) = grid_range(problem, from, to);
     let t = &problem.grid_t;
     let step = ((b - a) / 60).max(1);
     let mut best: Option<(f64, usize, usize)> = None;
+    let mut scan = Vec::new();
     for s0 in (a..b).step_by(step) {
+        let mut at_start = f64::INFINITY;
         for e0 in (s0 + step..b.min(t.len())).step_by(step) {
             if t[e0] - t[s0] > max_dur {
                 break;
@@ -280,10 +290,14 @@ fn finite(problem: &Problem, from: f64, to: f64, max_dur: f64) -> Option<(f64, V
             if let Some((_, _, cost)) =
                 burn_columns(problem, t[s0], t[e0]).and_then(|c| problem.fit_columns(&c))
             {
+                at_start = at_start.min(cost);
                 if best.is_none_or(|b| cost < b.0) {
                     best = Some((cost, s0, e0));
                 }
             }
+        }
+        if at_start.is_finite() {
+            scan.push((t[s0], at_start));
         }
     }
     let (_, s0, e0) = best?;
@@ -313,15 +327,15 @@ fn finite(problem: &Problem, from: f64, to: f64, max_dur: f64) -> Option<(f64, V
         },
     ];
     params.extend(rtn_params("accel", "km_s2", &j));
-    Some((j.cost, params, 5))
+    Some((j.cost, params, 5, scan))
 }
 
-fn thrust_from_epoch(problem: &Problem, from: f64, to: f64) -> Option<(f64, Vec<Param>, usize)> {
+fn thrust_from_epoch(problem: &Problem, from: f64, to: f64) -> Option<Fitted> {
     let (a, b) = grid_range(problem, from, to);
     let t = &problem.grid_t;
     let end = t[t.len() - 1] + grid_step(problem);
     let step = ((b - a) / 120).max(1);
-    let (s0, _) = (a..b)
+    let scan: Vec<(usize, f64)> = (a..b)
         .step_by(step)
         .map(|s0| {
             let cost = burn_columns(problem, t[s0], end)
@@ -330,7 +344,8 @@ fn thrust_from_epoch(problem: &Problem, from: f64, to: f64) -> Option<(f64, Vec<
                 .unwrap_or(f64::INFINITY);
             (s0, cost)
         })
-        .min_by(|x, y| x.1.total_cmp(&y.1))?;
+        .collect();
+    let (s0, _) = scan.iter().copied().min_by(|x, y| x.1.total_cmp(&y.1))?;
     let h = grid_step(problem);
     let j = joint_fit(problem, vec![t[s0]], &[0.5 * h], &[(t[a], t[b - 1])], |p| {
         burn_columns(problem, p[0], end)
@@ -341,10 +356,11 @@ fn thrust_from_epoch(problem: &Problem, from: f64, to: f64) -> Option<(f64, Vec<
         sigma: sigma(&j.covariance, 3),
     }];
     params.extend(rtn_params("accel", "km_s2", &j));
-    Some((j.cost, params, 4))
+    let scan = scan.iter().map(|(m, c)| (t[*m], *c)).collect();
+    Some((j.cost, params, 4, scan))
 }
 
-fn along_track(problem: &Problem) -> Option<(f64, Vec<Param>, usize)> {
+fn along_track(problem: &Problem) -> Option<Fitted> {
     let col = problem.column_of(|k| rtn(problem, k, 1))?;
     let (c, s, cost) = problem.fit_columns(&[col])?;
     Some((
@@ -355,6 +371,7 @@ fn along_track(problem: &Problem) -> Option<(f64, Vec<Param>, usize)> {
             sigma: s[0],
         }],
         1,
+        vec![],
     ))
 }
 
@@ -366,7 +383,7 @@ pub fn rank(problem: &Problem, hypotheses: &[Hypothesis]) -> Vec<Ranked> {
         .iter()
         .filter_map(|h| {
             let (name, fitted) = match h {
-                Hypothesis::NoManeuver => ("no_maneuver", Some((base, vec![], 0))),
+                Hypothesis::NoManeuver => ("no_maneuver", Some((base, vec![], 0, vec![]))),
                 Hypothesis::Impulsive { from_s, to_s } => {
                     ("impulsive", impulsive(problem, *from_s, *to_s))
                 }
@@ -386,7 +403,7 @@ pub fn rank(problem: &Problem, hypotheses: &[Hypothesis]) -> Vec<Ranked> {
                     ("continuous_along_track", along_track(problem))
                 }
             };
-            let (cost, params, k) = fitted?;
+            let (cost, params, k, scan) = fitted?;
             let dof = m.saturating_sub(6 + k).max(1);
             Some(Ranked {
                 hypothesis: h.clone(),
@@ -398,6 +415,7 @@ pub fn rank(problem: &Problem, hypotheses: &[Hypothesis]) -> Vec<Ranked> {
                 bic: cost + k as f64 * (m as f64).ln(),
                 log10_evidence_vs_none: 0.0,
                 params,
+                scan,
             })
         })
         .collect();
