@@ -350,3 +350,58 @@ fn decay_is_reported_not_failed() {
         .unwrap()
         .starts_with("2031-05-0"));
 }
+
+#[test]
+fn an_oem_across_an_impulsive_maneuver_is_split_into_segments() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let forces = common::write(
+        d,
+        "forces.yaml",
+        "gravity: { zonal_degree: 2 }\nmaneuvers:\n  - { impulsive: { epoch_utc: \"2031-05-04T01:00:30Z\", dv_rtn_km_s: [0.0, 0.001, 0.0] } }\n",
+    );
+    let state = common::write(
+        d,
+        "state.yaml",
+        "object_name: KESTREL-3\nobject_id: 2031-042A\nepoch_utc: \"2031-05-04T00:00:00Z\"\nelements: { sma_km: 6878.0, ecc: 0.001, inc_deg: 51.6, raan_deg: 0, argp_deg: 0, true_anomaly_deg: 0 }\n",
+    );
+    let out = d.join("e.oem");
+    let (code, _, err) = common::arcwise(&[
+        "propagate",
+        "--forces",
+        common::s(&forces),
+        "--state",
+        common::s(&state),
+        "--to",
+        "2031-05-04T02:00:00Z",
+        "--step",
+        "60",
+        "--out",
+        common::s(&out),
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let text = std::fs::read_to_string(&out).unwrap();
+    assert_eq!(text.matches("META_START").count(), 2, "{text}");
+    assert!(text.contains("OBJECT_ID = 2031-042A") && text.contains("CREATION_DATE = "));
+    let e = propagator::ephemeris::Ephemeris::load(&out, &propagator::CentralBody::EARTH_EGM96)
+        .unwrap();
+    let k = e.segment_starts[0];
+    let (before, after) = (&e.points[k - 1], &e.points[k]);
+    assert_eq!(before.epoch, after.epoch);
+    assert_eq!(before.epoch.to_utc_string(), "2031-05-04T01:00:30.000000Z");
+    assert_eq!(
+        before.state.fixed_rows::<3>(0),
+        after.state.fixed_rows::<3>(0)
+    );
+    let dv = (after.state - before.state).fixed_rows::<3>(3).norm();
+    assert!((dv - 0.001).abs() < 1e-12, "Δv {dv}");
+    // The file is an arc too: the repeated epoch is observed once.
+    let (code, _, err) = common::arcwise(&[
+        "fit",
+        "--arc",
+        common::s(&out),
+        "--forces",
+        common::s(&forces),
+    ]);
+    assert_eq!(code, 0, "{err}");
+}

@@ -184,3 +184,47 @@ fn csv_with_a_byte_order_mark_quoted_fields_and_crlf_reads_like_plain_csv() {
     let e = load_text("bad.csv", "\u{200b}epoch_utc,x_km,y_km,z_km\n");
     assert!(e.contains("\\u{200b}"), "{e}");
 }
+
+#[test]
+fn the_ccsds_standards_example_oem_reads_and_its_mars_centre_is_refused_for_use() {
+    // CCSDS 502.0-B-3 Annex G example (tests/data/ccsds/README.md): two segments of four
+    // states with comments between, a maneuver between the segments, Mars-centred.
+    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/data/ccsds/ccsds_oem_502_b3_figG11.oem");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let m = propagator::ephemeris::oem::read_message(&text, &path).unwrap();
+    assert_eq!(m.ephemeris.object_name, "MARS GLOBAL SURVEYOR");
+    assert_eq!(m.ephemeris.object_id, "1996-062A");
+    assert_eq!(m.center_name.0, "MARS BARYCENTER");
+    assert_eq!(m.ref_frames, vec!["EME2000", "EME2000"]);
+    assert_eq!(m.creation_date.as_deref(), Some("1996-11-04T17:22:31"));
+    assert_eq!(m.ephemeris.points.len(), 8);
+    assert_eq!(m.ephemeris.segment_starts, vec![4]);
+    let p = &m.ephemeris.points[4];
+    assert_eq!(p.epoch.to_utc_string(), "2019-12-28T21:29:07.267000Z");
+    assert_eq!(p.state[1], -63.042);
+    assert_eq!(p.state[5], -1.041945);
+    // For arcwise's use (an Earth-centred trajectory) it is refused, naming the line.
+    let e = Ephemeris::load(&path, &CentralBody::EARTH_EGM96)
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("MARS BARYCENTER") && e.contains(":8:"), "{e}");
+}
+
+#[test]
+fn day_of_year_epochs_in_an_oem_read_like_calendar_ones() {
+    let dir = tempfile::tempdir().unwrap();
+    let p = dir.path().join("e.oem");
+    sample().save(&p).unwrap();
+    let text = std::fs::read_to_string(&p).unwrap();
+    // 2031-05-04 is day 124 of 2031.
+    let doy = dir.path().join("doy.oem");
+    std::fs::write(&doy, text.replace("2031-05-04T", "2031-124T")).unwrap();
+    let a = Ephemeris::load(&p, &CentralBody::EARTH_EGM96).unwrap();
+    let b = Ephemeris::load(&doy, &CentralBody::EARTH_EGM96).unwrap();
+    assert_eq!(a.points, b.points);
+    assert!(
+        text.contains("\nCREATION_DATE = "),
+        "CREATION_DATE is required"
+    );
+}

@@ -95,7 +95,13 @@ impl Arc {
                         .points
                         .iter()
                         .zip(lines)
-                        .map(|(p, line)| Observation {
+                        .enumerate()
+                        // A segment that starts where the previous ended (an impulsive
+                        // maneuver) repeats the epoch: the position is observed once.
+                        .filter(|(i, (p, _))| {
+                            !(eph.segment_starts.contains(i) && eph.points[i - 1].epoch == p.epoch)
+                        })
+                        .map(|(_, (p, line))| Observation {
                             epoch: p.epoch,
                             r_km: Vector3::new(p.state[0], p.state[1], p.state[2]),
                             v_km_s: Some(Vector3::new(p.state[3], p.state[4], p.state[5])),

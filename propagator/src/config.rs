@@ -619,6 +619,10 @@ pub struct StateFile {
     /// Name of the object (written to OEM `OBJECT_NAME`).
     #[serde(default)]
     pub object_name: Option<String>,
+    /// Identifier of the object, e.g. its international designator `2031-042A`
+    /// (written to OEM `OBJECT_ID`).
+    #[serde(default)]
+    pub object_id: Option<String>,
 }
 
 /// An initial condition: epoch and ECI state.
@@ -630,6 +634,8 @@ pub struct InitialState {
     pub state: StateVector,
     /// Name of the object, if the file gives one.
     pub object_name: Option<String>,
+    /// Identifier of the object, if the file gives one.
+    pub object_id: Option<String>,
 }
 
 impl StateFile {
@@ -667,13 +673,16 @@ impl StateFile {
                 )),
             };
         check_state_plausible(&state, body).map_err(|m| config_error(path, m))?;
-        if let Some(n) = &f.object_name {
-            crate::text::check_name("object_name", n).map_err(|m| config_error(path, m))?;
+        for (field, v) in [("object_name", &f.object_name), ("object_id", &f.object_id)] {
+            if let Some(n) = v {
+                crate::text::check_name(field, n).map_err(|m| config_error(path, m))?;
+            }
         }
         Ok(InitialState {
             epoch,
             state,
             object_name: f.object_name,
+            object_id: f.object_id,
         })
     }
 }

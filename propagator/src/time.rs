@@ -71,6 +71,30 @@ impl Epoch {
         if !s.is_ascii() {
             return Err(parse_error(text, "non-ASCII characters"));
         }
+        // Day-of-year form `YYYY-DDDThh:mm:ss` (ISO 8601 ordinal dates, used in CCSDS
+        // messages): rewritten as the calendar date, then read as usual.
+        let ordinal;
+        let s = match s.as_bytes() {
+            b if b.len() >= 17
+                && b[4] == b'-'
+                && (b[8] == b'T' || b[8] == b' ')
+                && b[5..8].iter().all(u8::is_ascii_digit)
+                && b[..4].iter().all(u8::is_ascii_digit) =>
+            {
+                let year: i32 = s[..4].parse().map_err(|_| parse_error(text, "bad year"))?;
+                let doy: i64 = s[5..8]
+                    .parse()
+                    .map_err(|_| parse_error(text, "bad day of year"))?;
+                let leap = (year % 4 == 0 && year % 100 != 0) || year % 400 == 0;
+                if !(1..=if leap { 366 } else { 365 }).contains(&doy) {
+                    return Err(parse_error(text, "day of year out of range"));
+                }
+                let (y, m, d) = civil_from_days(days_from_civil(year, 1, 1) + doy - 1);
+                ordinal = format!("{y:04}-{m:02}-{d:02}{}", &s[8..]);
+                ordinal.as_str()
+            }
+            _ => s,
+        };
         let b = s.as_bytes();
         if b.len() < 19 {
             return Err(parse_error(text, "too short"));
@@ -381,6 +405,17 @@ mod tests {
         assert!((b.seconds_since(&a) - 86_401.0).abs() < 1e-9);
         // TAI − UTC = 37 s since 2017 (IERS).
         assert!((b.tai_minus_utc_s() - 37.0).abs() < 1e-9);
+    }
+
+    #[test]
+    fn day_of_year_epochs_read_as_their_calendar_date() {
+        // 2031-124 is 4 May 2031 (31+28+31+30 = 120 days before May; common knowledge).
+        let a = Epoch::parse_utc("2031-124T12:00:00Z").unwrap();
+        assert_eq!(a, Epoch::parse_utc("2031-05-04T12:00:00Z").unwrap());
+        let b = Epoch::parse_utc("2024-366T23:59:59.5").unwrap();
+        assert_eq!(b.to_utc_string(), "2024-12-31T23:59:59.500000Z");
+        assert!(Epoch::parse_utc("2031-366T00:00:00Z").is_err());
+        assert!(Epoch::parse_utc("2031-000T00:00:00Z").is_err());
     }
 
     #[test]

@@ -74,6 +74,8 @@ fn load_initial(
                 epoch: last.epoch,
                 state: last.state,
                 object_name: (!eph.object_name.is_empty()).then(|| eph.object_name.clone()),
+                object_id: (!eph.object_id.is_empty() && eph.object_id != "UNKNOWN")
+                    .then(|| eph.object_id.clone()),
             })
         }
         Err(_) => {
@@ -92,11 +94,62 @@ fn load_initial(
                     epoch,
                     state,
                     object_name: Some(f.name.clone()),
+                    object_id: None,
                 });
             }
             StateFile::parse(&text, path, body).map_err(CliError::input)
         }
     }
+}
+
+/// The output states in increasing time. For an OEM of a forward propagation, a new
+/// segment starts at each impulsive maneuver with the state just after it (the previous
+/// segment ends with the state just before), as the OEM standard intends: interpolation
+/// must never run across a burn. CSV has no segments and keeps the plain grid.
+fn ephemeris_points(
+    result: &propagator::propagation::Propagated,
+    axis: &TimeAxis,
+    t_end: f64,
+    segmented: bool,
+) -> (Vec<EphemerisPoint>, Vec<usize>) {
+    let point = |t: f64, x: propagator::StateVector| EphemerisPoint {
+        epoch: axis.epoch(t),
+        state: x,
+    };
+    let mut points: Vec<EphemerisPoint> = Vec::new();
+    let mut starts = Vec::new();
+    if !segmented || t_end < 0.0 || result.maneuvers.is_empty() {
+        points = result.samples.iter().map(|(t, x)| point(*t, *x)).collect();
+        // Ephemeris files are in increasing time, whichever way we propagated.
+        if t_end < 0.0 {
+            points.reverse();
+        }
+        return (points, starts);
+    }
+    let mut burns = result.maneuvers.iter().peekable();
+    for (t, x) in &result.samples {
+        while let Some(b) = burns.peek() {
+            if b.t_s > *t {
+                break;
+            }
+            // Close the segment at the burn (unless the grid already holds that epoch,
+            // whose sample is the pre-burn state), and open the next just after it.
+            if b.t_s < *t {
+                points.push(point(b.t_s, b.before));
+            }
+            if b.t_s == *t {
+                points.push(point(*t, *x));
+            }
+            starts.push(points.len());
+            points.push(point(b.t_s, b.after));
+            burns.next();
+        }
+        if points.last().is_some_and(|p| p.epoch == axis.epoch(*t)) {
+            continue;
+        }
+        points.push(point(*t, *x));
+    }
+    (points, starts)
 }
 
 /// Runs the command.
@@ -181,23 +234,13 @@ pub fn run(a: Args) -> Result<(), CliError> {
     })?;
     let wall_s = started.elapsed().as_secs_f64();
 
-    let mut points: Vec<EphemerisPoint> = result
-        .samples
-        .iter()
-        .map(|(t, x)| EphemerisPoint {
-            epoch: axis.epoch(*t),
-            state: *x,
-        })
-        .collect();
-    // Ephemeris files are in increasing time, whichever way we propagated.
-    if t_end < 0.0 {
-        points.reverse();
-    }
+    let oem = matches!(Format::from_path(&a.out), Ok(Format::Oem));
+    let (points, segment_starts) = ephemeris_points(&result, &axis, t_end, oem);
     let eph = Ephemeris {
         object_name: initial.object_name.clone().unwrap_or_default(),
-        object_id: String::new(),
+        object_id: initial.object_id.clone().unwrap_or_default(),
         points,
-        segment_starts: vec![],
+        segment_starts,
     };
     eph.save(&a.out).map_err(CliError::input)?;
 

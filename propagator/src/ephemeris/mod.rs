@@ -145,6 +145,11 @@ impl Ephemeris {
             if i > 0 {
                 let prev = &self.points[i - 1];
                 let dt = p.epoch.seconds_since(&prev.epoch);
+                // A segment after an impulsive maneuver starts at the maneuver's epoch,
+                // where the previous one ended (the states before and after the burn).
+                if dt == 0.0 && self.segment_starts.contains(&i) {
+                    continue;
+                }
                 if dt == 0.0 {
                     return Err(file_error(
                         path,

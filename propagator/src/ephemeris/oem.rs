@@ -1,10 +1,13 @@
 //! CCSDS Orbit Ephemeris Message (OEM), keyword-value notation (CCSDS 502.0-B).
 //!
-//! Written: version 2.0, one segment, `CENTER_NAME = EARTH`, `REF_FRAME = EME2000`
-//! (the J2000 mean equator and equinox; arcwise treats it as GCRF), `TIME_SYSTEM = UTC`.
-//! Read: one or more segments about the Earth in EME2000, GCRF or ICRF, on UTC, TAI,
-//! TT or GPS time; optional acceleration columns are accepted and ignored; covariance
-//! blocks are skipped. Other frames or centres are refused rather than misread.
+//! Written: version 2.0 with `CREATION_DATE` (now, or `SOURCE_DATE_EPOCH` when set, for
+//! reproducible files), one segment per part of the ephemeris (a new one after each
+//! impulsive maneuver), `CENTER_NAME = EARTH`, `REF_FRAME = EME2000` (the J2000 mean
+//! equator and equinox; arcwise treats it as GCRF), `TIME_SYSTEM = UTC`.
+//! Read ([`read_message`]): any OEM 1–3 in KVN — segments, comments, calendar or
+//! day-of-year epochs, optional acceleration columns (ignored), covariance blocks
+//! (skipped). [`parse`] then takes only what arcwise can use without misreading it: one
+//! object, Earth-centred, in EME2000, GCRF or ICRF, on UTC, TAI, TT or GPS time.
 
 use super::{file_error, Ephemeris, EphemerisPoint, FileError};
 use crate::state::StateVector;
@@ -30,36 +33,101 @@ pub fn format(eph: &Ephemeris) -> String {
     s.push_str(
         "COMMENT Written by arcwise; ECI = J2000 mean equator and equinox (treated as GCRF)\n",
     );
-    s.push_str("ORIGINATOR = ARCWISE\n\n");
-    s.push_str("META_START\n");
-    s.push_str(&format!("OBJECT_NAME = {name}\nOBJECT_ID = {id}\n"));
-    s.push_str("CENTER_NAME = EARTH\nREF_FRAME = EME2000\nTIME_SYSTEM = UTC\n");
-    if let (Some(a), Some(b)) = (eph.points.first(), eph.points.last()) {
-        s.push_str(&format!(
-            "START_TIME = {}\nSTOP_TIME = {}\n",
-            a.epoch.to_utc_string_no_zone(),
-            b.epoch.to_utc_string_no_zone()
-        ));
-    }
-    s.push_str("META_STOP\n\n");
-    for p in &eph.points {
-        let x = &p.state;
-        s.push_str(&format!(
-            "{} {} {} {} {} {} {}\n",
-            p.epoch.to_utc_string_no_zone(),
-            x[0],
-            x[1],
-            x[2],
-            x[3],
-            x[4],
-            x[5]
-        ));
+    s.push_str(&format!("CREATION_DATE = {}\n", creation_date()));
+    s.push_str("ORIGINATOR = ARCWISE\n");
+    for (k, seg) in eph.segments().into_iter().enumerate() {
+        let pts = &eph.points[seg];
+        s.push_str("\nMETA_START\n");
+        s.push_str(&format!("OBJECT_NAME = {name}\nOBJECT_ID = {id}\n"));
+        s.push_str("CENTER_NAME = EARTH\nREF_FRAME = EME2000\nTIME_SYSTEM = UTC\n");
+        if let (Some(a), Some(b)) = (pts.first(), pts.last()) {
+            s.push_str(&format!(
+                "START_TIME = {}\nSTOP_TIME = {}\n",
+                a.epoch.to_utc_string_no_zone(),
+                b.epoch.to_utc_string_no_zone()
+            ));
+        }
+        s.push_str("META_STOP\n");
+        if k > 0 {
+            s.push_str("COMMENT This segment begins after an impulsive maneuver\n");
+        }
+        s.push('\n');
+        for p in pts {
+            let x = &p.state;
+            s.push_str(&format!(
+                "{} {} {} {} {} {} {}\n",
+                p.epoch.to_utc_string_no_zone(),
+                x[0],
+                x[1],
+                x[2],
+                x[3],
+                x[4],
+                x[5]
+            ));
+        }
     }
     s
 }
 
-/// Parses an OEM; returns the ephemeris and the file line of each state.
+/// `CREATION_DATE`: the current UTC time, or `SOURCE_DATE_EPOCH` (seconds since 1970,
+/// the reproducible-builds convention) when set, so that a file can be made byte for byte
+/// the same again.
+fn creation_date() -> String {
+    let unix_s = std::env::var("SOURCE_DATE_EPOCH")
+        .ok()
+        .and_then(|v| v.trim().parse::<i64>().ok())
+        .unwrap_or_else(|| {
+            std::time::SystemTime::now()
+                .duration_since(std::time::UNIX_EPOCH)
+                .map(|d| d.as_secs() as i64)
+                .unwrap_or(0)
+        });
+    Epoch::parse_utc("1970-01-01T00:00:00Z")
+        .map(|e| {
+            // Seconds since 1970 in UTC count no leap seconds; add the TAI−UTC change.
+            let guess = e.plus_seconds(unix_s as f64);
+            let shifted = guess.plus_seconds(guess.tai_minus_utc_s() - e.tai_minus_utc_s());
+            let text = shifted.to_utc_string_no_zone();
+            text[..19].to_string()
+        })
+        .unwrap_or_else(|_| "1970-01-01T00:00:00".into())
+}
+
+/// An OEM as read, before arcwise's own restrictions.
+#[derive(Clone, Debug, PartialEq)]
+pub struct OemMessage {
+    /// The states (segments marked in `segment_starts`).
+    pub ephemeris: Ephemeris,
+    /// File line of each state.
+    pub lines: Vec<usize>,
+    /// `CENTER_NAME` of the segments, and the line where it was given.
+    pub center_name: (String, usize),
+    /// `REF_FRAME` of each segment.
+    pub ref_frames: Vec<String>,
+    /// `CREATION_DATE` of the header, if given.
+    pub creation_date: Option<String>,
+    /// `ORIGINATOR` of the header, if given.
+    pub originator: Option<String>,
+}
+
+/// Parses an OEM for arcwise: [`read_message`], then one Earth-centred object.
 pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileError> {
+    let m = read_message(text, path)?;
+    if !m.center_name.0.eq_ignore_ascii_case("EARTH") {
+        return Err(file_error(
+            path,
+            Some(m.center_name.1),
+            format!(
+                "CENTER_NAME = {}: only Earth-centred ephemerides are supported",
+                m.center_name.0
+            ),
+        ));
+    }
+    Ok((m.ephemeris, m.lines))
+}
+
+/// Reads an OEM (KVN) as it is: every segment, its metadata and states.
+pub fn read_message(text: &str, path: &Path) -> Result<OemMessage, FileError> {
     #[derive(PartialEq)]
     enum Where {
         Header,
@@ -69,6 +137,9 @@ pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileErr
     }
     let mut at = Where::Header;
     let mut eph = Ephemeris::default();
+    let mut center: Option<(String, usize)> = None;
+    let mut ref_frames = Vec::new();
+    let (mut creation_date, mut originator) = (None, None);
     let mut lines = Vec::new();
     let mut scale = None;
     let mut saw_version = false;
@@ -120,7 +191,9 @@ pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileErr
                     }
                     saw_version = true;
                 }
-                Some(("CREATION_DATE" | "ORIGINATOR" | "MESSAGE_ID" | "CLASSIFICATION", _)) => {}
+                Some(("CREATION_DATE", v)) => creation_date = Some(v.to_string()),
+                Some(("ORIGINATOR", v)) => originator = Some(v.to_string()),
+                Some(("MESSAGE_ID" | "CLASSIFICATION", _)) => {}
                 _ => {
                     if !saw_version {
                         return Err(file_error(
@@ -170,15 +243,18 @@ pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileErr
                         }
                         *field = v.to_string();
                     }
-                    "CENTER_NAME" => {
-                        if !v.eq_ignore_ascii_case("EARTH") {
-                            return Err(file_error(path, Some(ln), format!("CENTER_NAME = {v}: only Earth-centred ephemerides are supported")));
+                    "CENTER_NAME" => match &center {
+                        Some((c, _)) if c != v => {
+                            return Err(file_error(path, Some(ln), format!("CENTER_NAME = {v} in segment {segments}, but the first segment's is {c}: one centre per file")));
                         }
-                    }
+                        Some(_) => {}
+                        None => center = Some((v.to_string(), ln)),
+                    },
                     "REF_FRAME" => {
                         if !matches!(v, "EME2000" | "GCRF" | "ICRF") {
                             return Err(file_error(path, Some(ln), format!("REF_FRAME = {v}: only EME2000, GCRF or ICRF (inertial) are supported")));
                         }
+                        ref_frames.push(v.to_string());
                     }
                     "TIME_SYSTEM" => {
                         scale = Some(Scale::from_keyword(v).ok_or_else(|| {
@@ -268,5 +344,12 @@ pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileErr
             "COVARIANCE_START without COVARIANCE_STOP",
         ));
     }
-    Ok((eph, lines))
+    Ok(OemMessage {
+        ephemeris: eph,
+        lines,
+        center_name: center.unwrap_or_else(|| ("EARTH".into(), 0)),
+        ref_frames,
+        creation_date,
+        originator,
+    })
 }
