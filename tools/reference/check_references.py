@@ -42,8 +42,18 @@ def numbers(text):
     return out
 
 
-def close(a, b):
-    return a == b or abs(a - b) <= 1e-12 * max(abs(a), abs(b)) or (math.isnan(a) and math.isnan(b))
+# Integrated trajectories (scipy DOP853 over days) differ in their last bits between
+# machines with the same pinned packages (numpy's SIMD kernels round differently, and
+# 3-day GEO/Molniya runs amplify it): seen 1.4e-12 relative, and 2.3e-8 km on a 187 km
+# component. They may differ by 1e-10 relative plus 1e-7 (km or km/s, 0.1 mm): far
+# below every test tolerance that uses them (µm to mm), while any change of script,
+# package or constant moves them much more. Everything else must match to 1e-12.
+LOOSE = {"tests/data/reference/trajectories.json", "tests/data/reference/third_body_trajectories.json"}
+
+
+def close(a, b, rel=1e-12, absolute=0.0):
+    return (a == b or abs(a - b) <= rel * max(abs(a), abs(b)) + absolute
+            or (math.isnan(a) and math.isnan(b)))
 
 
 def main():
@@ -63,7 +73,8 @@ def main():
                 print(f"{rel}: {len(a)} numbers regenerated, {len(b)} committed")
                 bad += 1
                 continue
-            diffs = [(i, x, y) for i, (x, y) in enumerate(zip(a, b)) if not close(x, y)]
+            tol = (1e-10, 1e-7) if rel in LOOSE else (1e-12, 0.0)
+            diffs = [(i, x, y) for i, (x, y) in enumerate(zip(a, b)) if not close(x, y, *tol)]
             if diffs:
                 bad += 1
                 print(f"{rel}: {len(diffs)} values differ, first: #{diffs[0][0]} {diffs[0][1]!r} vs {diffs[0][2]!r}")
