@@ -39,6 +39,15 @@ fn same(a: &Identity, b: &Identity) -> bool {
     a.canonical == b.canonical || (a.inode.is_some() && a.inode == b.inode)
 }
 
+/// The paths actually given among optional ones (`--report`, `--plot`), with their
+/// option names, for [`check_distinct`].
+pub fn given<'a>(items: &[(&'a str, Option<&'a Path>)]) -> Vec<(&'a str, &'a Path)> {
+    items
+        .iter()
+        .filter_map(|(o, p)| p.map(|p| (*o, p)))
+        .collect()
+}
+
 /// Refuses a run whose outputs coincide with one of its inputs or with each other.
 /// Each path comes with the option (or role) that named it, for the message.
 pub fn check_distinct(inputs: &[(&str, &Path)], outputs: &[(&str, &Path)]) -> Result<(), CliError> {

@@ -32,19 +32,13 @@ fn a_failure_says_when_in_utc() {
         "state.yaml",
         "epoch_utc: \"2031-05-04T00:00:00Z\"\nelements: { sma_km: 6878.0, ecc: 0.001, inc_deg: 51.6, raan_deg: 0, argp_deg: 0, true_anomaly_deg: 0 }\n",
     );
-    let (code, _, err) = arcwise(&[
-        "propagate",
-        "--forces",
-        s(&forces),
-        "--state",
-        s(&state),
-        "--to",
+    let (code, _, err) = common::propagate(
+        &forces,
+        &state,
         "2031-05-04T14:00:00Z",
-        "--step",
         "60",
-        "--out",
-        s(&d.join("p.csv")),
-    ]);
+        &d.join("p.csv"),
+    );
     assert_eq!(code, 2, "{err}");
     assert!(err.contains("[at 2031-05-04T13:00:"), "{err}");
 }
@@ -61,19 +55,7 @@ fn a_learned_file_is_a_starting_state_and_check_warns_about_another_forces_file(
     .unwrap();
     let forces = write(d, "forces.yaml", "gravity: { zonal_degree: 2 }\n");
     let out = d.join("p.csv");
-    let (code, _, err) = arcwise(&[
-        "propagate",
-        "--forces",
-        s(&forces),
-        "--state",
-        s(&learned),
-        "--to",
-        "2031-05-05T02:00:00Z",
-        "--step",
-        "60",
-        "--out",
-        s(&out),
-    ]);
+    let (code, _, err) = common::propagate(&forces, &learned, "2031-05-05T02:00:00Z", "60", &out);
     assert_eq!(code, 0, "{err}");
     let first = std::fs::read_to_string(&out).unwrap();
     assert!(

@@ -366,19 +366,7 @@ fn an_oem_across_an_impulsive_maneuver_is_split_into_segments() {
         "object_name: KESTREL-3\nobject_id: 2031-042A\nepoch_utc: \"2031-05-04T00:00:00Z\"\nelements: { sma_km: 6878.0, ecc: 0.001, inc_deg: 51.6, raan_deg: 0, argp_deg: 0, true_anomaly_deg: 0 }\n",
     );
     let out = d.join("e.oem");
-    let (code, _, err) = common::arcwise(&[
-        "propagate",
-        "--forces",
-        common::s(&forces),
-        "--state",
-        common::s(&state),
-        "--to",
-        "2031-05-04T02:00:00Z",
-        "--step",
-        "60",
-        "--out",
-        common::s(&out),
-    ]);
+    let (code, _, err) = common::propagate(&forces, &state, "2031-05-04T02:00:00Z", "60", &out);
     assert_eq!(code, 0, "{err}");
     let text = std::fs::read_to_string(&out).unwrap();
     assert_eq!(text.matches("META_START").count(), 2, "{text}");

@@ -24,19 +24,7 @@ fn an_output_that_is_an_input_or_another_output_is_refused_and_nothing_is_touche
     let d = dir.path();
     let (forces, state) = quiet_inputs(d);
     let arc = d.join("a.csv");
-    let (code, _, err) = arcwise(&[
-        "propagate",
-        "--forces",
-        s(&forces),
-        "--state",
-        s(&state),
-        "--to",
-        "2031-05-04T03:00:00Z",
-        "--step",
-        "60",
-        "--out",
-        s(&arc),
-    ]);
+    let (code, _, err) = common::propagate(&forces, &state, "2031-05-04T03:00:00Z", "60", &arc);
     assert_eq!(code, 0, "{err}");
     let before = |p: &Path| std::fs::read(p).unwrap();
     let (arc0, forces0, state0) = (before(&arc), before(&forces), before(&state));

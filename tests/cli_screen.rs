@@ -67,20 +67,7 @@ fn screen_finds_the_crossing_and_says_it_is_a_screening_aid() {
         ),
     );
     assert_eq!(
-        arcwise(&[
-            "propagate",
-            "--forces",
-            s(&forces),
-            "--state",
-            s(&start),
-            "--to",
-            "2031-05-04T13:00:00Z",
-            "--step",
-            "30",
-            "--out",
-            s(&oem)
-        ])
-        .0,
+        common::propagate(&forces, &start, "2031-05-04T13:00:00Z", "30", &oem).0,
         0
     );
     let rep = dir.path().join("screen.json");
@@ -207,19 +194,7 @@ fn sparse_crossing(
         &format!("object_name: CROSSER-2\nepoch_utc: 2031-05-04T12:00:00Z\nr_km: [{}, 0, 0]\nv_km_s: [0, 0, {v2}]\n", a + 0.5),
     );
     let run = |state: &Path, to: &str, step: u32, out: &Path| {
-        let (code, _, err) = arcwise(&[
-            "propagate",
-            "--forces",
-            s(&forces),
-            "--state",
-            s(state),
-            "--to",
-            to,
-            "--step",
-            &step.to_string(),
-            "--out",
-            s(out),
-        ]);
+        let (code, _, err) = common::propagate(&forces, state, to, &step.to_string(), out);
         assert_eq!(code, 0, "{err}");
     };
     // Back to 10:00, then forward to 14:00 at each sampling.

@@ -74,19 +74,8 @@ fn an_ephemeris_across_a_leap_second_is_written_and_read_back() {
     );
     for name in ["e.csv", "e.oem"] {
         let out = d.join(name);
-        let (code, _, err) = arcwise(&[
-            "propagate",
-            "--forces",
-            s(&forces),
-            "--state",
-            s(&state),
-            "--to",
-            "2017-01-01T00:10:00Z",
-            "--step",
-            "0.5",
-            "--out",
-            s(&out),
-        ]);
+        let (code, _, err) =
+            common::propagate(&forces, &state, "2017-01-01T00:10:00Z", "0.5", &out);
         assert_eq!(code, 0, "{err}");
         let text = std::fs::read_to_string(&out).unwrap();
         assert!(text.contains("2016-12-31T23:59:60.000000"), "{name}");

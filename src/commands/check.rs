@@ -49,13 +49,10 @@ pub fn run(a: Args) -> Result<(), CliError> {
             ("--forces", &a.forces),
             ("--arc", &a.arc),
         ],
-        &[
-            a.report.as_deref().map(|p| ("--report", p)),
-            a.plot.as_deref().map(|p| ("--plot", p)),
-        ]
-        .into_iter()
-        .flatten()
-        .collect::<Vec<_>>(),
+        &crate::paths::given(&[
+            ("--report", a.report.as_deref()),
+            ("--plot", a.plot.as_deref()),
+        ]),
     )?;
     if let Some(m) = a.max_rms_km {
         if !(m.is_finite() && m > 0.0) {

@@ -166,13 +166,10 @@ pub fn plot_residuals(
 pub fn run(a: Args) -> Result<(), CliError> {
     crate::paths::check_distinct(
         &[("--arc", &a.arc), ("--forces", &a.forces)],
-        &[
-            a.report.as_deref().map(|p| ("--report", p)),
-            a.plot.as_deref().map(|p| ("--plot", p)),
-        ]
-        .into_iter()
-        .flatten()
-        .collect::<Vec<_>>(),
+        &crate::paths::given(&[
+            ("--report", a.report.as_deref()),
+            ("--plot", a.plot.as_deref()),
+        ]),
     )?;
     let options = FitOptions {
         estimate: parse_estimate(&a.estimate)?,

@@ -156,13 +156,10 @@ fn ephemeris_points(
 pub fn run(a: Args) -> Result<(), CliError> {
     crate::paths::check_distinct(
         &[("--forces", &a.forces), ("--state", &a.state)],
-        &[
-            Some(("--out", a.out.as_path())),
-            a.report.as_deref().map(|p| ("--report", p)),
-        ]
-        .into_iter()
-        .flatten()
-        .collect::<Vec<_>>(),
+        &crate::paths::given(&[
+            ("--out", Some(a.out.as_path())),
+            ("--report", a.report.as_deref()),
+        ]),
     )?;
     let method = Method::parse(&a.integrator).ok_or_else(|| {
         CliError::input(format!(

@@ -56,13 +56,10 @@ pub fn run(a: Args) -> Result<(), CliError> {
             ("--forces", &a.forces),
             ("--hypotheses", &a.hypotheses),
         ],
-        &[
-            a.report.as_deref().map(|p| ("--report", p)),
-            a.plot.as_deref().map(|p| ("--plot", p)),
-        ]
-        .into_iter()
-        .flatten()
-        .collect::<Vec<_>>(),
+        &crate::paths::given(&[
+            ("--report", a.report.as_deref()),
+            ("--plot", a.plot.as_deref()),
+        ]),
     )?;
     let text = propagator::input::read_text(&a.hypotheses, propagator::input::MAX_CONFIG_BYTES)
         .map_err(|e| CliError::input(format!("{}: {e}", a.hypotheses.display())))?;

@@ -297,13 +297,10 @@ pub fn run(a: Args) -> Result<(), CliError> {
     inputs.extend(a.forces.as_deref().map(|p| ("--forces", p)));
     crate::paths::check_distinct(
         &inputs,
-        &[
-            a.report.as_deref().map(|p| ("--report", p)),
-            a.plot.as_deref().map(|p| ("--plot", p)),
-        ]
-        .into_iter()
-        .flatten()
-        .collect::<Vec<_>>(),
+        &crate::paths::given(&[
+            ("--report", a.report.as_deref()),
+            ("--plot", a.plot.as_deref()),
+        ]),
     )?;
     if !(a.threshold_km.is_finite() && a.threshold_km > 0.0) {
         return Err(CliError::input(

@@ -63,3 +63,26 @@ pub fn c_force_source(abi: u32, accel: &str) -> String {
          int32_t arcwise_plugin_acceleration(double t, const double s[6], double out[3]) {{ {accel} }}\n"
     )
 }
+
+/// Runs `arcwise propagate --forces F --state S --to TO --step STEP --out OUT`.
+pub fn propagate(
+    forces: &Path,
+    state: &Path,
+    to: &str,
+    step: &str,
+    out: &Path,
+) -> (i32, String, String) {
+    arcwise(&[
+        "propagate",
+        "--forces",
+        s(forces),
+        "--state",
+        s(state),
+        "--to",
+        to,
+        "--step",
+        step,
+        "--out",
+        s(out),
+    ])
+}
