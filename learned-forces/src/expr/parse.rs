@@ -48,7 +48,9 @@ pub fn parse(text: &str) -> Result<Node, ParseError> {
 
 /// Parses `text` as an expression of either type (type-checked).
 pub fn parse_any(text: &str) -> Result<Node, ParseError> {
-    if text.len() > MAX_LEN {
+    // Characters, not bytes: the error position is a character position (a 4 kB text
+    // of multi-byte characters is shorter than 4096 characters; found by the fuzzer).
+    if text.len() > MAX_LEN && text.chars().count() > MAX_LEN {
         return Err(ParseError {
             text: text.chars().take(40).collect::<String>() + "…",
             position: MAX_LEN,

@@ -202,3 +202,11 @@ fn unit_vectors_simplify() {
         assert_eq!(parse(text).unwrap().simplify().to_string(), want, "{text}");
     }
 }
+
+#[test]
+fn a_long_text_of_multibyte_characters_reports_a_position_inside_it() {
+    // 3000 'Δ' are 6000 bytes but 3000 characters (a fuzzer-found case).
+    let text = "Δ".repeat(3000);
+    let e = crate::expr::parse(&text).unwrap_err();
+    assert!(e.position <= text.chars().count(), "{e}");
+}
