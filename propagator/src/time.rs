@@ -218,9 +218,10 @@ impl Epoch {
         let t = (t + round_ns / 2).div_euclid(round_ns) * round_ns;
         let mut day = t.div_euclid(DAY_NS) as i64;
         loop {
-            let sod = t - day as i128 * DAY_NS - tai_minus_utc_on_day(day);
+            let dat = tai_minus_utc_on_day(day);
+            let sod = t - day as i128 * DAY_NS - dat;
             // A day with a leap second lasts 86401 s.
-            let length = DAY_NS + tai_minus_utc_on_day(day + 1) - tai_minus_utc_on_day(day);
+            let length = DAY_NS + tai_minus_utc_on_day(day + 1) - dat;
             if sod < 0 {
                 day -= 1;
             } else if sod >= length {

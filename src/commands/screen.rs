@@ -261,22 +261,15 @@ fn load_track(path: &Path, ctx: &Ctx) -> Result<(Track, String, Option<String>),
         .map_err(|e| format!("{}: {e}", path.display()))?;
     if text.contains("format_version:") {
         let f = LearnedFile::load(path).map_err(|e| e.to_string())?;
-        let s = &f.state_at_end;
-        let epoch =
-            Epoch::parse_utc(&s.epoch_utc).map_err(|e| format!("{}: {e}", path.display()))?;
+        let (epoch, x) = f
+            .state_at_end
+            .state("state_at_end")
+            .map_err(|e| format!("{}: {e}", path.display()))?;
         let mut model = model_for(ctx, epoch, path)?;
         model.push(Box::new(
             f.force(&epoch)
                 .map_err(|e| format!("{}: {e}", path.display()))?,
         ));
-        let x = StateVector::new(
-            s.r_km[0],
-            s.r_km[1],
-            s.r_km[2],
-            s.v_km_s[0],
-            s.v_km_s[1],
-            s.v_km_s[2],
-        );
         return Ok((sampled(&model, epoch, x, ctx, path)?, f.name.clone(), None));
     }
     let body = ctx.forces.map(|f| f.0.central_body).unwrap_or_default();

@@ -375,13 +375,14 @@ fn create_private_dir(dir: &Path) -> Result<(), BuildError> {
     })
 }
 
-/// A working folder for cargo with no configuration above it that others could plant.
-fn neutral_dir() -> PathBuf {
-    if cfg!(unix) {
-        PathBuf::from("/")
-    } else {
-        std::env::temp_dir()
-    }
+/// A working folder for cargo with no configuration above it that others could plant:
+/// the root of the file system the build folder is on (`/` on Unix, the drive on
+/// Windows) — never a shared folder such as the temporary directory.
+fn neutral_dir(dir: &Path) -> PathBuf {
+    std::fs::canonicalize(dir)
+        .ok()
+        .and_then(|d| d.ancestors().last().map(Path::to_path_buf))
+        .unwrap_or_else(|| PathBuf::from("/"))
 }
 
 /// Writes the crate into `dir` — which must not exist: it is created here, private to
@@ -413,7 +414,7 @@ pub fn build(file: &LearnedFile, name: &str, dir: &Path) -> Result<PathBuf, Buil
     // the temporary directory (a `rustc-wrapper`, say) is never read.
     let mut command = Command::new(&cargo);
     command
-        .current_dir(neutral_dir())
+        .current_dir(neutral_dir(dir))
         .args([
             "build",
             "--release",

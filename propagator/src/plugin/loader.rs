@@ -367,6 +367,11 @@ impl PluginForce {
                 .collect();
         };
         let ts: Vec<f64> = t_s.iter().map(|t| t + self.offset_s).collect();
+        if let Some(w) = &self.watch {
+            for (t, x) in ts.iter().zip(states) {
+                w.observe(*t, x);
+            }
+        }
         let flat: Vec<f64> = states.iter().flat_map(|x| x.iter().copied()).collect();
         let mut out = vec![0.0; 3 * states.len()];
         // SAFETY: buffers sized as the ABI requires.
