@@ -496,6 +496,12 @@ impl Force for LearnedForce {
         propagator::force::finite_or_error(&self.name, t_s, Vector3::new(v[0], v[1], v[2]))
     }
 
+    fn switching(&self, t_s: f64, x: &StateVector, out: &mut Vec<f64>) {
+        if self.needs.lit {
+            self.context.shadow_switching(t_s + self.offset_s, x, out);
+        }
+    }
+
     /// Exact partials by dual-number evaluation.
     fn partials(&self, t_s: f64, x: &StateVector) -> Result<Matrix3x6<f64>, ForceError> {
         let tf = t_s + self.offset_s;

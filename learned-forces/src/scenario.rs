@@ -112,6 +112,12 @@ impl Force for FormulaForce {
         let a = self.program.eval(&p);
         propagator::force::finite_or_error(self.name(), t_s, Vector3::new(a[0], a[1], a[2]))
     }
+
+    fn switching(&self, t_s: f64, x: &StateVector, out: &mut Vec<f64>) {
+        if self.needs.lit {
+            self.context.shadow_switching(t_s, x, out);
+        }
+    }
 }
 
 /// Tracking schedule and noise.

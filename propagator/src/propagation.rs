@@ -24,10 +24,7 @@ impl<'a> OrbitSystem<'a> {
     pub fn new(model: &'a ForceModel) -> Self {
         Self {
             model,
-            segment: Segment {
-                start_s: f64::NEG_INFINITY,
-                end_s: f64::INFINITY,
-            },
+            segment: Segment::UNBOUNDED,
         }
     }
 }
@@ -302,19 +299,35 @@ pub fn drive<S: OdeSystem + SegmentAware>(
     stops.sort_by(|a, b| (a * dir).total_cmp(&(b * dir)));
     stops.dedup();
     stops.push(t_end_s);
+    let mut switching = Switching::new(model, n);
     for &seg_end in &stops {
-        sys.set_segment(Segment {
+        let segment = Segment {
             start_s: segment_start.min(seg_end),
             end_s: segment_start.max(seg_end),
-        });
+            sides: None,
+        };
+        switching.reset(sys, segment, segment_start, &y_start);
         stepper.start(sys, segment_start, &y_start, seg_end)?;
-        while (seg_end - stepper.t()) * dir > 0.0 {
+        // Where the steps head: the segment's end, or a switching root being reached
+        // again from the start of the step that straddled it.
+        let mut target = seg_end;
+        loop {
+            if (target - stepper.t()) * dir <= 0.0 {
+                if target == seg_end {
+                    break;
+                }
+                switching.arrive(&mut stepper, sys, seg_end)?;
+                target = seg_end;
+                continue;
+            }
             let t_prev = stepper.t();
-            let t = stepper.step(sys, seg_end)?;
+            switching.remember(stepper.y());
+            let t = stepper.step(sys, target)?;
             observer.on_step(t, t0_s, t_end_s);
             // Altitude floor: locate the crossing on the dense output.
             if altitude(stepper.y()) < floor {
-                let t_hit = locate_crossing(&mut stepper, sys, t_prev, t, |y| altitude(y) - floor)?;
+                let t_hit =
+                    locate_crossing(&mut stepper, sys, t_prev, t, |_, y| altitude(y) - floor)?;
                 while next_out < output_times_s.len()
                     && (t_hit - output_times_s[next_out]) * dir >= 0.0
                 {
@@ -333,6 +346,14 @@ pub fn drive<S: OdeSystem + SegmentAware>(
                     final_y: (t_hit, buf),
                     stats: stepper.stats(),
                 });
+            }
+            // A switching function changed sign inside the step: redo it, ending at the root.
+            if target == seg_end {
+                if let Some(t_root) = switching.first_root(&mut stepper, sys, t_prev, t, dir)? {
+                    switching.rewind(&mut stepper, sys, t_prev, t_root)?;
+                    target = t_root;
+                    continue;
+                }
             }
             while next_out < output_times_s.len() && (t - output_times_s[next_out]) * dir >= 0.0 {
                 let to = output_times_s[next_out];
@@ -427,14 +448,153 @@ fn check_times(
     Ok(())
 }
 
+/// The force model's switching functions along the integration (see
+/// [`crate::force::Force::switching`]): their signs at the start of the current step,
+/// held by the forces over it, and the state there, so that a step straddling a root can
+/// be redone to end on it.
+struct Switching<'m> {
+    model: &'m ForceModel,
+    /// The integration segment the signs are held over.
+    segment: Segment,
+    /// Sign of each function (true: ≥ 0) at the start of the current step.
+    positive: Vec<bool>,
+    /// Scratch for the functions' values.
+    values: Vec<f64>,
+    /// State at the start of the current step (left empty when there are no functions).
+    y_prev: Vec<f64>,
+    /// While a root is being reached again: which function, and its sign past the root.
+    pending: Option<(usize, bool)>,
+}
+
+impl<'m> Switching<'m> {
+    fn new(model: &'m ForceModel, dim: usize) -> Self {
+        let y_prev = if model.n_switching() == 0 {
+            Vec::new()
+        } else {
+            vec![0.0; dim]
+        };
+        Self {
+            model,
+            segment: Segment::UNBOUNDED,
+            positive: Vec::new(),
+            values: Vec::new(),
+            y_prev,
+            pending: None,
+        }
+    }
+
+    fn active(&self) -> bool {
+        !self.y_prev.is_empty()
+    }
+
+    /// Signs at a fresh start (a segment's, or a root's), handed to the system to hold.
+    fn reset<S: SegmentAware>(&mut self, sys: &mut S, segment: Segment, t: f64, y: &[f64]) {
+        self.segment = segment;
+        if self.active() {
+            self.model.switching(
+                t,
+                &StateVector::from_column_slice(&y[..6]),
+                &mut self.values,
+            );
+            self.positive = self.values.iter().map(|&g| g >= 0.0).collect();
+            if let Some((i, past)) = self.pending.take() {
+                self.positive[i] = past;
+            }
+        }
+        self.hold(sys);
+    }
+
+    fn hold<S: SegmentAware>(&self, sys: &mut S) {
+        let sides = (self.active() && self.positive.len() <= 64).then(|| {
+            self.positive
+                .iter()
+                .enumerate()
+                .fold(0u64, |bits, (i, &p)| bits | (u64::from(p) << i))
+        });
+        sys.set_segment(Segment {
+            sides,
+            ..self.segment
+        });
+    }
+
+    /// Keeps the state at the start of the step about to be taken.
+    fn remember(&mut self, y: &[f64]) {
+        if self.active() {
+            self.y_prev.copy_from_slice(y);
+        }
+    }
+
+    /// The earliest root (in the direction `dir`) of a function that changed sign over the
+    /// last step `[t_prev, t]`, located on the dense output; `None` when none did.
+    fn first_root<S: OdeSystem>(
+        &mut self,
+        stepper: &mut AnyStepper,
+        sys: &mut S,
+        t_prev: f64,
+        t: f64,
+        dir: f64,
+    ) -> Result<Option<f64>, IntegrationError> {
+        if !self.active() {
+            return Ok(None);
+        }
+        let x = StateVector::from_column_slice(&stepper.y()[..6]);
+        self.model.switching(t, &x, &mut self.values);
+        let mut first: Option<(f64, usize)> = None;
+        for i in 0..self.values.len() {
+            if (self.values[i] >= 0.0) == self.positive[i] {
+                continue;
+            }
+            let sign = if self.positive[i] { 1.0 } else { -1.0 };
+            let model = self.model;
+            let mut scratch = Vec::with_capacity(self.values.len());
+            let root = locate_crossing(stepper, sys, t_prev, t, |tm, y| {
+                model.switching(tm, &StateVector::from_column_slice(&y[..6]), &mut scratch);
+                sign * scratch[i]
+            })?;
+            if first.is_none_or(|(r, _)| (root - r) * dir < 0.0) {
+                first = Some((root, i));
+            }
+        }
+        Ok(first.map(|(root, i)| {
+            self.pending = Some((i, !self.positive[i]));
+            root
+        }))
+    }
+
+    /// Restarts the stepper at the start of the last step, heading for the root; the
+    /// signs held are still those of the step's start.
+    fn rewind<S: OdeSystem>(
+        &mut self,
+        stepper: &mut AnyStepper,
+        sys: &mut S,
+        t_prev: f64,
+        t_root: f64,
+    ) -> Result<(), IntegrationError> {
+        stepper.resume(sys, t_prev, &self.y_prev, t_root)
+    }
+
+    /// At the root: the crossed function's sign set to its side past the root (its value
+    /// there is zero to rounding), the stepper restarted there toward `seg_end`.
+    fn arrive<S: OdeSystem + SegmentAware>(
+        &mut self,
+        stepper: &mut AnyStepper,
+        sys: &mut S,
+        seg_end: f64,
+    ) -> Result<(), IntegrationError> {
+        let (t, y) = (stepper.t(), stepper.y().to_vec());
+        self.reset(sys, self.segment, t, &y);
+        stepper.resume(sys, t, &y, seg_end)
+    }
+}
+
 /// Finds where `g` changes sign inside the last step, by bisection on the dense
-/// output (to 1 µs; g is positive at `t_a`, negative at `t_b`).
+/// output (to 1 µs; g(t, y) is positive at `t_a`, negative at `t_b`).
 fn locate_crossing<S: OdeSystem>(
     stepper: &mut AnyStepper,
     sys: &mut S,
     t_a: f64,
     t_b: f64,
-    g: impl Fn(&[f64]) -> f64,
+    mut g: impl FnMut(f64, &[f64]) -> f64,
 ) -> Result<f64, IntegrationError> {
     let mut buf = vec![0.0; sys.dim()];
     let (mut a, mut b) = (t_a, t_b);
@@ -444,7 +604,7 @@ fn locate_crossing<S: OdeSystem>(
         }
         let m = 0.5 * (a + b);
         stepper.dense_at(sys, m, &mut buf)?;
-        if g(&buf) >= 0.0 {
+        if g(m, &buf) >= 0.0 {
             a = m;
         } else {
             b = m;

@@ -92,10 +92,7 @@ impl<'a, D: Dynamics + ?Sized> VariationalSystem<'a, D> {
         Self {
             dynamics,
             np,
-            segment: Segment {
-                start_s: f64::NEG_INFINITY,
-                end_s: f64::INFINITY,
-            },
+            segment: Segment::UNBOUNDED,
             dadp: vec![Vector3::zeros(); np],
         }
     }

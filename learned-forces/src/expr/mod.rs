@@ -456,6 +456,22 @@ pub struct Context {
     pub clock: CenturyClock,
 }
 
+impl Context {
+    /// The switching functions of the `lit` terminal (the conical shadow's boundaries,
+    /// see [`propagator::force::Force::switching`]) at `t` (s on the formula's axis) and
+    /// state `x`, appended to `out`: a formula reading `lit` has the shadow's kinks.
+    pub fn shadow_switching(&self, t: f64, x: &StateVector, out: &mut Vec<f64>) {
+        let s = crate::codegen::runtime::sun_km(self.clock.centuries(t));
+        propagator::force::srp::shadow_boundaries(
+            &nalgebra::Vector3::new(x[0], x[1], x[2]),
+            &nalgebra::Vector3::new(s[0], s[1], s[2]),
+            self.radius_km,
+            propagator::force::srp::Shadow::Conical,
+            out,
+        );
+    }
+}
+
 /// All terminal values at one point, computed once and shared by every node. This is the
 /// plugin runtime's own type: the library and every generated plugin compute terminals
 /// with one implementation.

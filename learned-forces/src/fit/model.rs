@@ -141,6 +141,19 @@ impl FitModel {
         1.0
     }
 
+    /// The unscaled acceleration of the force at `index` (the partial with respect to its
+    /// scale), seen in its own segment.
+    fn scaled_force(
+        &self,
+        index: Option<usize>,
+        t_s: f64,
+        x: &StateVector,
+        segment: Segment,
+    ) -> Result<Vector3<f64>, ForceError> {
+        let k = index.unwrap_or(0);
+        self.model.forces()[k].acceleration_in(t_s, x, self.model.segment_for(k, segment))
+    }
+
     fn has_empirical(&self) -> bool {
         self.parameters.iter().zip(&self.values).any(|(p, v)| {
             matches!(
@@ -224,7 +237,8 @@ impl Dynamics for FitModel {
     ) -> Result<Vector3<f64>, ForceError> {
         let mut a = Vector3::zeros();
         for (i, f) in self.model.forces().iter().enumerate() {
-            a += f.acceleration_in(t_s, x, segment)? * self.multiplier(i);
+            a +=
+                f.acceleration_in(t_s, x, self.model.segment_for(i, segment))? * self.multiplier(i);
         }
         if let Some((e, c, k)) = self.extra_values() {
             a += e.acceleration(t_s, x, &c, &k);
@@ -263,10 +277,8 @@ impl Dynamics for FitModel {
         let extra = self.extra_values();
         for (k, p) in self.parameters.iter().enumerate() {
             out[k] = match p {
-                Parameter::DragScale => self.model.forces()[self.drag_index.unwrap_or(0)]
-                    .acceleration_in(t_s, x, segment)?,
-                Parameter::SrpScale => self.model.forces()[self.srp_index.unwrap_or(0)]
-                    .acceleration_in(t_s, x, segment)?,
+                Parameter::DragScale => self.scaled_force(self.drag_index, t_s, x, segment)?,
+                Parameter::SrpScale => self.scaled_force(self.srp_index, t_s, x, segment)?,
                 Parameter::TermCoefficient(i) => match &extra {
                     Some((e, _, kv)) => e.term(*i, t_s, x, kv),
                     None => Vector3::zeros(),

@@ -17,17 +17,29 @@ use maneuver::Impulse;
 use nalgebra::{Matrix3x6, Vector3};
 
 /// The integration segment a force is being evaluated in: the propagator splits the
-/// integration at every discontinuity, so a force that switches at an epoch can tell
-/// which side of it a stage on the boundary belongs to.
+/// integration at every discontinuity and at every root of a switching function, so a
+/// force that switches at an epoch or at a boundary in space can tell which side of it a
+/// stage on the boundary belongs to.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Segment {
     /// Segment start, s on the time axis.
     pub start_s: f64,
     /// Segment end, s on the time axis.
     pub end_s: f64,
+    /// The side of each of the force's own switching functions (see [`Force::switching`])
+    /// held over the segment: bit i set when function i is ≥ 0. `None` when the caller
+    /// does not track them; the force then decides from the geometry.
+    pub sides: Option<u64>,
 }
 
 impl Segment {
+    /// The whole time axis, no sides held.
+    pub const UNBOUNDED: Segment = Segment {
+        start_s: f64::NEG_INFINITY,
+        end_s: f64::INFINITY,
+        sides: None,
+    };
+
     /// The middle of the segment: a force that switches only at segment boundaries is on
     /// for the whole segment exactly when it is on here.
     pub fn mid_s(&self) -> f64 {
@@ -91,6 +103,13 @@ pub trait Force: Send + Sync {
     fn discontinuities_s(&self) -> Vec<f64> {
         Vec::new()
     }
+
+    /// Switching functions: functions of `(t_s, x)` whose sign changes where the force
+    /// stops being smooth along the orbit (a shadow boundary, say). Appends one value per
+    /// function to `out`, always the same number in the same order. The driver ends a step
+    /// at every sign change, so that no step straddles a kink: an adaptive step across one
+    /// keeps the kink's error (2.7 m a day at the default tolerance for a conical shadow).
+    fn switching(&self, _t_s: f64, _x: &StateVector, _out: &mut Vec<f64>) {}
 }
 
 /// Central-difference ∂a/∂x of any force; steps relative to |r| and |v|.
@@ -171,6 +190,10 @@ fn implausible(name: &str, t_s: f64, a: Vector3<f64>) -> ForceError {
 #[derive(Default)]
 pub struct ForceModel {
     forces: Vec<Box<dyn Force>>,
+    /// Index of each force's first switching function in the model's list.
+    switch_offsets: Vec<usize>,
+    /// How many switching functions the forces have in all.
+    n_switching: usize,
     impulses: Vec<Impulse>,
 }
 
@@ -204,14 +227,48 @@ impl ForceModel {
         v
     }
 
+    /// Every force's switching functions at `(t_s, x)`, in force order, into `out`
+    /// (cleared first); see [`Force::switching`].
+    pub fn switching(&self, t_s: f64, x: &StateVector, out: &mut Vec<f64>) {
+        out.clear();
+        for f in &self.forces {
+            f.switching(t_s, x, out);
+        }
+    }
+
+    /// How many switching functions the model has (the length of
+    /// [`ForceModel::switching`]'s output).
+    pub fn n_switching(&self) -> usize {
+        self.n_switching
+    }
+
+    /// The segment as force `k` sees it: the held sides shifted to its own functions
+    /// (none held when the model has more than 64 functions).
+    pub fn segment_for(&self, k: usize, segment: Segment) -> Segment {
+        let sides = match (segment.sides, self.switch_offsets.get(k)) {
+            (Some(bits), Some(&o)) if self.n_switching <= 64 => Some(bits >> o),
+            _ => None,
+        };
+        Segment { sides, ..segment }
+    }
+
     /// Appends a force.
     pub fn push(&mut self, force: Box<dyn Force>) {
+        // The count is fixed by the trait's contract; any state tells it.
+        let mut probe = Vec::new();
+        force.switching(
+            0.0,
+            &StateVector::new(7000.0, 0.0, 0.0, 0.0, 7.5, 0.0),
+            &mut probe,
+        );
+        self.switch_offsets.push(self.n_switching);
+        self.n_switching += probe.len();
         self.forces.push(force);
     }
 
     /// Builder form of [`ForceModel::push`].
     pub fn with(mut self, force: impl Force + 'static) -> Self {
-        self.forces.push(Box::new(force));
+        self.push(Box::new(force));
         self
     }
 
@@ -251,9 +308,9 @@ impl ForceModel {
         total: Vector3<f64>,
         segment: Option<Segment>,
     ) -> ForceError {
-        for f in &self.forces {
+        for (k, f) in self.forces.iter().enumerate() {
             let a = match segment {
-                Some(s) => f.acceleration_in(t_s, x, s),
+                Some(s) => f.acceleration_in(t_s, x, self.segment_for(k, s)),
                 None => f.acceleration(t_s, x),
             };
             if let Ok(a) = a {
@@ -273,8 +330,8 @@ impl ForceModel {
         segment: Segment,
     ) -> Result<Vector3<f64>, ForceError> {
         let mut a = Vector3::zeros();
-        for f in &self.forces {
-            a += f.acceleration_in(t_s, x, segment)?;
+        for (k, f) in self.forces.iter().enumerate() {
+            a += f.acceleration_in(t_s, x, self.segment_for(k, segment))?;
         }
         if plausible(&a) {
             Ok(a)

@@ -4,7 +4,7 @@
 //! (Montenbruck & Gill §3.4; Vallado §8.6.4), ν the fraction of the Sun's disc visible.
 //! N/m² · m²/kg = m/s², divided by 10³ for km/s².
 
-use super::{Force, ForceError};
+use super::{Force, ForceError, Segment};
 use crate::solar_system::{sun_position_km, CenturyClock, AU_KM, SUN_RADIUS_KM};
 use crate::state::StateVector;
 use nalgebra::Vector3;
@@ -80,6 +80,43 @@ pub fn sunlit_fraction(r: &Vector3<f64>, s: &Vector3<f64>, re_km: f64, model: Sh
     }
 }
 
+/// Appends the shadow boundaries of `model` as switching functions (see
+/// [`Force::switching`]): each changes sign where the sunlit fraction stops being smooth.
+///
+/// Conical: c − (a + b) (penumbra entry/exit) and c − |b − a| (umbra, or annular, entry/exit),
+/// in radians, with a, b, c as in [`sunlit_fraction`]. Cylindrical: the distance from
+/// the shadow axis less the Earth radius behind the Earth, and |r| − R in front (equal on the
+/// terminator plane, so the function is continuous), km. None: no function.
+pub fn shadow_boundaries(
+    r: &Vector3<f64>,
+    s: &Vector3<f64>,
+    re_km: f64,
+    model: Shadow,
+    out: &mut Vec<f64>,
+) {
+    match model {
+        Shadow::None => {}
+        Shadow::Cylindrical => {
+            let u = s.normalize();
+            let along = r.dot(&u);
+            let off_axis = if along < 0.0 {
+                (r - u * along).norm()
+            } else {
+                r.norm()
+            };
+            out.push(off_axis - re_km);
+        }
+        Shadow::Conical => {
+            let to_sun = s - r;
+            let a = (SUN_RADIUS_KM / to_sun.norm()).asin();
+            let b = (re_km / r.norm()).asin();
+            let c = (-r).angle(&to_sun);
+            out.push(c - (a + b));
+            out.push(c - (b - a).abs());
+        }
+    }
+}
+
 /// Cannonball solar radiation pressure.
 #[derive(Clone, Debug)]
 pub struct SolarPressure {
@@ -99,7 +136,23 @@ pub struct SolarPressure {
     pub clock: CenturyClock,
 }
 
+/// Full-Sun acceleration, km/s², at `r` with the Sun at `s` (km), for Cr·A/m (times a
+/// scale) `cr_area_per_mass_m2_kg`, m²/kg.
+fn full_sun(r: &Vector3<f64>, s: &Vector3<f64>, cr_area_per_mass_m2_kg: f64) -> Vector3<f64> {
+    let d = r - s;
+    let dn = d.norm();
+    let p = SOLAR_PRESSURE_1AU_N_M2 * (AU_KM / dn).powi(2);
+    d * (p * cr_area_per_mass_m2_kg * 1e-3 / dn)
+}
+
 impl SolarPressure {
+    /// The acceleration in full Sun at `t_s`, state `x`, km/s².
+    fn lit_acceleration(&self, t_s: f64, x: &StateVector) -> Vector3<f64> {
+        let r = Vector3::new(x[0], x[1], x[2]);
+        let s = sun_position_km(self.clock.centuries(t_s));
+        full_sun(&r, &s, self.cr * self.area_m2 / self.mass_kg * self.scale)
+    }
+
     /// Sunlit fraction at `t_s`, state `x`.
     pub fn sunlit(&self, t_s: f64, x: &StateVector) -> f64 {
         let s = sun_position_km(self.clock.centuries(t_s));
@@ -124,15 +177,34 @@ impl Force for SolarPressure {
         if nu == 0.0 {
             return Ok(Vector3::zeros());
         }
-        let d = r - s;
-        let dn = d.norm();
-        let p = SOLAR_PRESSURE_1AU_N_M2 * (AU_KM / dn).powi(2);
-        let k = nu * p * self.cr * self.area_m2 / self.mass_kg * self.scale * 1e-3;
-        Ok(d * (k / dn))
+        Ok(full_sun(&r, &s, self.cr * self.area_m2 / self.mass_kg * self.scale) * nu)
+    }
+
+    fn acceleration_in(
+        &self,
+        t_s: f64,
+        x: &StateVector,
+        segment: Segment,
+    ) -> Result<Vector3<f64>, ForceError> {
+        // The cylindrical shadow jumps: over a segment the driver holds the side it
+        // started on, so no stage on the boundary lands on the wrong side.
+        match (self.shadow, segment.sides) {
+            (Shadow::Cylindrical, Some(bits)) => {
+                let lit = if bits & 1 == 1 { 1.0 } else { 0.0 };
+                Ok(self.lit_acceleration(t_s, x) * lit)
+            }
+            _ => self.acceleration(t_s, x),
+        }
     }
 
     fn depends_on_velocity(&self) -> bool {
         false
+    }
+
+    fn switching(&self, t_s: f64, x: &StateVector, out: &mut Vec<f64>) {
+        let s = sun_position_km(self.clock.centuries(t_s));
+        let r = Vector3::new(x[0], x[1], x[2]);
+        shadow_boundaries(&r, &s, self.earth_radius_km, self.shadow, out);
     }
 }
 
@@ -176,5 +248,40 @@ mod tests {
         let edge = Vector3::new(-7000.0, 6378.0, 0.0);
         let nu = sunlit_fraction(&edge, &s, 6378.0, Shadow::Conical);
         assert!(nu > 0.0 && nu < 1.0, "{nu}");
+    }
+
+    #[test]
+    fn shadow_boundaries_change_sign_exactly_where_the_sunlit_fraction_stops_being_smooth() {
+        // Walk across the shadow in 1 km steps: each switching function changes sign once on
+        // each edge, and between its roots the sunlit fraction is constant (1 or 0) or
+        // strictly inside (0, 1), the penumbra.
+        let s = Vector3::new(AU_KM, 0.0, 0.0);
+        for m in [Shadow::Cylindrical, Shadow::Conical] {
+            let (mut prev, mut flips) = (Vec::new(), 0);
+            for k in 0..=15_000 {
+                let r = Vector3::new(-7000.0, -7500.0 + k as f64, 0.0);
+                let mut g = Vec::new();
+                shadow_boundaries(&r, &s, 6378.0, m, &mut g);
+                let nu = sunlit_fraction(&r, &s, 6378.0, m);
+                let outside_penumbra = g[0] >= 0.0;
+                let in_umbra = g.iter().all(|&v| v < 0.0);
+                assert_eq!(
+                    nu == 1.0,
+                    outside_penumbra,
+                    "{m:?} at {r:?}: ν {nu}, g {g:?}"
+                );
+                assert_eq!(nu == 0.0, in_umbra, "{m:?} at {r:?}: ν {nu}, g {g:?}");
+                if !prev.is_empty() {
+                    flips += g
+                        .iter()
+                        .zip(&prev)
+                        .filter(|(a, b): &(&f64, &f64)| (**a >= 0.0) != (**b >= 0.0))
+                        .count();
+                }
+                prev = g;
+            }
+            let expected = if m == Shadow::Conical { 4 } else { 2 };
+            assert_eq!(flips, expected, "{m:?}");
+        }
     }
 }

@@ -15,6 +15,8 @@ pub struct Dop853 {
     t: f64,
     t_prev: f64,
     h: f64,
+    /// Set by [`Self::keep_next_step`]: the next start keeps `h`.
+    keep_step: bool,
     h_done: f64,
     dir: f64,
     y: Vec<f64>,
@@ -50,6 +52,7 @@ impl Dop853 {
             t: 0.0,
             t_prev: 0.0,
             h: 0.0,
+            keep_step: false,
             h_done: 0.0,
             dir: 1.0,
             y: z(),
@@ -64,6 +67,12 @@ impl Dop853 {
             last_rejected: false,
             stats: Stats::default(),
         }
+    }
+
+    /// The next [`Self::start`] begins with the step size proposed now instead of the
+    /// starting heuristic (a restart on a smooth trajectory, at a switching root).
+    pub(crate) fn keep_next_step(&mut self) {
+        self.keep_step = true;
     }
 
     pub(crate) fn start<S: OdeSystem>(
@@ -83,7 +92,9 @@ impl Dop853 {
         sys.rhs(t0, y0, &mut self.k[..n])?;
         self.f_prev.copy_from_slice(&self.k[..n]);
         self.stats.evaluations += 1;
-        self.h = match self.settings.initial_step_s {
+        let proposed = (self.h > 0.0 && self.keep_step).then_some(self.h);
+        self.keep_step = false;
+        self.h = match proposed.or(self.settings.initial_step_s) {
             Some(h) => h.abs().min(self.settings.max_step_s),
             None => {
                 self.stats.evaluations += 1;

@@ -11,6 +11,8 @@ pub struct Dopri5 {
     t: f64,
     t_prev: f64,
     h: f64,
+    /// Set by [`Self::keep_next_step`]: the next start keeps `h`.
+    keep_step: bool,
     dir: f64,
     y: Vec<f64>,
     k: [Vec<f64>; 7],
@@ -37,6 +39,7 @@ impl Dopri5 {
             t: 0.0,
             t_prev: 0.0,
             h: 0.0,
+            keep_step: false,
             dir: 1.0,
             y: z(),
             k: [z(), z(), z(), z(), z(), z(), z()],
@@ -46,6 +49,12 @@ impl Dopri5 {
             last_rejected: false,
             stats: Stats::default(),
         }
+    }
+
+    /// The next [`Self::start`] begins with the step size proposed now instead of the
+    /// starting heuristic (a restart on a smooth trajectory, at a switching root).
+    pub(crate) fn keep_next_step(&mut self) {
+        self.keep_step = true;
     }
 
     pub(crate) fn start<S: OdeSystem>(
@@ -61,7 +70,9 @@ impl Dopri5 {
         self.y.copy_from_slice(y0);
         sys.rhs(t0, y0, &mut self.k[0])?;
         self.stats.evaluations += 1;
-        self.h = match self.settings.initial_step_s {
+        let proposed = (self.h > 0.0 && self.keep_step).then_some(self.h);
+        self.keep_step = false;
+        self.h = match proposed.or(self.settings.initial_step_s) {
             Some(h) => h.abs().min(self.settings.max_step_s),
             None => {
                 self.stats.evaluations += 1;

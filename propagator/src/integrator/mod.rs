@@ -233,6 +233,20 @@ impl AnyStepper {
         dispatch!(self, s => s.start(sys, t0, y0, toward))
     }
 
+    /// Restarts at `(t0, y0)` as [`AnyStepper::start`] does, but with the step size the
+    /// stepper proposes now: for a restart where the trajectory stays smooth (a switching
+    /// root), so no work is spent growing the step again from the starting heuristic.
+    pub fn resume<S: OdeSystem>(
+        &mut self,
+        sys: &mut S,
+        t0: f64,
+        y0: &[f64],
+        toward: f64,
+    ) -> Result<(), IntegrationError> {
+        dispatch!(self, s => s.keep_next_step());
+        self.start(sys, t0, y0, toward)
+    }
+
     /// Takes one accepted step toward `t_stop`, never past it; returns the new time.
     pub fn step<S: OdeSystem>(
         &mut self,

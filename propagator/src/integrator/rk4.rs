@@ -38,6 +38,9 @@ impl Rk4 {
         }
     }
 
+    /// Fixed steps: nothing to keep.
+    pub(crate) fn keep_next_step(&mut self) {}
+
     pub(crate) fn start<S: OdeSystem>(
         &mut self,
         sys: &mut S,
