@@ -269,9 +269,8 @@ fn finite_burn_edges_are_integration_stops() {
     assert_relative_eq!(de, want, max_relative = 1e-3);
 }
 
-/// Largest position difference (km) over one day of a 500 km orbit under two-body +
-/// SRP with `shadow`, between the default tolerance and a tight one.
-fn shadow_day_error_km(shadow: Shadow) -> f64 {
+/// A 500 km orbit in eclipse every revolution, under two-body + SRP with `shadow`.
+fn eclipsing(shadow: Shadow) -> (ForceModel, StateVector) {
     let epoch = Epoch::parse_utc("2031-05-04T12:00:00Z").unwrap();
     let clock = CenturyClock::new(&epoch);
     let s = sun_position_km(clock.centuries(0.0)).normalize();
@@ -301,6 +300,13 @@ fn shadow_day_error_km(shadow: Shadow) -> f64 {
             earth_radius_km: RE,
             clock,
         });
+    (model, x0)
+}
+
+/// Largest position difference (km) over one day of [`eclipsing`] between the default
+/// tolerance and a tight one.
+fn shadow_day_error_km(shadow: Shadow) -> f64 {
+    let (model, x0) = eclipsing(shadow);
     let grid = output_grid(0.0, 86_400.0, 600.0);
     let default = Settings::default();
     let coarse = run(&model, x0, 86_400.0, &grid, default.rtol);
@@ -330,5 +336,43 @@ fn eclipse_boundaries_cost_no_accuracy_at_the_default_tolerance() {
             err * 1e3
         );
         assert!(err < 1e-5, "{shadow:?}: {} m", err * 1e3);
+    }
+}
+
+#[test]
+fn eclipse_events_work_backward_too() {
+    // One day forward and back at the default tolerance returns to the start: the events
+    // are found and held whichever way time runs.
+    for shadow in [Shadow::Conical, Shadow::Cylindrical] {
+        let (model, x0) = eclipsing(shadow);
+        let tol = Settings::default().rtol;
+        let there = run(&model, x0, 86_400.0, &[86_400.0], tol).samples[0].1;
+        let options = Options {
+            settings: Settings {
+                rtol: tol,
+                atol: tol,
+                max_step_s: 1e9,
+                ..Settings::default()
+            },
+            altitude_floor_km: 0.0,
+            ..Options::default()
+        };
+        let req = Request {
+            x0: there,
+            t0_s: 86_400.0,
+            t_end_s: 0.0,
+            output_times_s: &[0.0],
+            stop_times_s: &[],
+        };
+        let back = propagate(&model, &req, &options, &mut Silent)
+            .unwrap()
+            .samples[0]
+            .1;
+        let err = (back.fixed_rows::<3>(0) - x0.fixed_rows::<3>(0)).norm();
+        eprintln!(
+            "{shadow:?}: forward and back over 1 day: {:.4} m",
+            err * 1e3
+        );
+        assert!(err < 2e-5, "{shadow:?}: {} m", err * 1e3);
     }
 }
