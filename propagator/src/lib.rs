@@ -19,6 +19,7 @@ pub mod atmosphere;
 pub mod body;
 pub mod cleanup;
 pub mod config;
+pub mod earth;
 pub mod elements;
 pub mod ephemeris;
 pub mod force;

@@ -279,6 +279,14 @@ impl Epoch {
         tai_minus_utc_on_day(day) as f64 / 1e9
     }
 
+    /// TT seconds since J2000.0 (2000-01-01T12:00:00 TT): the Earth-orientation time
+    /// argument (f64: 0.5 µs resolution a century from J2000).
+    pub fn tt_seconds_since_j2000(&self) -> f64 {
+        // hifitime counts TAI from 1900-01-01T00:00:00 TAI; J2000.0 TT is 36524.5 days
+        // later less TT − TAI.
+        self.tai_seconds_j1900() - (36_524.5 * 86_400.0 - TT_MINUS_TAI_S)
+    }
+
     /// The underlying hifitime epoch.
     pub fn as_hifitime(&self) -> HfEpoch {
         self.0
@@ -303,6 +311,21 @@ const DAY_NS: i128 = 86_400 * NS;
 /// seconds are inserted at the end of a UTC day, so one value holds for the whole day;
 /// it is read at the day's noon from hifitime's leap-second table (IERS leap seconds,
 /// 0 before 1972).
+/// TAI − UTC, seconds, on the UTC day that starts at Modified Julian Date `mjd` (an
+/// integer day; 0h UTC), from the same leap-second table as every other conversion.
+pub fn tai_minus_utc_on_mjd(mjd: i64) -> f64 {
+    // MJD 15020 is 1900-01-01, day 0 of the table's count.
+    tai_minus_utc_on_day(mjd - 15_020) as f64 / 1e9
+}
+
+/// TT seconds since J2000.0 (2000-01-01T12:00:00 TT) of 0h UTC on day `mjd`.
+pub fn tt_seconds_of_mjd_utc(mjd: i64) -> f64 {
+    (mjd as f64 - 51_544.5) * 86_400.0 + tai_minus_utc_on_mjd(mjd) + TT_MINUS_TAI_S
+}
+
+/// TT − TAI, seconds (by definition).
+pub const TT_MINUS_TAI_S: f64 = 32.184;
+
 fn tai_minus_utc_on_day(day: i64) -> i128 {
     let noon = HfEpoch::from_gregorian_tai(1900, 1, 1, 12, 0, 0, 0) + Unit::Day * day;
     (noon.leap_seconds(true).unwrap_or(0.0) * 1e9).round() as i128

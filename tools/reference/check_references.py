@@ -15,6 +15,8 @@ ROOT = HERE.parents[1]
 sys.path.insert(0, str(HERE))
 
 import chi2  # noqa: E402
+import eop_table  # noqa: E402
+import gcrf_itrf  # noqa: E402
 import leap_seconds  # noqa: E402
 import sun_moon  # noqa: E402
 import third_body_trajectories  # noqa: E402
@@ -29,6 +31,8 @@ FILES = [
     "tests/data/reference/third_body_trajectories.json",
     "tests/data/reference/chi2_sf.json",
     "tests/data/reference/leap_seconds.json",
+    "propagator/data/eop_finals2000a_compact.csv",
+    "tests/data/reference/gcrf_itrf_erfa.json",
 ]
 
 
@@ -65,6 +69,8 @@ def main():
         third_body_trajectories.main(tmp)
         chi2.main(tmp)
         leap_seconds.main(tmp)
+        eop_table.main(tmp)
+        gcrf_itrf.main(tmp)
         bad = 0
         for rel in FILES:
             new, old = (tmp / rel).read_text(), (ROOT / rel).read_text()
