@@ -75,3 +75,33 @@ fn a_wrong_chain_would_fail_the_comparison() {
     rot.w = Matrix3::identity();
     assert!(worst_km(&rot.gcrf_to_itrf(), &c.gcrf_to_itrf) > 1e-3);
 }
+
+#[test]
+fn finals2000a_and_c04_files_read_and_agree_with_the_shipped_table() {
+    // Real IERS excerpts (tests/data/eop/README.md). finals2000A is the shipped table's own
+    // source: identical values. C04 is another series of the same quantities: the IERS
+    // states their agreement at the 0.1 mas and 0.02 ms level for final values (from
+    // memory); allow 0.2 mas (6 mm on the ground) and 0.1 ms.
+    use propagator::earth::EopTable;
+    let dir = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/data/eop/");
+    let finals = EopTable::read(std::path::Path::new(&format!(
+        "{dir}finals2000A_2021-04.txt"
+    )))
+    .unwrap();
+    let c04 = EopTable::read(std::path::Path::new(&format!("{dir}eopc04_2021-04.txt"))).unwrap();
+    let shipped = EopTable::shipped().unwrap();
+    assert_eq!(finals.span_mjd(), (59_320, 59_360));
+    assert_eq!(c04.span_mjd(), (59_320, 59_360));
+    let mas = std::f64::consts::PI / (180.0 * 3600.0 * 1000.0);
+    for k in 0..160 {
+        let tt = propagator::time::tt_seconds_of_mjd_utc(59_320) + k as f64 * 21_600.0 + 123.4;
+        let (a, b, c) = (finals.at(tt), c04.at(tt), shipped.at(tt));
+        assert_eq!(a, c, "finals excerpt vs shipped table at {tt}");
+        assert!((a.xp_rad - b.xp_rad).abs() < 0.2 * mas, "xp at {tt}");
+        assert!((a.yp_rad - b.yp_rad).abs() < 0.2 * mas, "yp at {tt}");
+        assert!(
+            (a.ut1_minus_tt_s - b.ut1_minus_tt_s).abs() < 1e-4,
+            "UT1 at {tt}"
+        );
+    }
+}

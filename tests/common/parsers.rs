@@ -39,6 +39,8 @@ pub enum Input {
     Formula,
     /// A `rank` hypotheses file (for a 1-day arc from [`EPOCH`]).
     Hypotheses,
+    /// An IERS Earth-orientation file (`earth_orientation: { file: … }`).
+    Eop,
 }
 
 /// The epoch of the examples.
@@ -46,7 +48,7 @@ pub const EPOCH: &str = "2031-05-04T00:00:00Z";
 
 impl Input {
     /// Every kind.
-    pub const ALL: [Input; 10] = [
+    pub const ALL: [Input; 11] = [
         Input::ArcCsv,
         Input::ArcOem,
         Input::EphemerisCsv,
@@ -57,6 +59,7 @@ impl Input {
         Input::LearnedResealed,
         Input::Formula,
         Input::Hypotheses,
+        Input::Eop,
     ];
 
     /// The file name errors must carry.
@@ -71,6 +74,7 @@ impl Input {
             Input::Learned | Input::LearnedResealed => "learned.yaml",
             Input::Formula => "formula",
             Input::Hypotheses => "hyp.yaml",
+            Input::Eop => "eop.txt",
         }
     }
 
@@ -102,6 +106,7 @@ impl Input {
                 "cos(u) * R + 2.5e-3 * cross(r, v) / norm(r)^2 + exp(-t / k0) * T".into()
             }
             Input::Hypotheses => include_str!("../../examples/hypotheses/maneuver_day.yaml").into(),
+            Input::Eop => include_str!("../data/eop/finals2000A_2021-04.txt").into(),
         }
     }
 
@@ -143,6 +148,7 @@ impl Input {
                 learned_forces::learn::hypotheses::parse_hypotheses(text, path, &epoch, 86400.0)
                     .map(|_| ())
             }
+            Input::Eop => propagator::earth::EopTable::parse(text, self.file_name()).map(|_| ()),
             Input::Formula => match learned_forces::expr::parse(text) {
                 Ok(node) => {
                     // Whatever parses prints back to text that parses to the same tree.
