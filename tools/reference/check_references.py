@@ -17,6 +17,7 @@ sys.path.insert(0, str(HERE))
 import chi2  # noqa: E402
 import eop_table  # noqa: E402
 import gcrf_itrf  # noqa: E402
+import gravity_field  # noqa: E402
 import leap_seconds  # noqa: E402
 import sun_moon  # noqa: E402
 import third_body_trajectories  # noqa: E402
@@ -33,6 +34,7 @@ FILES = [
     "tests/data/reference/leap_seconds.json",
     "propagator/data/eop_finals2000a_compact.csv",
     "tests/data/reference/gcrf_itrf_erfa.json",
+    "tests/data/reference/gravity_egm2008_deg70.json",
 ]
 
 
@@ -71,6 +73,7 @@ def main():
         leap_seconds.main(tmp)
         eop_table.main(tmp)
         gcrf_itrf.main(tmp)
+        gravity_field.main(tmp)
         bad = 0
         for rel in FILES:
             new, old = (tmp / rel).read_text(), (ROOT / rel).read_text()
