@@ -448,6 +448,72 @@ fn bad_inputs(d: &Path, good: &Inputs) -> Vec<Bad> {
         "degree-forces.yaml",
         Some("gravity: { zonal_degree: 99 }\n".into()),
     );
+    // Files a forces file refers to: a gravity field (.gfc) and Earth-orientation data.
+    // The message must name the referenced file.
+    let gfc_head = "begin_of_head\nmodelname TEST\nearth_gravity_constant 0.3986004415E+15\nradius 0.63781363E+07\nmax_degree 3\nnorm fully_normalized\nend_of_head\n";
+    let gfc_body = "gfc 0 0 1.0 0.0\ngfc 2 0 -4.84165143790815e-04 0.0\ngfc 2 1 -2.06615509074176e-10 1.38441389137979e-09\ngfc 2 2 2.43938357328313e-06 -1.40027370385934e-06\ngfc 3 0 9.57161207093473e-07 0.0\ngfc 3 1 2.03046201047864e-06 2.48200415856872e-07\ngfc 3 2 9.04787894809528e-07 -6.19005475177618e-07\ngfc 3 3 7.21321757121568e-07 1.41434926192941e-06\n";
+    let good_gfc = format!("{gfc_head}{gfc_body}");
+    let eop_lines: Vec<&str> = include_str!("data/eop/finals2000A_2021-04.txt")
+        .lines()
+        .collect();
+    let field_cases: Vec<(&'static str, &str, String, String)> = vec![
+        (
+            "gfc truncated",
+            "truncated.gfc",
+            good_gfc.lines().take(12).collect::<Vec<_>>().join("\n"),
+            "degree: 3".into(),
+        ),
+        (
+            "gfc without end_of_head",
+            "nohead.gfc",
+            good_gfc.replace("end_of_head\n", ""),
+            "degree: 3".into(),
+        ),
+        (
+            "gfc degree above its maximum",
+            "small.gfc",
+            good_gfc.clone(),
+            "degree: 10".into(),
+        ),
+        (
+            "gfc NaN coefficient",
+            "nan.gfc",
+            good_gfc.replace("9.04787894809528e-07", "nan"),
+            "degree: 3".into(),
+        ),
+        (
+            "EOP file with a gap",
+            "eop-gap.txt",
+            [eop_lines[..5].to_vec(), eop_lines[6..].to_vec()]
+                .concat()
+                .join("\n"),
+            "degree: 3".into(),
+        ),
+        (
+            "EOP file unsorted",
+            "eop-unsorted.txt",
+            [vec![eop_lines[1], eop_lines[0]], eop_lines[2..].to_vec()]
+                .concat()
+                .join("\n"),
+            "degree: 3".into(),
+        ),
+    ];
+    for (what, name, content, degree) in field_cases {
+        write(d, name, &content);
+        let forces = if name.ends_with(".gfc") {
+            format!("gravity: {{ field: {name}, {degree} }}\n")
+        } else {
+            format!(
+                "gravity: {{ field: egm2008, {degree} }}\nearth_orientation: {{ file: {name} }}\n"
+            )
+        };
+        bad.push(Bad {
+            role: Forces,
+            what,
+            needle: name.to_string(),
+            path: write(d, &format!("forces-{name}.yaml"), &forces),
+        });
+    }
     add(
         &mut bad,
         d,

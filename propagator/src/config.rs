@@ -117,6 +117,9 @@ pub struct ForcesFile {
     pub central_body: CentralBody,
     /// Gravity field.
     pub gravity: GravitySpec,
+    /// Earth-orientation data for a full field (the shipped IERS table if absent).
+    #[serde(default)]
+    pub earth_orientation: Option<EarthOrientationSpec>,
     /// Atmospheric drag (none if absent).
     #[serde(default)]
     pub drag: Option<DragSpec>,
@@ -277,12 +280,99 @@ pub struct FiniteSpec {
     pub accel_rtn_km_s2: [f64; 3],
 }
 
-/// `gravity:` block.
+/// `gravity:` block: the simple zonal form, or a full field.
 #[derive(Clone, Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct GravitySpec {
-    /// 0 = two-body only; 2…6 = zonal harmonics J2…J_n (EGM96).
+    /// 0 = two-body only; 2…6 = zonal harmonics J2…J_n (EGM96), pole on the GCRF z axis.
+    #[serde(default)]
     pub zonal_degree: usize,
+    /// A full field in ITRF: `egm2008` (shipped, to degree 70) or the path of an ICGEM
+    /// `.gfc` file (relative to this file's folder).
+    #[serde(default)]
+    pub field: Option<String>,
+    /// Degree of the full field (2 … the file's maximum).
+    #[serde(default)]
+    pub degree: Option<usize>,
+    /// Order of the full field (≤ degree; the degree when absent).
+    #[serde(default)]
+    pub order: Option<usize>,
+}
+
+/// `earth_orientation:` block.
+#[derive(Clone, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct EarthOrientationSpec {
+    /// An IERS `finals2000A` or EOP 20 C04 file (relative to this file's folder).
+    pub file: String,
+}
+
+impl GravitySpec {
+    /// Checks the combination of keys.
+    fn validate(&self) -> Result<(), String> {
+        if self.zonal_degree == 1 || self.zonal_degree > 6 {
+            return Err(format!(
+                "gravity.zonal_degree must be 0 (two-body) or 2..6, got {}",
+                self.zonal_degree
+            ));
+        }
+        match (&self.field, self.degree) {
+            (Some(_), _) if self.zonal_degree != 0 => {
+                Err("gravity: give either zonal_degree or field (with degree), not both".into())
+            }
+            (Some(_), None) => Err("gravity.field needs a degree (e.g. degree: 20)".into()),
+            (Some(_), Some(n)) if n < 2 => {
+                Err(format!("gravity.degree must be at least 2, got {n}"))
+            }
+            (None, Some(_)) => Err(
+                "gravity.degree is for a full field: add field: egm2008 (or a .gfc path)".into(),
+            ),
+            (None, None) if self.order.is_some() => {
+                Err("gravity.order is for a full field: add field and degree".into())
+            }
+            _ => Ok(()),
+        }
+    }
+
+    /// The central GM (km³/s²) and the non-central gravity force, if any: the field's own
+    /// GM with a full field (EGM2008's differs from EGM96's by 7.5e-10 relative, ~0.7 m a
+    /// day along track in LEO), the body's otherwise.
+    fn build(
+        &self,
+        path: &Path,
+        body: &CentralBody,
+        reference: &Epoch,
+        orientation: Option<&EarthOrientationSpec>,
+    ) -> Result<(f64, Option<Box<dyn crate::force::Force>>), String> {
+        let base = path.parent().unwrap_or(Path::new("."));
+        let Some(field) = &self.field else {
+            if self.zonal_degree < 2 {
+                return Ok((body.mu_km3_s2, None));
+            }
+            let z = Zonal::egm96(body.mu_km3_s2, body.radius_km, self.zonal_degree)?;
+            return Ok((body.mu_km3_s2, Some(Box::new(z))));
+        };
+        let degree = self.degree.unwrap_or(2);
+        let field = if field == "egm2008" {
+            crate::earth::GravityField::egm2008()?
+        } else {
+            std::sync::Arc::new(crate::earth::gfc::read(&base.join(field), Some(degree))?)
+        };
+        let mu = field.gm_km3_s2;
+        let harmonics = crate::earth::Harmonics::new(field, degree, self.order.unwrap_or(degree))?;
+        let earth = match orientation {
+            Some(o) => crate::earth::EarthOrientation::new(std::sync::Arc::new(
+                crate::earth::EopTable::read(&base.join(&o.file))?,
+            )),
+            None => crate::earth::EarthOrientation::shipped()?,
+        };
+        let force = crate::force::field::FieldGravity::new(
+            harmonics,
+            earth,
+            reference.tt_seconds_since_j2000(),
+        );
+        Ok((mu, Some(Box::new(force))))
+    }
 }
 
 /// `drag:` block.
@@ -412,15 +502,7 @@ impl ForcesFile {
         spec.central_body
             .validate()
             .map_err(|m| config_error(path, m))?;
-        if spec.gravity.zonal_degree == 1 || spec.gravity.zonal_degree > 6 {
-            return Err(config_error(
-                path,
-                format!(
-                    "gravity.zonal_degree must be 0 (two-body) or 2..6, got {}",
-                    spec.gravity.zonal_degree
-                ),
-            ));
-        }
+        spec.gravity.validate().map_err(|m| config_error(path, m))?;
         Ok(spec)
     }
 
@@ -440,13 +522,13 @@ impl ForcesFile {
         resolver: &dyn PluginResolver,
     ) -> Result<LoadedForces, ConfigError> {
         let body = self.central_body;
-        let mut model = ForceModel::new().with(TwoBody {
-            mu_km3_s2: body.mu_km3_s2,
-        });
-        if self.gravity.zonal_degree >= 2 {
-            let z = Zonal::egm96(body.mu_km3_s2, body.radius_km, self.gravity.zonal_degree)
-                .map_err(|m| config_error(path, m))?;
-            model = model.with(z);
+        let (mu_km3_s2, gravity) = self
+            .gravity
+            .build(path, &body, &reference, self.earth_orientation.as_ref())
+            .map_err(|m| config_error(path, m))?;
+        let mut model = ForceModel::new().with(TwoBody { mu_km3_s2 });
+        if let Some(g) = gravity {
+            model.push(g);
         }
         let mut altitude = AltitudeModel::Spherical;
         if let Some(d) = &self.drag {

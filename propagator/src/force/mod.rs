@@ -6,6 +6,7 @@
 //! native plugins — goes through this trait.
 
 pub mod drag;
+pub mod field;
 pub mod maneuver;
 pub mod srp;
 pub mod third_body;
