@@ -84,5 +84,71 @@ fn one_day(c: &mut Criterion) {
     g.finish();
 }
 
-criterion_group!(benches, force_evaluation, one_day);
+/// The real Earth: the field alone (in ITRF), the GCRF→ITRF rotation, the field force as
+/// the propagator calls it, and a 1-day LEO propagation with 70×70 + Sun + Moon.
+fn real_earth(c: &mut Criterion) {
+    use propagator::earth::{EarthOrientation, GravityField, Harmonics};
+    use propagator::force::field::FieldGravity;
+    use propagator::force::third_body::ThirdBody;
+    use propagator::solar_system::{Body, CenturyClock};
+    let epoch = propagator::Epoch::parse_utc("2021-04-28T18:00:00Z").unwrap();
+    let tt0 = epoch.tt_seconds_since_j2000();
+    let earth = EarthOrientation::shipped().unwrap();
+    let field = GravityField::egm2008().unwrap();
+    let r = nalgebra::Vector3::new(4100.0, -3900.0, 3800.0);
+    for n in [20, 70] {
+        let h = Harmonics::new(field.clone(), n, n).unwrap();
+        c.bench_function(
+            &format!("gravity field {n}x{n}, one evaluation in ITRF"),
+            |b| b.iter(|| h.acceleration(black_box(&r))),
+        );
+    }
+    c.bench_function(
+        "GCRF to ITRF rotation (EOP + interpolated X, Y, s), one call",
+        |b| b.iter(|| earth.at(black_box(tt0 + 10.0)).gcrf_to_itrf()),
+    );
+    let force = FieldGravity::new(
+        Harmonics::new(field.clone(), 70, 70).unwrap(),
+        earth.clone(),
+        tt0,
+    );
+    let x = leo_state();
+    c.bench_function(
+        "gravity field 70x70 force in GCRF (rotation included), one call",
+        |b| {
+            b.iter(|| {
+                propagator::Force::acceleration(&force, black_box(10.0), black_box(&x)).unwrap()
+            })
+        },
+    );
+    let clock = CenturyClock::new(&epoch);
+    let model = ForceModel::new()
+        .with(TwoBody {
+            mu_km3_s2: field.gm_km3_s2,
+        })
+        .with(FieldGravity::new(
+            Harmonics::new(field.clone(), 70, 70).unwrap(),
+            earth,
+            tt0,
+        ))
+        .with(ThirdBody::new(Body::Sun, clock))
+        .with(ThirdBody::new(Body::Moon, clock));
+    let mut g = c.benchmark_group("1-day LEO propagation, 70x70 + Sun + Moon");
+    g.sample_size(10);
+    g.bench_function("dp853 default tolerance", |b| {
+        b.iter(|| {
+            let req = Request {
+                x0: leo_state(),
+                t0_s: 0.0,
+                t_end_s: 86400.0,
+                output_times_s: &[86400.0],
+                stop_times_s: &[],
+            };
+            propagate(&model, &req, &Options::default(), &mut Silent).unwrap()
+        })
+    });
+    g.finish();
+}
+
+criterion_group!(benches, force_evaluation, one_day, real_earth);
 criterion_main!(benches);
