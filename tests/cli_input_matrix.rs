@@ -396,6 +396,27 @@ fn bad_inputs(d: &Path, good: &Inputs) -> Vec<Bad> {
         Some(arc.clone()),
     );
 
+    let sp3: String = include_str!("data/real/grg21553_18h-22h30.sp3")
+        .lines()
+        .take(120)
+        .map(|l| format!("{l}\n"))
+        .collect();
+    add(
+        &mut bad,
+        d,
+        Arc,
+        "SP3 in an unsupported time system",
+        "glonass-time.sp3",
+        Some(sp3.replacen("cc GPS", "cc GLO", 1)),
+    );
+    add(
+        &mut bad,
+        d,
+        Arc,
+        "SP3 without --object (many satellites)",
+        "many.sp3",
+        Some(sp3),
+    );
     add(&mut bad, d, Forces, "missing", "no-such-forces.yaml", None);
     add(
         &mut bad,

@@ -1,10 +1,12 @@
 //! Observation arcs: epoch-tagged ECI positions (optionally velocities), each with a σ.
 //!
-//! Read from CSV (`epoch_utc,x_km,y_km,z_km[,vx_km_s,vy_km_s,vz_km_s][,sigma_km]`) or
-//! CCSDS OEM. Checked on the way in: epochs strictly increasing, values finite, radius
+//! Read from CSV (`epoch_utc,x_km,y_km,z_km[,vx_km_s,vy_km_s,vz_km_s][,sigma_km]`),
+//! CCSDS OEM, or one satellite of an SP3-c/d file (Earth-fixed, rotated to GCRF). Checked on the way in: epochs strictly increasing, values finite, radius
 //! above the surface and below 1e6 km (larger looks like metres), σ positive.
 
 use nalgebra::Vector3;
+use propagator::earth::EarthOrientation;
+use propagator::ephemeris::sp3::Sp3;
 use propagator::ephemeris::{csv, file_error_at, oem, FileError};
 use propagator::{CentralBody, Epoch};
 use std::path::Path;
@@ -34,12 +36,14 @@ pub struct Arc {
 }
 
 /// Defaults for what a file may leave out.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct ArcDefaults {
     /// σ for rows without `sigma_km`, km.
     pub sigma_km: f64,
     /// σ of observed velocities, km/s.
     pub sigma_km_s: f64,
+    /// The object to take from a file of many (an SP3 satellite id such as `G05`).
+    pub object: Option<String>,
 }
 
 impl Default for ArcDefaults {
@@ -47,6 +51,7 @@ impl Default for ArcDefaults {
         Self {
             sigma_km: 0.01,
             sigma_km_s: 1e-5,
+            object: None,
         }
     }
 }
@@ -112,16 +117,52 @@ impl Arc {
                         .collect(),
                 }
             }
+            Some("sp3") => Self::from_sp3(text, path, &defaults)?,
             _ => {
                 return Err(file_error_at(
                     path,
                     None,
-                    "unknown arc format: the file name must end in .csv or .oem",
+                    "unknown arc format: the file name must end in .csv, .oem or .sp3",
                 ))
             }
         };
         arc.validate(path, body)?;
         Ok(arc)
+    }
+
+    /// The positions of one satellite of an SP3 file (`defaults.object`), rotated from
+    /// the file's Earth-fixed frame to GCRF with the shipped IERS Earth-orientation table.
+    fn from_sp3(text: &str, path: &Path, defaults: &ArcDefaults) -> Result<Arc, FileError> {
+        let sp3 = Sp3::parse(text, path)?;
+        let Some(id) = defaults.object.as_deref() else {
+            let ids = sp3.satellites();
+            return Err(file_error_at(
+                path,
+                None,
+                format!(
+                    "an SP3 file holds {} satellites: choose one with --object (e.g. --object {})",
+                    ids.len(),
+                    ids.first().copied().unwrap_or("G01")
+                ),
+            ));
+        };
+        let earth = EarthOrientation::shipped().map_err(|e| file_error_at(path, None, e))?;
+        let observations = sp3
+            .of(id, path)?
+            .into_iter()
+            .map(|p| {
+                let rot = earth.at(p.epoch.tt_seconds_since_j2000());
+                Observation {
+                    epoch: p.epoch,
+                    r_km: rot.gcrf_to_itrf().transpose() * p.r_km,
+                    v_km_s: None,
+                    sigma_km: defaults.sigma_km,
+                    sigma_km_s: defaults.sigma_km_s,
+                    line: p.line,
+                }
+            })
+            .collect();
+        Ok(Arc { observations })
     }
 
     /// Checks order, finiteness, plausibility and σ; names the line.

@@ -5,7 +5,7 @@ use crate::error::{CliError, EXIT_CHECK_FAILED};
 use crate::plot::{write_panels, Panel, Series};
 use crate::report::write_report;
 use clap::Args as ClapArgs;
-use learned_forces::arc::{Arc, ArcDefaults};
+use learned_forces::arc::Arc;
 use learned_forces::learned_file::{LearnedFile, LearnedResolver};
 use learned_forces::next_arc::{noise_rms_km, predict, GateRule, Prediction};
 use propagator::config::ForcesFile;
@@ -30,9 +30,8 @@ pub struct Args {
     /// same training arc.
     #[arg(long, value_name = "KM")]
     max_rms_km: Option<f64>,
-    /// σ of observations without a sigma_km column, km.
-    #[arg(long, default_value_t = 0.01, value_name = "KM")]
-    sigma_km: f64,
+    #[command(flatten)]
+    arc_options: super::ArcOptions,
     /// Write a JSON report here.
     #[arg(long, value_name = "R.json")]
     report: Option<PathBuf>,
@@ -75,15 +74,8 @@ pub fn run(a: Args) -> Result<(), CliError> {
         ));
     }
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
-    let arc = Arc::load(
-        &a.arc,
-        ArcDefaults {
-            sigma_km: a.sigma_km,
-            ..ArcDefaults::default()
-        },
-        &spec.central_body,
-    )
-    .map_err(CliError::input)?;
+    let arc = Arc::load(&a.arc, a.arc_options.defaults()?, &spec.central_body)
+        .map_err(CliError::input)?;
     let (epoch, x0) = file
         .state_at_end
         .state("state_at_end")

@@ -5,7 +5,7 @@ use crate::plot::{write_panels, Panel, Series};
 use crate::progress::FitProgress;
 use crate::report::{state_json, write_report};
 use clap::Args as ClapArgs;
-use learned_forces::arc::{Arc, ArcDefaults};
+use learned_forces::arc::Arc;
 use learned_forces::fit::model::Parameter;
 use learned_forces::fit::{fit, FitOptions, FitResult};
 use propagator::config::ForcesFile;
@@ -24,9 +24,8 @@ pub struct Args {
     /// emp_const_rtn, emp_1rev_rtn (constant and once-per-revolution empirical RTN).
     #[arg(long, value_delimiter = ',', value_name = "LIST")]
     estimate: Vec<String>,
-    /// σ of observations without a sigma_km column, km.
-    #[arg(long, default_value_t = 0.01, value_name = "KM")]
-    sigma_km: f64,
+    #[command(flatten)]
+    arc_options: super::ArcOptions,
     /// Observations beyond this many (robust) σ are edited out.
     #[arg(long, default_value_t = 5.0)]
     edit_sigma: f64,
@@ -63,19 +62,11 @@ pub fn parse_estimate(items: &[String]) -> Result<Vec<Parameter>, CliError> {
 pub fn load_and_fit(
     arc_path: &Path,
     forces_path: &Path,
-    sigma_km: f64,
+    arc_options: &super::ArcOptions,
     options: &FitOptions,
 ) -> Result<(Arc, ForcesFile, FitResult), CliError> {
-    if !(sigma_km.is_finite() && sigma_km > 0.0) {
-        return Err(CliError::input(format!(
-            "--sigma-km {sigma_km}: must be positive (km)"
-        )));
-    }
+    let defaults = arc_options.defaults()?;
     let spec = ForcesFile::load(forces_path).map_err(CliError::input)?;
-    let defaults = ArcDefaults {
-        sigma_km,
-        ..ArcDefaults::default()
-    };
     let arc = Arc::load(arc_path, defaults, &spec.central_body).map_err(CliError::input)?;
     let loaded = spec
         .build_with(
@@ -183,7 +174,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
     if !(a.alpha > 0.0 && a.alpha < 0.5) {
         return Err(CliError::input("--alpha must be between 0 and 0.5"));
     }
-    let (_, _, r) = load_and_fit(&a.arc, &a.forces, a.sigma_km, &options)?;
+    let (_, _, r) = load_and_fit(&a.arc, &a.forces, &a.arc_options, &options)?;
     let v = &r.verdict;
     println!(
         "fit of {} observations: RMS {:.2} m, χ² {:.1} on {} dof (p = {:.3}), {} edited, {} iterations{}",

@@ -7,7 +7,7 @@ use crate::plot::{write_panels, Panel, Series};
 use crate::progress::{FitProgress, SearchProgress};
 use crate::report::write_report;
 use clap::Args as ClapArgs;
-use learned_forces::arc::{Arc, ArcDefaults};
+use learned_forces::arc::Arc;
 use learned_forces::expr::Context;
 use learned_forces::fit::FitOptions;
 use learned_forces::learn::search::SearchOptions;
@@ -61,9 +61,8 @@ pub struct Args {
     /// emp_const_rtn, emp_1rev_rtn.
     #[arg(long, value_delimiter = ',', value_name = "LIST")]
     estimate: Vec<String>,
-    /// σ of observations without a sigma_km column, km.
-    #[arg(long, default_value_t = 0.01, value_name = "KM")]
-    sigma_km: f64,
+    #[command(flatten)]
+    arc_options: super::ArcOptions,
     /// What the learned force does outside its validity window: warn, zero or refuse.
     #[arg(long, default_value = "warn")]
     outside: String,
@@ -112,18 +111,12 @@ pub fn run(a: Args) -> Result<(), CliError> {
             ));
         }
     }
-    if !(a.sigma_km.is_finite() && a.sigma_km > 0.0) {
-        return Err(CliError::input("--sigma-km must be positive (km)"));
-    }
     if let Some(n) = &a.name {
         propagator::text::check_name("--name", n).map_err(CliError::input)?;
     }
     let estimate = parse_estimate(&a.estimate)?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
-    let defaults = ArcDefaults {
-        sigma_km: a.sigma_km,
-        ..ArcDefaults::default()
-    };
+    let defaults = a.arc_options.defaults()?;
     let arc = Arc::load(&a.arc, defaults, &spec.central_body).map_err(CliError::input)?;
     // Check the model builds before the long work.
     spec.build_with(&a.forces, arc.start(), &LearnedResolver)

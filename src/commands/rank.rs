@@ -6,7 +6,7 @@ use crate::plot::{write_panels, Panel, Series};
 use crate::progress::FitProgress;
 use crate::report::write_report;
 use clap::Args as ClapArgs;
-use learned_forces::arc::{Arc, ArcDefaults};
+use learned_forces::arc::Arc;
 use learned_forces::expr::Context;
 use learned_forces::fit::FitOptions;
 use learned_forces::learn::hypotheses::parse_hypotheses;
@@ -37,9 +37,8 @@ pub struct Args {
     /// emp_const_rtn, emp_1rev_rtn.
     #[arg(long, value_delimiter = ',', value_name = "LIST")]
     estimate: Vec<String>,
-    /// σ of observations without a sigma_km column, km.
-    #[arg(long, default_value_t = 0.01, value_name = "KM")]
-    sigma_km: f64,
+    #[command(flatten)]
+    arc_options: super::ArcOptions,
     /// Write a JSON report here.
     #[arg(long, value_name = "R.json")]
     report: Option<PathBuf>,
@@ -64,15 +63,8 @@ pub fn run(a: Args) -> Result<(), CliError> {
     let text = propagator::input::read_text(&a.hypotheses, propagator::input::MAX_CONFIG_BYTES)
         .map_err(|e| CliError::input(format!("{}: {e}", a.hypotheses.display())))?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
-    let arc = Arc::load(
-        &a.arc,
-        ArcDefaults {
-            sigma_km: a.sigma_km,
-            ..ArcDefaults::default()
-        },
-        &spec.central_body,
-    )
-    .map_err(CliError::input)?;
+    let arc = Arc::load(&a.arc, a.arc_options.defaults()?, &spec.central_body)
+        .map_err(CliError::input)?;
     let t0 = arc.start();
     let span_s = arc.end().seconds_since(&t0);
     let hyps = parse_hypotheses(&text, &a.hypotheses, &t0, span_s).map_err(CliError::input)?;

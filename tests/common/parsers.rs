@@ -41,6 +41,8 @@ pub enum Input {
     Hypotheses,
     /// An IERS Earth-orientation file (`earth_orientation: { file: … }`).
     Eop,
+    /// An SP3 precise-orbit file, one satellite taken as an arc (`--object G05`).
+    Sp3,
 }
 
 /// The epoch of the examples.
@@ -48,7 +50,7 @@ pub const EPOCH: &str = "2031-05-04T00:00:00Z";
 
 impl Input {
     /// Every kind.
-    pub const ALL: [Input; 11] = [
+    pub const ALL: [Input; 12] = [
         Input::ArcCsv,
         Input::ArcOem,
         Input::EphemerisCsv,
@@ -60,6 +62,7 @@ impl Input {
         Input::Formula,
         Input::Hypotheses,
         Input::Eop,
+        Input::Sp3,
     ];
 
     /// The file name errors must carry.
@@ -75,6 +78,7 @@ impl Input {
             Input::Formula => "formula",
             Input::Hypotheses => "hyp.yaml",
             Input::Eop => "eop.txt",
+            Input::Sp3 => "orbit.sp3",
         }
     }
 
@@ -107,6 +111,11 @@ impl Input {
             }
             Input::Hypotheses => include_str!("../../examples/hypotheses/maneuver_day.yaml").into(),
             Input::Eop => include_str!("../data/eop/finals2000A_2021-04.txt").into(),
+            Input::Sp3 => include_str!("../data/real/grg21553_18h-22h30.sp3")
+                .lines()
+                .take(200)
+                .collect::<Vec<_>>()
+                .join("\n"),
         }
     }
 
@@ -149,6 +158,15 @@ impl Input {
                     .map(|_| ())
             }
             Input::Eop => propagator::earth::EopTable::parse(text, self.file_name()).map(|_| ()),
+            Input::Sp3 => {
+                let defaults = ArcDefaults {
+                    object: Some("G05".into()),
+                    ..ArcDefaults::default()
+                };
+                Arc::parse(text, path, defaults, &body)
+                    .map(|_| ())
+                    .map_err(|e| s(&e))
+            }
             Input::Formula => match learned_forces::expr::parse(text) {
                 Ok(node) => {
                     // Whatever parses prints back to text that parses to the same tree.

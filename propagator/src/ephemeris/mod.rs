@@ -6,6 +6,7 @@
 
 pub mod csv;
 pub mod oem;
+pub mod sp3;
 
 use crate::body::CentralBody;
 use crate::config::check_state_plausible;
