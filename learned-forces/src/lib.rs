@@ -15,4 +15,5 @@ pub use propagator;
 pub mod expr;
 pub mod learn;
 pub mod learned_file;
+pub mod model_error;
 pub mod next_arc;

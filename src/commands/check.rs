@@ -74,8 +74,14 @@ pub fn run(a: Args) -> Result<(), CliError> {
         ));
     }
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
-    let arc = Arc::load(&a.arc, a.arc_options.defaults()?, &spec.central_body)
+    let mut arc = Arc::load(&a.arc, a.arc_options.defaults()?, &spec.central_body)
         .map_err(CliError::input)?;
+    {
+        let loaded = spec
+            .build_with(&a.forces, arc.start(), &LearnedResolver)
+            .map_err(CliError::input)?;
+        a.arc_options.apply_model_error(&mut arc, &loaded)?;
+    }
     let (epoch, x0) = file
         .state_at_end
         .state("state_at_end")

@@ -8,6 +8,7 @@ use clap::Args as ClapArgs;
 use learned_forces::arc::Arc;
 use learned_forces::fit::model::Parameter;
 use learned_forces::fit::{fit, FitOptions, FitResult};
+use learned_forces::model_error::ModelError;
 use propagator::config::ForcesFile;
 use std::path::{Path, PathBuf};
 
@@ -64,10 +65,10 @@ pub fn load_and_fit(
     forces_path: &Path,
     arc_options: &super::ArcOptions,
     options: &FitOptions,
-) -> Result<(Arc, ForcesFile, FitResult), CliError> {
+) -> Result<(Arc, ForcesFile, FitResult, ModelError), CliError> {
     let defaults = arc_options.defaults()?;
     let spec = ForcesFile::load(forces_path).map_err(CliError::input)?;
-    let arc = Arc::load(arc_path, defaults, &spec.central_body).map_err(CliError::input)?;
+    let mut arc = Arc::load(arc_path, defaults, &spec.central_body).map_err(CliError::input)?;
     let loaded = spec
         .build_with(
             forces_path,
@@ -75,11 +76,12 @@ pub fn load_and_fit(
             &learned_forces::learned_file::LearnedResolver,
         )
         .map_err(CliError::input)?;
+    let model_error = arc_options.apply_model_error(&mut arc, &loaded)?;
     let mut progress = FitProgress::new("fit");
     let result = fit(&arc, loaded.model, options, &mut progress);
     progress.finish();
     let result = result.map_err(|e| CliError::input(format!("{}: {e}", arc_path.display())))?;
-    Ok((arc, spec, result))
+    Ok((arc, spec, result, model_error))
 }
 
 /// The JSON of a fit result (shared by `fit`, `learn` and `check`).
@@ -174,8 +176,15 @@ pub fn run(a: Args) -> Result<(), CliError> {
     if !(a.alpha > 0.0 && a.alpha < 0.5) {
         return Err(CliError::input("--alpha must be between 0 and 0.5"));
     }
-    let (_, _, r) = load_and_fit(&a.arc, &a.forces, &a.arc_options, &options)?;
+    let (_, _, r, model_error) = load_and_fit(&a.arc, &a.forces, &a.arc_options, &options)?;
     let v = &r.verdict;
+    if model_error.floor_km > 0.0 {
+        println!(
+            "model error: {:.3} m added in quadrature to each σ ({})",
+            model_error.floor_km * 1e3,
+            model_error.basis
+        );
+    }
     println!(
         "fit of {} observations: RMS {:.2} m, χ² {:.1} on {} dof (p = {:.3}), {} edited, {} iterations{}",
         r.residuals.len(),
@@ -212,6 +221,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
         j["arcwise_version"] = env!("CARGO_PKG_VERSION").into();
         j["arc_file"] = a.arc.display().to_string().into();
         j["forces_file"] = a.forces.display().to_string().into();
+        j["model_error"] = super::model_error_json(&model_error);
         write_report(path, &j)?;
     }
     Ok(())

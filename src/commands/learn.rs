@@ -117,10 +117,19 @@ pub fn run(a: Args) -> Result<(), CliError> {
     let estimate = parse_estimate(&a.estimate)?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
     let defaults = a.arc_options.defaults()?;
-    let arc = Arc::load(&a.arc, defaults, &spec.central_body).map_err(CliError::input)?;
+    let mut arc = Arc::load(&a.arc, defaults, &spec.central_body).map_err(CliError::input)?;
     // Check the model builds before the long work.
-    spec.build_with(&a.forces, arc.start(), &LearnedResolver)
+    let loaded = spec
+        .build_with(&a.forces, arc.start(), &LearnedResolver)
         .map_err(CliError::input)?;
+    let model_error = a.arc_options.apply_model_error(&mut arc, &loaded)?;
+    if model_error.floor_km > 0.0 {
+        eprintln!(
+            "model error: {:.3} m added in quadrature to each σ ({})",
+            model_error.floor_km * 1e3,
+            model_error.basis
+        );
+    }
     let forces_path = a.forces.clone();
     let spec_for_build = spec.clone();
     let make = move |e: propagator::Epoch| {
@@ -192,7 +201,9 @@ pub fn run(a: Args) -> Result<(), CliError> {
         plots(dir, &learned, &make, context, &options)?;
     }
     if let Some(path) = &a.report {
-        write_report(path, &report(&a, &learned, &file))?;
+        let mut j = report(&a, &learned, &file);
+        j["model_error"] = super::model_error_json(&model_error);
+        write_report(path, &j)?;
     }
     let outcome = learned.outcome();
     if outcome.is_explained() {

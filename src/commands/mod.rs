@@ -23,6 +23,11 @@ pub struct ArcOptions {
     /// The satellite to take from an SP3 file of many (e.g. G05).
     #[arg(long, value_name = "ID")]
     pub object: Option<String>,
+    /// The known model's own error: a position floor added in quadrature to every σ, km.
+    /// Default: none for the zonal model; from the model and the arc's span for a full
+    /// gravity field (see the README, "Model error").
+    #[arg(long, value_name = "KM")]
+    pub model_error_km: Option<f64>,
 }
 
 impl ArcOptions {
@@ -43,4 +48,36 @@ impl ArcOptions {
             ..ArcDefaults::default()
         })
     }
+}
+
+impl ArcOptions {
+    /// The model-error floor for `arc` under `loaded` (given or default), applied to the
+    /// arc's σ; the value in use is returned for the report.
+    pub fn apply_model_error(
+        &self,
+        arc: &mut learned_forces::arc::Arc,
+        loaded: &propagator::config::LoadedForces,
+    ) -> Result<learned_forces::model_error::ModelError, CliError> {
+        use learned_forces::model_error;
+        let e = match self.model_error_km {
+            Some(k) if k.is_finite() && k >= 0.0 => model_error::given(k),
+            Some(k) => {
+                return Err(CliError::input(format!(
+                    "--model-error-km {k}: must be a finite distance ≥ 0 (km)"
+                )))
+            }
+            None => model_error::default_for(arc, loaded),
+        };
+        model_error::apply(arc, &e);
+        Ok(e)
+    }
+}
+
+/// The report block of a model-error floor.
+pub fn model_error_json(e: &learned_forces::model_error::ModelError) -> serde_json::Value {
+    let mut j = serde_json::json!({ "floor_km": e.floor_km, "basis": e.basis });
+    if let Some(a) = e.acceleration_km_s2 {
+        j["acceleration_km_s2"] = a.into();
+    }
+    j
 }
