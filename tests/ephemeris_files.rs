@@ -119,10 +119,7 @@ fn bad_csv_files_are_named_by_line() {
 fn bad_oem_files_are_refused() {
     let good = propagator::ephemeris::oem::format(&sample());
     let cases = [
-        (
-            good.replace("REF_FRAME = EME2000", "REF_FRAME = ITRF"),
-            "ITRF",
-        ),
+        (good.replace("REF_FRAME = GCRF", "REF_FRAME = TOD"), "TOD"),
         (
             good.replace("CENTER_NAME = EARTH", "CENTER_NAME = MARS"),
             "MARS",
@@ -227,4 +224,58 @@ fn day_of_year_epochs_in_an_oem_read_like_calendar_ones() {
         text.contains("\nCREATION_DATE = "),
         "CREATION_DATE is required"
     );
+}
+
+#[test]
+fn oem_states_in_itrf_and_eme2000_are_rotated_to_gcrf_on_reading() {
+    // The same states written in three frames read back as the same GCRF states: ITRF
+    // through the IAU 2006/2000A chain (checked against pyerfa in earth_orientation.rs),
+    // EME2000 through the frame bias (IERS Conventions 2010 §5.5.4: ~23 mas, 0.8 m at
+    // 7000 km, from memory).
+    use propagator::earth::{orientation::eme2000_to_gcrf, EarthOrientation};
+    let eph = sample();
+    let gcrf_text = propagator::ephemeris::oem::format(&eph);
+    let earth = EarthOrientation::shipped().unwrap();
+    let bias_inv = eme2000_to_gcrf().transpose();
+    let rewrite = |frame: &str, f: &dyn Fn(&propagator::ephemeris::EphemerisPoint) -> [f64; 6]| {
+        let mut e = eph.clone();
+        for p in &mut e.points {
+            p.state = propagator::StateVector::from(f(p));
+        }
+        propagator::ephemeris::oem::format(&e)
+            .replace("REF_FRAME = GCRF", &format!("REF_FRAME = {frame}"))
+    };
+    let itrf = rewrite("ITRF2014", &|p| {
+        let r = nalgebra::Vector3::new(p.state[0], p.state[1], p.state[2]);
+        let v = nalgebra::Vector3::new(p.state[3], p.state[4], p.state[5]);
+        let (ri, vi) = earth
+            .at(p.epoch.tt_seconds_since_j2000())
+            .state_to_itrf(&r, &v);
+        [ri[0], ri[1], ri[2], vi[0], vi[1], vi[2]]
+    });
+    let eme = rewrite("EME2000", &|p| {
+        let r = bias_inv * nalgebra::Vector3::new(p.state[0], p.state[1], p.state[2]);
+        let v = bias_inv * nalgebra::Vector3::new(p.state[3], p.state[4], p.state[5]);
+        [r[0], r[1], r[2], v[0], v[1], v[2]]
+    });
+    let path = std::path::Path::new("x.oem");
+    let (g, _) = propagator::ephemeris::oem::parse(&gcrf_text, path).unwrap();
+    for text in [&itrf, &eme] {
+        let (e, _) = propagator::ephemeris::oem::parse(text, path).unwrap();
+        for (a, b) in e.points.iter().zip(&g.points) {
+            let dr = (a.state.fixed_rows::<3>(0) - b.state.fixed_rows::<3>(0)).norm();
+            let dv = (a.state.fixed_rows::<3>(3) - b.state.fixed_rows::<3>(3)).norm();
+            // The file carries 6 decimals of km and 9 of km/s: rounding only.
+            assert!(dr < 2e-6 && dv < 2e-9, "{dr} km, {dv} km/s");
+        }
+    }
+    // And the frames matter: read as if GCRF, the EME2000 states are ~0.8 m off at LEO.
+    let (wrong, _) = propagator::ephemeris::oem::parse(
+        &eme.replace("REF_FRAME = EME2000", "REF_FRAME = GCRF"),
+        path,
+    )
+    .unwrap();
+    let off =
+        (wrong.points[0].state.fixed_rows::<3>(0) - g.points[0].state.fixed_rows::<3>(0)).norm();
+    assert!(off > 3e-4 && off < 2e-3, "{off} km");
 }

@@ -2,12 +2,13 @@
 //!
 //! Written: version 2.0 with `CREATION_DATE` (now, or `SOURCE_DATE_EPOCH` when set, for
 //! reproducible files), one segment per part of the ephemeris (a new one after each
-//! impulsive maneuver), `CENTER_NAME = EARTH`, `REF_FRAME = EME2000` (the J2000 mean
-//! equator and equinox; arcwise treats it as GCRF), `TIME_SYSTEM = UTC`.
+//! impulsive maneuver), `CENTER_NAME = EARTH`, `REF_FRAME = GCRF`, `TIME_SYSTEM = UTC`.
 //! Read ([`read_message`]): any OEM 1–3 in KVN — segments, comments, calendar or
 //! day-of-year epochs, optional acceleration columns (ignored), covariance blocks
 //! (skipped). [`parse`] then takes only what arcwise can use without misreading it: one
-//! object, Earth-centred, in EME2000, GCRF or ICRF, on UTC, TAI, TT or GPS time.
+//! object, Earth-centred, on UTC, TAI, TT or GPS time, and rotates its states to GCRF:
+//! from EME2000 by the frame bias, from ITRF (any realization) by the IAU 2006/2000A chain
+//! with the shipped IERS Earth-orientation data.
 
 use super::{file_error, Ephemeris, EphemerisPoint, FileError};
 use crate::state::StateVector;
@@ -30,16 +31,14 @@ pub fn format(eph: &Ephemeris) -> String {
     };
     let mut s = String::with_capacity(512 + eph.points.len() * 140);
     s.push_str("CCSDS_OEM_VERS = 2.0\n");
-    s.push_str(
-        "COMMENT Written by arcwise; ECI = J2000 mean equator and equinox (treated as GCRF)\n",
-    );
+    s.push_str("COMMENT Written by arcwise; states in GCRF\n");
     s.push_str(&format!("CREATION_DATE = {}\n", creation_date()));
     s.push_str("ORIGINATOR = ARCWISE\n");
     for (k, seg) in eph.segments().into_iter().enumerate() {
         let pts = &eph.points[seg];
         s.push_str("\nMETA_START\n");
         s.push_str(&format!("OBJECT_NAME = {name}\nOBJECT_ID = {id}\n"));
-        s.push_str("CENTER_NAME = EARTH\nREF_FRAME = EME2000\nTIME_SYSTEM = UTC\n");
+        s.push_str("CENTER_NAME = EARTH\nREF_FRAME = GCRF\nTIME_SYSTEM = UTC\n");
         if let (Some(a), Some(b)) = (pts.first(), pts.last()) {
             s.push_str(&format!(
                 "START_TIME = {}\nSTOP_TIME = {}\n",
@@ -112,7 +111,7 @@ pub struct OemMessage {
 
 /// Parses an OEM for arcwise: [`read_message`], then one Earth-centred object.
 pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileError> {
-    let m = read_message(text, path)?;
+    let mut m = read_message(text, path)?;
     if !m.center_name.0.eq_ignore_ascii_case("EARTH") {
         return Err(file_error(
             path,
@@ -123,7 +122,59 @@ pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileErr
             ),
         ));
     }
+    to_gcrf(&mut m.ephemeris, &m.ref_frames).map_err(|e| file_error(path, None, e))?;
     Ok((m.ephemeris, m.lines))
+}
+
+/// The reference frames an OEM may name (CCSDS registry names).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Frame {
+    /// GCRF, arcwise's inertial frame (ICRF axes, the same to the mas here).
+    Gcrf,
+    /// EME2000: J2000 mean equator and equinox, the frame bias (~23 mas) from GCRF.
+    Eme2000,
+    /// ITRF (any realization: ITRF, ITRF2000, ITRF2014, ITRF-93 …), Earth-fixed.
+    Itrf,
+}
+
+impl Frame {
+    /// The frame a `REF_FRAME` value names, if arcwise reads it.
+    pub fn from_keyword(v: &str) -> Option<Frame> {
+        match v {
+            "GCRF" | "ICRF" => Some(Frame::Gcrf),
+            "EME2000" => Some(Frame::Eme2000),
+            _ if v.starts_with("ITRF") => Some(Frame::Itrf),
+            _ => None,
+        }
+    }
+}
+
+/// Rotates every segment's states to GCRF from its `REF_FRAME` (ITRF with the shipped IERS
+/// Earth-orientation data, velocities included).
+fn to_gcrf(eph: &mut Ephemeris, frames: &[String]) -> Result<(), String> {
+    let segments = eph.segments();
+    for (seg, name) in segments.into_iter().zip(frames) {
+        let frame = Frame::from_keyword(name).unwrap_or(Frame::Gcrf);
+        let earth = match frame {
+            Frame::Itrf => Some(crate::earth::EarthOrientation::shipped()?),
+            _ => None,
+        };
+        let bias = crate::earth::orientation::eme2000_to_gcrf();
+        for p in &mut eph.points[seg] {
+            let r = nalgebra::Vector3::new(p.state[0], p.state[1], p.state[2]);
+            let v = nalgebra::Vector3::new(p.state[3], p.state[4], p.state[5]);
+            let (r, v) = match (frame, &earth) {
+                (Frame::Gcrf, _) => continue,
+                (Frame::Eme2000, _) => (bias * r, bias * v),
+                (Frame::Itrf, Some(e)) => {
+                    e.at(p.epoch.tt_seconds_since_j2000()).state_to_gcrf(&r, &v)
+                }
+                (Frame::Itrf, None) => continue,
+            };
+            p.state = StateVector::new(r[0], r[1], r[2], v[0], v[1], v[2]);
+        }
+    }
+    Ok(())
 }
 
 /// Reads an OEM (KVN) as it is: every segment, its metadata and states.
@@ -251,8 +302,8 @@ pub fn read_message(text: &str, path: &Path) -> Result<OemMessage, FileError> {
                         None => center = Some((v.to_string(), ln)),
                     },
                     "REF_FRAME" => {
-                        if !matches!(v, "EME2000" | "GCRF" | "ICRF") {
-                            return Err(file_error(path, Some(ln), format!("REF_FRAME = {v}: only EME2000, GCRF or ICRF (inertial) are supported")));
+                        if Frame::from_keyword(v).is_none() {
+                            return Err(file_error(path, Some(ln), format!("REF_FRAME = {v}: only GCRF, ICRF, EME2000 (inertial) or ITRF (Earth-fixed) are supported")));
                         }
                         ref_frames.push(v.to_string());
                     }
