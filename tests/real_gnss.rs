@@ -235,3 +235,36 @@ fn an_unmodelled_push_on_a_real_orbit_is_still_called_an_anomaly() {
         "anomaly"
     );
 }
+
+#[test]
+fn a_csv_arc_in_itrf_fits_as_the_sp3_file_does_and_not_when_taken_as_gcrf() {
+    let dir = tempfile::tempdir().unwrap();
+    let text = std::fs::read_to_string(COD).unwrap();
+    let sp3 = propagator::ephemeris::sp3::Sp3::parse(&text, std::path::Path::new(COD)).unwrap();
+    let mut csv = String::from("epoch_utc,x_km,y_km,z_km\n");
+    for p in sp3.of("G05", std::path::Path::new(COD)).unwrap() {
+        csv += &format!(
+            "{},{},{},{}\n",
+            p.epoch.to_utc_string(),
+            p.r_km[0],
+            p.r_km[1],
+            p.r_km[2]
+        );
+    }
+    let path = dir.path().join("g05-itrf.csv");
+    std::fs::write(&path, csv).unwrap();
+    let g = "{ field: egm2008, degree: 12 }";
+    let csv_path = path.to_str().unwrap();
+    let from_sp3 = fit(dir.path(), "G05", g, COD, "0.02", &[])["rms_km"]
+        .as_f64()
+        .unwrap();
+    let itrf = fit(dir.path(), "G05", g, csv_path, "0.02", &["--frame", "ITRF"])["rms_km"]
+        .as_f64()
+        .unwrap();
+    assert!((itrf - from_sp3).abs() < 1e-9, "{itrf} vs {from_sp3} km");
+    // Taken as GCRF, the Earth-fixed positions are no orbit at all.
+    let wrong = fit(dir.path(), "G05", g, csv_path, "0.02", &[])["rms_km"]
+        .as_f64()
+        .unwrap();
+    assert!(wrong > 1.0, "{wrong} km");
+}

@@ -5,9 +5,9 @@
 //! above the surface and below 1e6 km (larger looks like metres), σ positive.
 
 use nalgebra::Vector3;
-use propagator::earth::EarthOrientation;
 use propagator::ephemeris::sp3::Sp3;
 use propagator::ephemeris::{csv, file_error_at, oem, FileError};
+use propagator::frames::{Frame, ToGcrf};
 use propagator::{CentralBody, Epoch};
 use std::path::Path;
 
@@ -44,6 +44,8 @@ pub struct ArcDefaults {
     pub sigma_km_s: f64,
     /// The object to take from a file of many (an SP3 satellite id such as `G05`).
     pub object: Option<String>,
+    /// The frame of a CSV arc's states (rotated to GCRF on reading).
+    pub csv_frame: Frame,
 }
 
 impl Default for ArcDefaults {
@@ -52,6 +54,7 @@ impl Default for ArcDefaults {
             sigma_km: 0.01,
             sigma_km_s: 1e-5,
             object: None,
+            csv_frame: Frame::Gcrf,
         }
     }
 }
@@ -79,7 +82,7 @@ impl Arc {
         let arc = match ext.as_deref() {
             Some("csv") => {
                 let recs = csv::parse_records(text, path)?;
-                Arc {
+                let mut arc = Arc {
                     observations: recs
                         .into_iter()
                         .map(|r| Observation {
@@ -91,7 +94,10 @@ impl Arc {
                             line: r.line,
                         })
                         .collect(),
-                }
+                };
+                arc.rotate_to_gcrf(defaults.csv_frame)
+                    .map_err(|e| file_error_at(path, None, e))?;
+                arc
             }
             Some("oem") => {
                 let (eph, lines) = oem::parse(text, path)?;
@@ -146,23 +152,31 @@ impl Arc {
                 ),
             ));
         };
-        let earth = EarthOrientation::shipped().map_err(|e| file_error_at(path, None, e))?;
         let observations = sp3
             .of(id, path)?
             .into_iter()
-            .map(|p| {
-                let rot = earth.at(p.epoch.tt_seconds_since_j2000());
-                Observation {
-                    epoch: p.epoch,
-                    r_km: rot.gcrf_to_itrf().transpose() * p.r_km,
-                    v_km_s: None,
-                    sigma_km: defaults.sigma_km,
-                    sigma_km_s: defaults.sigma_km_s,
-                    line: p.line,
-                }
+            .map(|p| Observation {
+                epoch: p.epoch,
+                r_km: p.r_km,
+                v_km_s: None,
+                sigma_km: defaults.sigma_km,
+                sigma_km_s: defaults.sigma_km_s,
+                line: p.line,
             })
             .collect();
-        Ok(Arc { observations })
+        let mut arc = Arc { observations };
+        arc.rotate_to_gcrf(Frame::Itrf)
+            .map_err(|e| file_error_at(path, None, e))?;
+        Ok(arc)
+    }
+
+    /// Rotates positions (and velocities, if observed) from `frame` to GCRF.
+    fn rotate_to_gcrf(&mut self, frame: Frame) -> Result<(), String> {
+        let rotate = ToGcrf::new(frame)?;
+        for o in &mut self.observations {
+            (o.r_km, o.v_km_s) = rotate.apply(&o.epoch, o.r_km, o.v_km_s);
+        }
+        Ok(())
     }
 
     /// Checks order, finiteness, plausibility and σ; names the line.

@@ -1,4 +1,5 @@
-//! Frames: ECI ↔ RTN (radial, transverse, normal).
+//! Frames: ECI ↔ RTN (radial, transverse, normal), and the named frames files use
+//! (GCRF, EME2000, ITRF) with their rotation to GCRF, arcwise's inertial frame.
 //!
 //! RTN: R = r/|r|, N = (r×v)/|r×v|, T = N×R. For a circular orbit T is the velocity
 //! direction ("along-track"); N is the orbit normal ("cross-track").
@@ -89,5 +90,74 @@ mod tests {
         let r = Vector3::new(7000.0, 0.0, 0.0);
         assert!(eci_to_rtn(&r, &Vector3::new(1.0, 0.0, 0.0)).is_none());
         assert!(eci_to_rtn(&Vector3::zeros(), &Vector3::new(0.0, 1.0, 0.0)).is_none());
+    }
+}
+
+/// A reference frame a file may name (CCSDS registry names).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Frame {
+    /// GCRF, arcwise's inertial frame (ICRF axes, the same to the mas here).
+    Gcrf,
+    /// EME2000: J2000 mean equator and equinox, the frame bias (~23 mas) from GCRF.
+    Eme2000,
+    /// ITRF (any realization: ITRF, ITRF2000, ITRF2014, ITRF-93 …), Earth-fixed.
+    Itrf,
+}
+
+impl Frame {
+    /// The frame a name denotes (`GCRF`/`ICRF`, `EME2000`, `ITRF…`), if arcwise reads it.
+    pub fn from_keyword(v: &str) -> Option<Frame> {
+        match v {
+            "GCRF" | "ICRF" => Some(Frame::Gcrf),
+            "EME2000" => Some(Frame::Eme2000),
+            _ if v.starts_with("ITRF") => Some(Frame::Itrf),
+            _ => None,
+        }
+    }
+}
+
+/// Rotates positions and states from one named frame to GCRF (ITRF with the shipped IERS
+/// Earth-orientation data).
+pub struct ToGcrf {
+    frame: Frame,
+    bias: Matrix3<f64>,
+    earth: Option<crate::earth::EarthOrientation>,
+}
+
+impl ToGcrf {
+    /// The rotation from `frame`.
+    pub fn new(frame: Frame) -> Result<Self, String> {
+        let earth = match frame {
+            Frame::Itrf => Some(crate::earth::EarthOrientation::shipped()?),
+            _ => None,
+        };
+        Ok(Self {
+            frame,
+            bias: crate::earth::orientation::eme2000_to_gcrf(),
+            earth,
+        })
+    }
+
+    /// A position (km) at `epoch`, and its velocity (km/s) if given, in GCRF.
+    pub fn apply(
+        &self,
+        epoch: &crate::Epoch,
+        r: Vector3<f64>,
+        v: Option<Vector3<f64>>,
+    ) -> (Vector3<f64>, Option<Vector3<f64>>) {
+        match (self.frame, &self.earth) {
+            (Frame::Gcrf, _) | (Frame::Itrf, None) => (r, v),
+            (Frame::Eme2000, _) => (self.bias * r, v.map(|v| self.bias * v)),
+            (Frame::Itrf, Some(e)) => {
+                let rot = e.at(epoch.tt_seconds_since_j2000());
+                match v {
+                    Some(v) => {
+                        let (r, v) = rot.state_to_gcrf(&r, &v);
+                        (r, Some(v))
+                    }
+                    None => (rot.gcrf_to_itrf().transpose() * r, None),
+                }
+            }
+        }
     }
 }

@@ -28,6 +28,10 @@ pub struct ArcOptions {
     /// gravity field (see the README, "Model error").
     #[arg(long, value_name = "KM")]
     pub model_error_km: Option<f64>,
+    /// The frame of a CSV arc's positions: GCRF (default), EME2000 or ITRF. (OEM files
+    /// name their own frame; SP3 files are Earth-fixed.)
+    #[arg(long, value_name = "FRAME", default_value = "GCRF")]
+    pub frame: String,
 }
 
 impl ArcOptions {
@@ -42,9 +46,16 @@ impl ArcOptions {
         if let Some(o) = &self.object {
             propagator::text::check_name("--object", o).map_err(CliError::input)?;
         }
+        let frame = propagator::frames::Frame::from_keyword(&self.frame).ok_or_else(|| {
+            CliError::input(format!(
+                "--frame {}: GCRF, EME2000 or ITRF",
+                propagator::text::sanitized(&self.frame)
+            ))
+        })?;
         Ok(ArcDefaults {
             sigma_km: self.sigma_km,
             object: self.object.clone(),
+            csv_frame: frame,
             ..ArcDefaults::default()
         })
     }

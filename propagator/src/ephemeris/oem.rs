@@ -126,52 +126,20 @@ pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileErr
     Ok((m.ephemeris, m.lines))
 }
 
-/// The reference frames an OEM may name (CCSDS registry names).
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum Frame {
-    /// GCRF, arcwise's inertial frame (ICRF axes, the same to the mas here).
-    Gcrf,
-    /// EME2000: J2000 mean equator and equinox, the frame bias (~23 mas) from GCRF.
-    Eme2000,
-    /// ITRF (any realization: ITRF, ITRF2000, ITRF2014, ITRF-93 …), Earth-fixed.
-    Itrf,
-}
-
-impl Frame {
-    /// The frame a `REF_FRAME` value names, if arcwise reads it.
-    pub fn from_keyword(v: &str) -> Option<Frame> {
-        match v {
-            "GCRF" | "ICRF" => Some(Frame::Gcrf),
-            "EME2000" => Some(Frame::Eme2000),
-            _ if v.starts_with("ITRF") => Some(Frame::Itrf),
-            _ => None,
-        }
-    }
-}
+pub use crate::frames::Frame;
 
 /// Rotates every segment's states to GCRF from its `REF_FRAME` (ITRF with the shipped IERS
 /// Earth-orientation data, velocities included).
 fn to_gcrf(eph: &mut Ephemeris, frames: &[String]) -> Result<(), String> {
     let segments = eph.segments();
     for (seg, name) in segments.into_iter().zip(frames) {
-        let frame = Frame::from_keyword(name).unwrap_or(Frame::Gcrf);
-        let earth = match frame {
-            Frame::Itrf => Some(crate::earth::EarthOrientation::shipped()?),
-            _ => None,
-        };
-        let bias = crate::earth::orientation::eme2000_to_gcrf();
+        let rotate = crate::frames::ToGcrf::new(Frame::from_keyword(name).unwrap_or(Frame::Gcrf))?;
         for p in &mut eph.points[seg] {
             let r = nalgebra::Vector3::new(p.state[0], p.state[1], p.state[2]);
             let v = nalgebra::Vector3::new(p.state[3], p.state[4], p.state[5]);
-            let (r, v) = match (frame, &earth) {
-                (Frame::Gcrf, _) => continue,
-                (Frame::Eme2000, _) => (bias * r, bias * v),
-                (Frame::Itrf, Some(e)) => {
-                    e.at(p.epoch.tt_seconds_since_j2000()).state_to_gcrf(&r, &v)
-                }
-                (Frame::Itrf, None) => continue,
-            };
-            p.state = StateVector::new(r[0], r[1], r[2], v[0], v[1], v[2]);
+            if let (r, Some(v)) = rotate.apply(&p.epoch, r, Some(v)) {
+                p.state = StateVector::new(r[0], r[1], r[2], v[0], v[1], v[2]);
+            }
         }
     }
     Ok(())
