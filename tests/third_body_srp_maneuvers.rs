@@ -19,6 +19,18 @@ const MU: f64 = 398_600.441_8;
 const RE: f64 = 6_378.136_3;
 
 fn run(model: &ForceModel, x0: StateVector, t_end: f64, outputs: &[f64], tol: f64) -> Propagated {
+    run_from(model, x0, 0.0, t_end, outputs, tol)
+}
+
+/// As [`run`], from `t0` (backward when `t_end < t0`).
+fn run_from(
+    model: &ForceModel,
+    x0: StateVector,
+    t0: f64,
+    t_end: f64,
+    outputs: &[f64],
+    tol: f64,
+) -> Propagated {
     let options = Options {
         settings: Settings {
             method: Method::Dp853,
@@ -32,7 +44,7 @@ fn run(model: &ForceModel, x0: StateVector, t_end: f64, outputs: &[f64], tol: f6
     };
     let req = Request {
         x0,
-        t0_s: 0.0,
+        t0_s: t0,
         t_end_s: t_end,
         output_times_s: outputs,
         stop_times_s: &[],
@@ -347,27 +359,7 @@ fn eclipse_events_work_backward_too() {
         let (model, x0) = eclipsing(shadow);
         let tol = Settings::default().rtol;
         let there = run(&model, x0, 86_400.0, &[86_400.0], tol).samples[0].1;
-        let options = Options {
-            settings: Settings {
-                rtol: tol,
-                atol: tol,
-                max_step_s: 1e9,
-                ..Settings::default()
-            },
-            altitude_floor_km: 0.0,
-            ..Options::default()
-        };
-        let req = Request {
-            x0: there,
-            t0_s: 86_400.0,
-            t_end_s: 0.0,
-            output_times_s: &[0.0],
-            stop_times_s: &[],
-        };
-        let back = propagate(&model, &req, &options, &mut Silent)
-            .unwrap()
-            .samples[0]
-            .1;
+        let back = run_from(&model, there, 86_400.0, 0.0, &[0.0], tol).samples[0].1;
         let err = (back.fixed_rows::<3>(0) - x0.fixed_rows::<3>(0)).norm();
         eprintln!(
             "{shadow:?}: forward and back over 1 day: {:.4} m",

@@ -5,7 +5,6 @@ use crate::error::{CliError, EXIT_CHECK_FAILED};
 use crate::plot::{write_panels, Panel, Series};
 use crate::report::write_report;
 use clap::Args as ClapArgs;
-use learned_forces::arc::Arc;
 use learned_forces::learned_file::{LearnedFile, LearnedResolver};
 use learned_forces::next_arc::{noise_rms_km, predict, GateRule, Prediction};
 use propagator::config::ForcesFile;
@@ -74,14 +73,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
         ));
     }
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
-    let mut arc = Arc::load(&a.arc, a.arc_options.defaults()?, &spec.central_body)
-        .map_err(CliError::input)?;
-    {
-        let loaded = spec
-            .build_with(&a.forces, arc.start(), &LearnedResolver)
-            .map_err(CliError::input)?;
-        a.arc_options.apply_model_error(&mut arc, &loaded)?;
-    }
+    let (arc, _, _) = a.arc_options.load(&a.arc, &spec, &a.forces)?;
     let (epoch, x0) = file
         .state_at_end
         .state("state_at_end")

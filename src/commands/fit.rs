@@ -66,17 +66,8 @@ pub fn load_and_fit(
     arc_options: &super::ArcOptions,
     options: &FitOptions,
 ) -> Result<(Arc, ForcesFile, FitResult, ModelError), CliError> {
-    let defaults = arc_options.defaults()?;
     let spec = ForcesFile::load(forces_path).map_err(CliError::input)?;
-    let mut arc = Arc::load(arc_path, defaults, &spec.central_body).map_err(CliError::input)?;
-    let loaded = spec
-        .build_with(
-            forces_path,
-            arc.start(),
-            &learned_forces::learned_file::LearnedResolver,
-        )
-        .map_err(CliError::input)?;
-    let model_error = arc_options.apply_model_error(&mut arc, &loaded)?;
+    let (arc, loaded, model_error) = arc_options.load(arc_path, &spec, forces_path)?;
     let mut progress = FitProgress::new("fit");
     let result = fit(&arc, loaded.model, options, &mut progress);
     progress.finish();

@@ -116,13 +116,8 @@ pub fn run(a: Args) -> Result<(), CliError> {
     }
     let estimate = parse_estimate(&a.estimate)?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
-    let defaults = a.arc_options.defaults()?;
-    let mut arc = Arc::load(&a.arc, defaults, &spec.central_body).map_err(CliError::input)?;
     // Check the model builds before the long work.
-    let loaded = spec
-        .build_with(&a.forces, arc.start(), &LearnedResolver)
-        .map_err(CliError::input)?;
-    let model_error = a.arc_options.apply_model_error(&mut arc, &loaded)?;
+    let (arc, _, model_error) = a.arc_options.load(&a.arc, &spec, &a.forces)?;
     if model_error.floor_km > 0.0 {
         eprintln!(
             "model error: {:.3} m added in quadrature to each σ ({})",

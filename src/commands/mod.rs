@@ -84,6 +84,37 @@ impl ArcOptions {
     }
 }
 
+impl ArcOptions {
+    /// Reads the arc at `path`, builds the known forces of `spec` (from `forces_path`) on
+    /// its time axis, and applies the model-error floor: what every arc-reading command
+    /// starts with.
+    pub fn load(
+        &self,
+        path: &std::path::Path,
+        spec: &propagator::config::ForcesFile,
+        forces_path: &std::path::Path,
+    ) -> Result<
+        (
+            learned_forces::arc::Arc,
+            propagator::config::LoadedForces,
+            learned_forces::model_error::ModelError,
+        ),
+        CliError,
+    > {
+        let mut arc = learned_forces::arc::Arc::load(path, self.defaults()?, &spec.central_body)
+            .map_err(CliError::input)?;
+        let loaded = spec
+            .build_with(
+                forces_path,
+                arc.start(),
+                &learned_forces::learned_file::LearnedResolver,
+            )
+            .map_err(CliError::input)?;
+        let model_error = self.apply_model_error(&mut arc, &loaded)?;
+        Ok((arc, loaded, model_error))
+    }
+}
+
 /// The report block of a model-error floor.
 pub fn model_error_json(e: &learned_forces::model_error::ModelError) -> serde_json::Value {
     let mut j = serde_json::json!({ "floor_km": e.floor_km, "basis": e.basis });

@@ -6,7 +6,6 @@ use crate::plot::{write_panels, Panel, Series};
 use crate::progress::FitProgress;
 use crate::report::write_report;
 use clap::Args as ClapArgs;
-use learned_forces::arc::Arc;
 use learned_forces::expr::Context;
 use learned_forces::fit::FitOptions;
 use learned_forces::learn::hypotheses::parse_hypotheses;
@@ -63,14 +62,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
     let text = propagator::input::read_text(&a.hypotheses, propagator::input::MAX_CONFIG_BYTES)
         .map_err(|e| CliError::input(format!("{}: {e}", a.hypotheses.display())))?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
-    let mut arc = Arc::load(&a.arc, a.arc_options.defaults()?, &spec.central_body)
-        .map_err(CliError::input)?;
-    {
-        let loaded = spec
-            .build_with(&a.forces, arc.start(), &LearnedResolver)
-            .map_err(CliError::input)?;
-        a.arc_options.apply_model_error(&mut arc, &loaded)?;
-    }
+    let (arc, _, _) = a.arc_options.load(&a.arc, &spec, &a.forces)?;
     let t0 = arc.start();
     let span_s = arc.end().seconds_since(&t0);
     let hyps = parse_hypotheses(&text, &a.hypotheses, &t0, span_s).map_err(CliError::input)?;
