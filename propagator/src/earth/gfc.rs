@@ -8,6 +8,10 @@
 //! normalization, a coefficient beyond `max_degree` or given twice, non-finite numbers.
 
 use super::gravity::GravityField;
+
+/// The highest degree read (EGM2008's full degree; 2.4 million coefficient pairs, 38 MB):
+/// a header claiming more is refused before anything is allocated.
+pub const MAX_DEGREE: usize = 2190;
 use std::path::Path;
 
 /// Reads a `.gfc` file up to degree `degree` (all of it when `None`).
@@ -56,6 +60,11 @@ pub fn parse(text: &str, origin: &str, degree: Option<usize>) -> Result<GravityF
     let need = |v: Option<f64>, k: &str| v.ok_or_else(|| format!("{origin}: header has no `{k}`"));
     let (gm, radius) = (need(gm, "earth_gravity_constant")?, need(radius, "radius")?);
     let max_degree = max_degree.ok_or_else(|| format!("{origin}: header has no `max_degree`"))?;
+    if max_degree > MAX_DEGREE {
+        return Err(format!(
+            "{origin}: max_degree {max_degree} is beyond {MAX_DEGREE} (EGM2008's full degree), the most arcwise reads"
+        ));
+    }
     match norm.as_deref() {
         Some("fully_normalized") | None => {}
         Some(other) => {
@@ -151,5 +160,18 @@ fn finite(v: &str, what: &str) -> Result<f64, String> {
             "{what} `{}` is not a finite number",
             crate::text::sanitized(v)
         )),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_huge_max_degree_is_refused_before_allocating() {
+        // 100000 would ask for 5e9 coefficient slots (40 GB) before reading a line.
+        let text = "begin_of_head\nearth_gravity_constant 3.986004415E+14\nradius 6378136.3\nmax_degree 100000\nnorm fully_normalized\nend_of_head\ngfc 0 0 1.0 0.0\n";
+        let e = parse(text, "big.gfc", Some(100_000)).unwrap_err();
+        assert!(e.contains("big.gfc") && e.contains("100000"), "{e}");
     }
 }
