@@ -59,12 +59,10 @@ impl ArcOptions {
             ..ArcDefaults::default()
         })
     }
-}
 
-impl ArcOptions {
     /// The model-error floor for `arc` under `loaded` (given or default), applied to the
     /// arc's σ; the value in use is returned for the report.
-    pub fn apply_model_error(
+    fn apply_model_error(
         &self,
         arc: &mut learned_forces::arc::Arc,
         loaded: &propagator::config::LoadedForces,
@@ -82,9 +80,7 @@ impl ArcOptions {
         model_error::apply(arc, &e);
         Ok(e)
     }
-}
 
-impl ArcOptions {
     /// Reads the arc at `path`, builds the known forces of `spec` (from `forces_path`) on
     /// its time axis, and applies the model-error floor: what every arc-reading command
     /// starts with.

@@ -227,15 +227,13 @@ impl EopTable {
     /// report that used them carries it).
     pub fn at(&self, tt_s: f64) -> EopValues {
         let n = self.nodes_tt_s.len();
-        let v = if tt_s <= self.nodes_tt_s[0] || tt_s >= self.nodes_tt_s[n - 1] || tt_s.is_nan() {
-            if tt_s < self.nodes_tt_s[0] || tt_s > self.nodes_tt_s[n - 1] || tt_s.is_nan() {
+        let (first, last) = (self.nodes_tt_s[0], self.nodes_tt_s[n - 1]);
+        let v = if !(tt_s > first && tt_s < last) {
+            // An end node itself, outside, or NaN: the end's values.
+            if !(first..=last).contains(&tt_s) {
                 self.warn_outside();
             }
-            if tt_s >= self.nodes_tt_s[n - 1] {
-                self.values[n - 1]
-            } else {
-                self.values[0]
-            }
+            self.values[if tt_s >= last { n - 1 } else { 0 }]
         } else {
             // Daily nodes: the day index is a guess, corrected by at most one step.
             let mut k = ((tt_s - self.nodes_tt_s[0]) / 86_400.0) as usize;
