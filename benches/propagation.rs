@@ -103,6 +103,11 @@ fn real_earth(c: &mut Criterion) {
             |b| b.iter(|| h.acceleration(black_box(&r))),
         );
     }
+    let h = Harmonics::new(field.clone(), 70, 70).unwrap();
+    c.bench_function(
+        "gravity field 70x70, acceleration and analytic gradient in ITRF",
+        |b| b.iter(|| h.acceleration_and_gradient(black_box(&r))),
+    );
     c.bench_function(
         "GCRF to ITRF rotation (EOP + interpolated X, Y, s), one call",
         |b| b.iter(|| earth.at(black_box(tt0 + 10.0)).gcrf_to_itrf()),

@@ -82,39 +82,233 @@ impl GravityField {
     }
 }
 
-/// A field truncated to degree `n` and order `m`, with its recursion factors, ready to
-/// evaluate.
+/// A field truncated to degree `n` and order `m`, ready to evaluate.
 ///
-/// Everything is stored by order (column) m, degrees n = m … in a row, so that the
-/// recursion runs down contiguous memory and the sums read slices: columns are
-/// independent once their diagonal term is known, so two are run side by side to keep
-/// the floating-point units busy.
+/// The potential U = GM/R Σ (C̄ₙₘ V̄ₙₘ + S̄ₙₘ W̄ₙₘ) is a linear functional on the solid
+/// harmonics, and so are its derivatives: R ∂/∂x of a solid harmonic of degree n is a
+/// combination of those of degree n + 1 (Cunningham's rules). The acceleration and its
+/// gradient are therefore fixed weights on V̄, W̄ of degree ≤ n + 1 and ≤ n + 2, found
+/// once here by applying the rules to the coefficients; an evaluation runs the recursion
+/// for V̄, W̄ by degree rows (each row's orders are independent, so the loop vectorizes)
+/// and contracts them with the weights.
 #[derive(Clone, Debug)]
 pub struct Harmonics {
     field: Arc<GravityField>,
     degree: usize,
     order: usize,
-    /// Highest order of V̄, W̄ (order + 1, capped at degree + 1; degrees go to degree + 1).
-    mtop: usize,
-    /// Start of column m in the V̄, W̄ and recursion arrays (n = m … top).
-    col: Vec<usize>,
-    /// Column recursion factors a, b (V̄ₙₘ = a z V̄ₙ₋₁ₘ − b ρ V̄ₙ₋₂ₘ), by column.
+    rows: Rows,
+    /// Row recursion factors a, b (V̄ₙₘ = a z V̄ₙ₋₁ₘ − b ρ V̄ₙ₋₂ₘ), in the rows' layout.
     a: Vec<f64>,
     b: Vec<f64>,
-    /// Diagonal factors for V̄ₘₘ.
+    /// Diagonal factors for V̄ₘₘ from V̄ₘ₋₁ₘ₋₁, W̄ₘ₋₁ₘ₋₁.
     diag: Vec<f64>,
-    /// Per column m ≤ order, degrees n = max(2, m) … degree: the coefficients times the
-    /// acceleration factors along z (kz), toward order m + 1 (kp) and m − 1 (km).
-    terms: Vec<ColumnTerms>,
+    /// R ∂U/∂(x, y, z) as weights on V̄, W̄ of degree ≤ degree + 1.
+    acceleration: Contraction<3>,
+    /// R² ∂²U/∂(xx, xy, xz, yy, yz, zz) on V̄, W̄ of degree ≤ degree + 2.
+    gradient: Contraction<6>,
 }
 
-/// One column's coefficients, premultiplied by their acceleration factors: per degree
-/// [C̄·kz, S̄·kz, C̄·kp, S̄·kp, C̄·km, S̄·km] (km = 0 for m = 0).
-#[derive(Clone, Debug, Default)]
-struct ColumnTerms {
-    /// First degree of the column's sums.
-    n0: usize,
-    k: Vec<[f64; 6]>,
+/// Accumulator lanes of the contractions: eight independent sums per component keep the
+/// adders busy and map onto two AVX2 or four SSE2 registers. The order of the additions
+/// is the same on either, so the result is the same bit for bit.
+const L: usize = 8;
+
+/// Solid harmonics stored by degree rows: row n holds orders 0 … min(n, mtop).
+#[derive(Clone, Debug)]
+struct Rows {
+    /// Start of row n; `start[top + 1]` is the length.
+    start: Vec<usize>,
+    mtop: usize,
+}
+
+impl Rows {
+    fn new(top: usize, mtop: usize) -> Self {
+        let mut start = Vec::with_capacity(top + 2);
+        let mut at = 0;
+        for n in 0..=top {
+            start.push(at);
+            at += n.min(mtop) + 1;
+        }
+        start.push(at);
+        Self { start, mtop }
+    }
+
+    fn top(&self) -> usize {
+        self.start.len() - 2
+    }
+
+    /// Orders held in row n.
+    fn width(&self, n: usize) -> usize {
+        n.min(self.mtop) + 1
+    }
+
+    fn at(&self, n: usize, m: usize) -> usize {
+        self.start[n] + m
+    }
+
+    /// Entries in rows 0 … n.
+    fn through(&self, n: usize) -> usize {
+        self.start[n + 1]
+    }
+}
+
+/// Which of a degree-and-order pair's two solid harmonics: V̄ (cos mλ) or W̄ (sin mλ).
+#[derive(Clone, Copy, Debug, PartialEq)]
+enum Kind {
+    V,
+    W,
+}
+
+/// Weights on V̄, W̄ in the rows' layout: the functional Σ v·V̄ + w·W̄.
+#[derive(Clone, Debug)]
+struct Functional {
+    v: Vec<f64>,
+    w: Vec<f64>,
+}
+
+impl Functional {
+    /// The potential's weights, C̄ₙₘ and S̄ₙₘ for 2 ≤ n ≤ degree, m ≤ order.
+    fn potential(field: &GravityField, degree: usize, order: usize, rows: &Rows) -> Self {
+        let len = rows.through(rows.top());
+        let mut f = Self {
+            v: vec![0.0; len],
+            w: vec![0.0; len],
+        };
+        for n in 2..=degree {
+            for m in 0..=n.min(order) {
+                let (c, s) = field.coefficient(n, m);
+                f.v[rows.at(n, m)] = c;
+                f.w[rows.at(n, m)] = s;
+            }
+        }
+        f
+    }
+
+    /// R ∂/∂x_axis of this functional, its weights on rows 0 … `below` moved one degree
+    /// up (the caller keeps the highest order reached within the rows' width).
+    fn derive(&self, axis: Axis, rows: &Rows, below: usize) -> Self {
+        let len = self.v.len();
+        let mut out = Self {
+            v: vec![0.0; len],
+            w: vec![0.0; len],
+        };
+        for n in 0..=below {
+            for m in 0..rows.width(n) {
+                let i = rows.at(n, m);
+                for (kind, weight) in [(Kind::V, self.v[i]), (Kind::W, self.w[i])] {
+                    if weight == 0.0 {
+                        continue;
+                    }
+                    for (factor, m1, kind1) in derivative_rule(axis, n, m, kind) {
+                        let j = rows.at(n + 1, m1);
+                        let k = weight * factor * norm_ratio(n, m, m1);
+                        match kind1 {
+                            Kind::V => out.v[j] += k,
+                            Kind::W => out.w[j] += k,
+                        }
+                    }
+                }
+            }
+        }
+        out
+    }
+}
+
+/// R ∂/∂x_axis of Cunningham's unnormalized solid harmonic (n, m, kind) as terms
+/// (factor, m′, kind′) of degree n + 1 (Montenbruck & Gill, Satellite Orbits, eq. 3.33,
+/// read as derivative rules; W̄ₙ₀ = 0 has no terms).
+fn derivative_rule(axis: Axis, n: usize, m: usize, kind: Kind) -> Vec<(f64, usize, Kind)> {
+    use Axis::{X, Y, Z};
+    use Kind::{V, W};
+    let down = 0.5 * ((n + 2 - m) * (n + 1 - m)) as f64;
+    match (axis, kind, m) {
+        (Z, _, _) => vec![(-((n + 1 - m) as f64), m, kind)],
+        (X | Y, W, 0) => vec![],
+        (X, V, 0) => vec![(-1.0, 1, V)],
+        (Y, V, 0) => vec![(-1.0, 1, W)],
+        (X, V, _) => vec![(-0.5, m + 1, V), (down, m - 1, V)],
+        (X, W, _) => vec![(-0.5, m + 1, W), (down, m - 1, W)],
+        (Y, V, _) => vec![(-0.5, m + 1, W), (-down, m - 1, W)],
+        (Y, W, _) => vec![(0.5, m + 1, V), (down, m - 1, V)],
+    }
+}
+
+/// An Earth-fixed axis.
+#[derive(Clone, Copy, Debug)]
+enum Axis {
+    X,
+    Y,
+    Z,
+}
+
+/// Nₙₘ / Nₙ₊₁ₘ′ for the normalization Nₙₘ = √((2 − δₘ₀)(2n + 1)(n − m)!/(n + m)!), m′
+/// within one of m.
+fn norm_ratio(n: usize, m: usize, m1: usize) -> f64 {
+    let delta = |m: usize| if m == 0 { 1.0 } else { 2.0 };
+    // a!/b! for a, b at most two apart.
+    let fact_ratio = |a: usize, b: usize| -> f64 {
+        let (lo, hi) = (a.min(b), a.max(b));
+        let p: f64 = (lo + 1..=hi).map(|k| k as f64).product();
+        if a >= b {
+            p
+        } else {
+            1.0 / p
+        }
+    };
+    let sq = delta(m) / delta(m1) * (2 * n + 1) as f64 / (2 * n + 3) as f64
+        * fact_ratio(n - m, n + 1 - m1)
+        * fact_ratio(n + 1 + m1, n + m);
+    sq.sqrt()
+}
+
+/// K functionals' weights, each padded to whole blocks of L entries, ready to contract
+/// with V̄, W̄.
+#[derive(Clone, Debug)]
+struct Contraction<const K: usize> {
+    v: [Vec<f64>; K],
+    w: [Vec<f64>; K],
+}
+
+impl<const K: usize> Contraction<K> {
+    /// The first `len` weights of each functional.
+    fn new(fs: [&Functional; K], len: usize) -> Self {
+        let padded = len.div_ceil(L) * L;
+        let take = |x: &[f64]| {
+            let mut out = x[..len].to_vec();
+            out.resize(padded, 0.0);
+            out
+        };
+        Self {
+            v: fs.map(|f| take(&f.v)),
+            w: fs.map(|f| take(&f.w)),
+        }
+    }
+
+    /// Entries read (a multiple of L).
+    fn len(&self) -> usize {
+        self.v.first().map_or(0, Vec::len)
+    }
+
+    /// Σ v·V̄ + w·W̄ for each functional, one pass each: a pass streams through one
+    /// functional's weights in L-wide blocks, with the lanes as independent sums.
+    #[inline(always)]
+    fn apply(&self, v: &[f64], w: &[f64]) -> [f64; K] {
+        let mut out = [0.0; K];
+        for (o, (pv, pw)) in out.iter_mut().zip(self.v.iter().zip(&self.w)) {
+            let mut acc = [0.0; L];
+            for ((p, x), (q, y)) in pv
+                .chunks_exact(L)
+                .zip(v.chunks_exact(L))
+                .zip(pw.chunks_exact(L).zip(w.chunks_exact(L)))
+            {
+                for l in 0..L {
+                    acc[l] += p[l] * x[l] + q[l] * y[l];
+                }
+            }
+            *o = acc.iter().sum();
+        }
+        out
+    }
 }
 
 thread_local! {
@@ -135,20 +329,15 @@ impl Harmonics {
                 "gravity order {order} is above the degree {degree}"
             ));
         }
-        let top = degree + 1;
-        let mtop = (order + 1).min(top);
-        let mut col = Vec::with_capacity(mtop + 2);
-        let mut at = 0;
-        for m in 0..=mtop {
-            col.push(at);
-            at += top - m + 1;
-        }
-        col.push(at);
-        let (mut a, mut b) = (vec![0.0; at], vec![0.0; at]);
-        for (m, &start) in col.iter().enumerate().take(mtop + 1) {
-            for n in m + 1..=top {
+        // Two derivatives raise the degree by two and the order by up to two.
+        let top = degree + 2;
+        let rows = Rows::new(top, (order + 2).min(top));
+        let len = rows.through(top);
+        let (mut a, mut b) = (vec![0.0; len], vec![0.0; len]);
+        for n in 1..=top {
+            for m in 0..rows.width(n).min(n) {
                 let (nf, mf) = (n as f64, m as f64);
-                let i = start + n - m;
+                let i = rows.at(n, m);
                 a[i] = ((2.0 * nf + 1.0) * (2.0 * nf - 1.0) / ((nf - mf) * (nf + mf))).sqrt();
                 if n >= m + 2 {
                     b[i] = ((2.0 * nf + 1.0) * (nf + mf - 1.0) * (nf - mf - 1.0)
@@ -157,26 +346,37 @@ impl Harmonics {
                 }
             }
         }
-        let diag = (0..=mtop)
+        let diag = (0..=rows.mtop)
             .map(|m| match m {
                 0 => 1.0,
                 1 => 3f64.sqrt(),
                 _ => ((2.0 * m as f64 + 1.0) / (2.0 * m as f64)).sqrt(),
             })
             .collect();
-        let terms = (0..=order)
-            .map(|m| column_terms(&field, degree, m))
-            .collect();
+        let u = Functional::potential(&field, degree, order, &rows);
+        let du = [Axis::X, Axis::Y, Axis::Z].map(|i| u.derive(i, &rows, degree));
+        let ddu = [
+            (0, Axis::X),
+            (0, Axis::Y),
+            (0, Axis::Z),
+            (1, Axis::Y),
+            (1, Axis::Z),
+            (2, Axis::Z),
+        ]
+        .map(|(i, j)| du[i].derive(j, &rows, degree + 1));
+        let acceleration = Contraction::new([&du[0], &du[1], &du[2]], rows.through(degree + 1));
+        let gradient =
+            Contraction::new([&ddu[0], &ddu[1], &ddu[2], &ddu[3], &ddu[4], &ddu[5]], len);
         Ok(Self {
             field,
             degree,
             order,
-            mtop,
-            col,
+            rows,
             a,
             b,
             diag,
-            terms,
+            acceleration,
+            gradient,
         })
     }
 
@@ -190,168 +390,132 @@ impl Harmonics {
         (self.degree, self.order)
     }
 
-    /// V̄ₙₘ, W̄ₙₘ at Earth-fixed `r` (km) for n ≤ degree + 1, m ≤ order + 1, into `v`, `w`
-    /// (by column).
-    fn solid_harmonics(&self, r: &Vector3<f64>, v: &mut [f64], w: &mut [f64]) {
-        let re = self.field.radius_km;
-        let r2 = r.norm_squared();
-        let rho = re / r2;
-        let (x0, y0, z0, rr) = (r[0] * rho, r[1] * rho, r[2] * rho, re * rho);
-        // The diagonal, a short chain through the orders.
-        v[0] = re / r2.sqrt();
-        w[0] = 0.0;
-        for m in 1..=self.mtop {
-            let (p, d) = (self.col[m - 1], self.col[m]);
-            let k = self.diag[m];
-            v[d] = k * (x0 * v[p] - y0 * w[p]);
-            w[d] = k * (x0 * w[p] + y0 * v[p]);
-        }
-        // Down each column from its diagonal, two columns side by side: each column is a
-        // chain of dependent steps, and two chains of V̄ and W̄ keep the units busy.
-        let mut m = 0;
-        while m <= self.mtop {
-            let (s0, s1) = (self.col[m], self.col[m + 1]);
-            if m == self.mtop {
-                let (a, b) = (&self.a[s0..s1], &self.b[s0..s1]);
-                column_pair((a, b, &mut v[s0..s1], &mut w[s0..s1]), None, z0, rr);
-                break;
-            }
-            let s2 = self.col[m + 2];
-            let (v0, v1) = v[s0..s2].split_at_mut(s1 - s0);
-            let (w0, w1) = w[s0..s2].split_at_mut(s1 - s0);
-            column_pair(
-                (&self.a[s0..s1], &self.b[s0..s1], v0, w0),
-                Some((&self.a[s1..s2], &self.b[s1..s2], v1, w1)),
-                z0,
-                rr,
-            );
-            m += 2;
-        }
-    }
-
     /// Acceleration of degrees 2…degree, orders 0…order, km/s², at the Earth-fixed
     /// position `r` (km).
     pub fn acceleration(&self, r: &Vector3<f64>) -> Vector3<f64> {
+        self.evaluate(r, false).0
+    }
+
+    /// ∂a/∂r (1/s²) in the Earth-fixed frame, analytic.
+    pub fn gradient(&self, r: &Vector3<f64>) -> Matrix3<f64> {
+        self.acceleration_and_gradient(r).1
+    }
+
+    /// The acceleration (km/s²) and its gradient (1/s²) from one recursion.
+    pub fn acceleration_and_gradient(&self, r: &Vector3<f64>) -> (Vector3<f64>, Matrix3<f64>) {
+        let (a, g) = self.evaluate(r, true);
+        (a, g.unwrap_or_else(Matrix3::zeros))
+    }
+
+    /// The recursion and contractions, on AVX2 where the CPU has it (same results: no
+    /// fused operations, same order of additions).
+    fn evaluate(&self, r: &Vector3<f64>, gradient: bool) -> (Vector3<f64>, Option<Matrix3<f64>>) {
         SCRATCH.with(|s| {
             let (v, w) = &mut *s.borrow_mut();
-            let len = self.col[self.mtop + 1];
+            let len = self.gradient.len();
             if v.len() < len {
                 v.resize(len, 0.0);
                 w.resize(len, 0.0);
             }
-            self.solid_harmonics(r, v, w);
-            let (mut ax, mut ay, mut az) = (0.0, 0.0, 0.0);
-            for (m, t) in self.terms.iter().enumerate() {
-                let k = t.k.len();
-                if k == 0 {
-                    continue;
-                }
-                // V̄, W̄ at degree n + 1 for n = n0 … degree in columns m, m + 1, m − 1.
-                let j = t.n0 + 1 - m;
-                let at = |c: usize| (&v[c..][..k], &w[c..][..k]);
-                let (v0, w0) = at(self.col[m] + j);
-                let (vp, wp) = at(self.col[m + 1] + j - 1);
-                let (vm, wm) = if m > 0 {
-                    at(self.col[m - 1] + j + 1)
-                } else {
-                    (vp, wp)
-                };
-                let (mut sx, mut sy, mut sz) = (0.0, 0.0, 0.0);
-                for (i, c) in t.k.iter().enumerate() {
-                    let [cz, szc, cp, sp, cm, sm] = *c;
-                    sz -= cz * v0[i] + szc * w0[i];
-                    sx += cm * vm[i] + sm * wm[i] - cp * vp[i] - sp * wp[i];
-                    sy += sm * vm[i] - cm * wm[i] + sp * vp[i] - cp * wp[i];
-                }
-                ax += sx;
-                ay += sy;
-                az += sz;
+            #[cfg(target_arch = "x86_64")]
+            if std::arch::is_x86_feature_detected!("avx2") {
+                // SAFETY: the CPU has AVX2, checked just above.
+                return unsafe { self.evaluate_avx2(r, gradient, v, w) };
             }
-            let re = self.field.radius_km;
-            Vector3::new(ax, ay, az) * (self.field.gm_km3_s2 / (re * re))
+            self.evaluate_in(r, gradient, v, w)
         })
     }
 
-    /// ∂a/∂r (1/s²) in the Earth-fixed frame, by central differences of
-    /// [`Self::acceleration`] with 1 m steps (the field's relative error from the step is
-    /// ~1e-8 of the gradient; the STM needs 1e-6).
-    pub fn gradient(&self, r: &Vector3<f64>) -> Matrix3<f64> {
-        let h = 1e-3;
-        let mut g = Matrix3::zeros();
-        for j in 0..3 {
-            let mut e = Vector3::zeros();
-            e[j] = h;
-            let d = (self.acceleration(&(r + e)) - self.acceleration(&(r - e))) / (2.0 * h);
-            g.set_column(j, &d);
-        }
-        g
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    fn evaluate_avx2(
+        &self,
+        r: &Vector3<f64>,
+        gradient: bool,
+        v: &mut [f64],
+        w: &mut [f64],
+    ) -> (Vector3<f64>, Option<Matrix3<f64>>) {
+        self.evaluate_in(r, gradient, v, w)
     }
-}
 
-/// One column for the recursion: factors a, b and the V̄, W̄ it fills.
-type Column<'a> = (&'a [f64], &'a [f64], &'a mut [f64], &'a mut [f64]);
-
-/// The recursion down a column whose diagonal term `v[0]`, `w[0]` is in place (b is zero
-/// on the first step, so one formula serves), and down the next column (one shorter)
-/// alongside. The previous terms ride in registers: going through memory would add a
-/// store-to-load delay to every step of the chain.
-#[inline]
-fn column_pair(first: Column<'_>, second: Option<Column<'_>>, z0: f64, rr: f64) {
-    let (a0, b0, v0, w0) = first;
-    let (mut p0, mut q0, mut pp0, mut qq0) = (v0[0], w0[0], 0.0, 0.0);
-    let len0 = v0.len().min(w0.len()).min(a0.len()).min(b0.len());
-    let mut j0 = 1;
-    if let Some((a1, b1, v1, w1)) = second {
-        let (mut p1, mut q1, mut pp1, mut qq1) = (v1[0], w1[0], 0.0, 0.0);
-        let len1 = v1.len().min(w1.len()).min(a1.len()).min(b1.len()).min(len0);
-        for j in 1..len1 {
-            let (az0, br0) = (a0[j] * z0, b0[j] * rr);
-            let (az1, br1) = (a1[j] * z0, b1[j] * rr);
-            let (vn0, wn0) = (az0 * p0 - br0 * pp0, az0 * q0 - br0 * qq0);
-            let (vn1, wn1) = (az1 * p1 - br1 * pp1, az1 * q1 - br1 * qq1);
-            (v0[j], w0[j], v1[j], w1[j]) = (vn0, wn0, vn1, wn1);
-            (pp0, qq0, p0, q0) = (p0, q0, vn0, wn0);
-            (pp1, qq1, p1, q1) = (p1, q1, vn1, wn1);
-        }
-        j0 = len1.max(1);
-    }
-    for j in j0..len0 {
-        let (az, br) = (a0[j] * z0, b0[j] * rr);
-        let (vn, wn) = (az * p0 - br * pp0, az * q0 - br * qq0);
-        (v0[j], w0[j]) = (vn, wn);
-        (pp0, qq0, p0, q0) = (p0, q0, vn, wn);
-    }
-}
-
-/// Column m's coefficients times their acceleration factors, degrees max(2, m) … degree.
-fn column_terms(field: &GravityField, degree: usize, m: usize) -> ColumnTerms {
-    let n0 = m.max(2);
-    let mut t = ColumnTerms {
-        n0,
-        ..ColumnTerms::default()
-    };
-    let mf = m as f64;
-    for n in n0..=degree {
-        let nf = n as f64;
-        let q = (2.0 * nf + 1.0) / (2.0 * nf + 3.0);
-        let (c, s) = field.coefficient(n, m);
-        let kz = (q * (nf + mf + 1.0) * (nf - mf + 1.0)).sqrt();
-        // The x, y sums carry ½ for m > 0 (Montenbruck & Gill eq. 3.33); for m = 0 the
-        // m + 1 term alone, without it.
-        let (kp, km) = match m {
-            0 => ((0.5 * q * (nf + 1.0) * (nf + 2.0)).sqrt(), 0.0),
-            1 => (
-                0.5 * (q * (nf + mf + 1.0) * (nf + mf + 2.0)).sqrt(),
-                0.5 * (2.0 * q * (nf + 1.0) * nf).sqrt(),
-            ),
-            _ => (
-                0.5 * (q * (nf + mf + 1.0) * (nf + mf + 2.0)).sqrt(),
-                0.5 * (q * (nf - mf + 2.0) * (nf - mf + 1.0)).sqrt(),
-            ),
+    #[inline(always)]
+    fn evaluate_in(
+        &self,
+        r: &Vector3<f64>,
+        gradient: bool,
+        v: &mut [f64],
+        w: &mut [f64],
+    ) -> (Vector3<f64>, Option<Matrix3<f64>>) {
+        let re = self.field.radius_km;
+        let top = if gradient {
+            self.degree + 2
+        } else {
+            self.degree + 1
         };
-        t.k.push([kz * c, kz * s, kp * c, kp * s, km * c, km * s]);
+        self.solid_harmonics(r, top, v, w);
+        // The contraction reads whole blocks: the entries past the recursion's must be
+        // zero (the weights there are, but a stale NaN times zero is not).
+        let filled = self.rows.through(top);
+        let read = if gradient {
+            self.gradient.len()
+        } else {
+            self.acceleration.len()
+        };
+        v[filled..read].fill(0.0);
+        w[filled..read].fill(0.0);
+        let k = self.field.gm_km3_s2 / (re * re);
+        let a = self.acceleration.apply(v, w);
+        let acc = Vector3::new(a[0], a[1], a[2]) * k;
+        if !gradient {
+            return (acc, None);
+        }
+        let [xx, xy, xz, yy, yz, zz] = self.gradient.apply(v, w).map(|g| g * k / re);
+        (acc, Some(Matrix3::new(xx, xy, xz, xy, yy, yz, xz, yz, zz)))
     }
-    t
+
+    /// V̄ₙₘ, W̄ₙₘ at Earth-fixed `r` (km) for rows n ≤ `top`, into `v`, `w`.
+    #[inline(always)]
+    fn solid_harmonics(&self, r: &Vector3<f64>, top: usize, v: &mut [f64], w: &mut [f64]) {
+        let rows = &self.rows;
+        let re = self.field.radius_km;
+        let r2 = r.norm_squared();
+        let rho = re / r2;
+        let (x0, y0, z0, rr) = (r[0] * rho, r[1] * rho, r[2] * rho, re * rho);
+        v[0] = re / r2.sqrt();
+        w[0] = 0.0;
+        for n in 1..=top {
+            let (s2, s1, s0, end) = (
+                rows.start[n.saturating_sub(2)],
+                rows.start[n - 1],
+                rows.start[n],
+                rows.start[n + 1],
+            );
+            let (v_lo, v_row) = v[..end].split_at_mut(s0);
+            let (w_lo, w_row) = w[..end].split_at_mut(s0);
+            let (vp, wp) = (&v_lo[s1..], &w_lo[s1..]);
+            let (a, b) = (&self.a[s0..end], &self.b[s0..end]);
+            // Orders below n − 1: the three-term recursion, independent across orders.
+            let three = if n >= 2 { s1 - s2 } else { 0 };
+            let (vpp, wpp) = (&v_lo[s2..s2 + three], &w_lo[s2..s2 + three]);
+            for m in 0..three {
+                let (az, br) = (a[m] * z0, b[m] * rr);
+                v_row[m] = az * vp[m] - br * vpp[m];
+                w_row[m] = az * wp[m] - br * wpp[m];
+            }
+            // Order n − 1 (no degree n − 2 term) and the diagonal, when held.
+            let width = rows.width(n);
+            if n - 1 < width {
+                let az = a[n - 1] * z0;
+                v_row[n - 1] = az * vp[n - 1];
+                w_row[n - 1] = az * wp[n - 1];
+            }
+            if n < width {
+                let d = self.diag[n];
+                v_row[n] = d * (x0 * vp[n - 1] - y0 * wp[n - 1]);
+                w_row[n] = d * (x0 * wp[n - 1] + y0 * vp[n - 1]);
+            }
+        }
+    }
 }
 
 #[cfg(test)]

@@ -47,6 +47,8 @@ impl Force for FieldGravity {
     }
 
     fn partials(&self, t_s: f64, x: &StateVector) -> Result<Matrix3x6<f64>, ForceError> {
+        // One rotation and one recursion serve the whole gradient (analytic, from the
+        // same weights as the acceleration, in `Harmonics`).
         let m = self.earth.at(self.tt0_s + t_s).gcrf_to_itrf();
         let r = m * Vector3::new(x[0], x[1], x[2]);
         let g = m.transpose() * self.harmonics.gradient(&r) * m;
