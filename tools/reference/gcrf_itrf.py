@@ -37,6 +37,29 @@ def tai_of_mjd(mjd):
     return erfa.utctai(2400000.5, float(mjd))
 
 
+def gcrf_to_itrf(rows, tai1, tai2):
+    """The GCRF -> ITRF matrix at the two-part TAI Julian date, EOP from `rows`."""
+    u1, u2 = erfa.taiutc(tai1, tai2)
+    tt1, tt2 = erfa.taitt(tai1, tai2)
+    mjd = int(np.floor((u1 - 2400000.5) + u2))
+    a1, a2 = tai_of_mjd(mjd)
+    b1, b2 = tai_of_mjd(mjd + 1)
+    f = ((tai1 - a1) + (tai2 - a2)) / ((b1 - a1) + (b2 - a2))
+    va, vb = rows[mjd], rows[mjd + 1]
+    dat_a = erfa.dat(*erfa.jd2cal(2400000.5, float(mjd))[:3], 0.0)
+    dat_b = erfa.dat(*erfa.jd2cal(2400000.5, float(mjd + 1))[:3], 0.0)
+    ut1_tai = (va[2] - dat_a) + f * ((vb[2] - dat_b) - (va[2] - dat_a))
+    xp, yp, dx, dy = (va[i] + f * (vb[i] - va[i]) for i in (0, 1, 3, 4))
+    ut11, ut12 = erfa.taiut1(tai1, tai2, ut1_tai)
+    x, y, s06 = erfa.xys06a(tt1, tt2)
+    x += dx * 1e-3 * AS2R
+    y += dy * 1e-3 * AS2R
+    q = erfa.c2ixys(x, y, s06)
+    era = erfa.era00(ut11, ut12)
+    w = erfa.pom00(xp * AS2R, yp * AS2R, erfa.sp00(tt1, tt2))
+    return erfa.c2tcio(q, era, w)
+
+
 def main(root: Path):
     rows = eop_rows()
     rng = np.random.default_rng(20261202)
@@ -51,24 +74,7 @@ def main(root: Path):
         utc = f"{iy:04d}-{im:02d}-{iday:02d}T{h:02d}:{m:02d}:{s:02d}.{frac:03d}Z"
         u1, u2 = erfa.dtf2d("UTC", iy, im, iday, h, m, sec)
         tai1, tai2 = erfa.utctai(u1, u2)
-        tt1, tt2 = erfa.taitt(tai1, tai2)
-        mjd = int(np.floor((u1 - 2400000.5) + u2))
-        a1, a2 = tai_of_mjd(mjd)
-        b1, b2 = tai_of_mjd(mjd + 1)
-        f = ((tai1 - a1) + (tai2 - a2)) / ((b1 - a1) + (b2 - a2))
-        va, vb = rows[mjd], rows[mjd + 1]
-        dat_a = erfa.dat(*erfa.jd2cal(2400000.5, float(mjd))[:3], 0.0)
-        dat_b = erfa.dat(*erfa.jd2cal(2400000.5, float(mjd + 1))[:3], 0.0)
-        ut1_tai = (va[2] - dat_a) + f * ((vb[2] - dat_b) - (va[2] - dat_a))
-        xp, yp, dx, dy = (va[i] + f * (vb[i] - va[i]) for i in (0, 1, 3, 4))
-        ut11, ut12 = erfa.taiut1(tai1, tai2, ut1_tai)
-        x, y, s06 = erfa.xys06a(tt1, tt2)
-        x += dx * 1e-3 * AS2R
-        y += dy * 1e-3 * AS2R
-        q = erfa.c2ixys(x, y, s06)
-        era = erfa.era00(ut11, ut12)
-        w = erfa.pom00(xp * AS2R, yp * AS2R, erfa.sp00(tt1, tt2))
-        mat = erfa.c2tcio(q, era, w)
+        mat = gcrf_to_itrf(rows, tai1, tai2)
         cases.append({"utc": utc, "gcrf_to_itrf": [[float(v) for v in r] for r in mat]})
     out = {"source": f"pyerfa {erfa.__version__}, EOP from astropy-iers-data "
                      f"{astropy_iers_data.__version__} finals2000A.all; see tools/reference/gcrf_itrf.py",
