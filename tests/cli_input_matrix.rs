@@ -539,6 +539,29 @@ fn bad_inputs(d: &Path, good: &Inputs) -> Vec<Bad> {
         &mut bad,
         d,
         Forces,
+        "solid tides without a field",
+        "tides-zonal-forces.yaml",
+        Some("gravity: { zonal_degree: 2, solid_tides: true }\n".into()),
+    );
+    write(
+        d,
+        "mean-tide.gfc",
+        &good_gfc.replace("end_of_head", "tide_system mean_tide\nend_of_head"),
+    );
+    bad.push(Bad {
+        role: Forces,
+        what: "solid tides on a mean-tide field",
+        needle: "mean-tide.gfc".into(),
+        path: write(
+            d,
+            "forces-mean-tide.yaml",
+            "gravity: { field: mean-tide.gfc, degree: 3, solid_tides: true }\n",
+        ),
+    });
+    add(
+        &mut bad,
+        d,
+        Forces,
         "plugin missing",
         "plugin-missing-forces.yaml",
         Some("gravity: { zonal_degree: 2 }\nplugins: [no-such-plugin.so]\n".into()),

@@ -297,6 +297,10 @@ pub struct GravitySpec {
     /// Order of the full field (≤ degree; the degree when absent).
     #[serde(default)]
     pub order: Option<usize>,
+    /// Solid Earth tides raised by the Sun and Moon on the field's degree-2 coefficients
+    /// (IERS Conventions 2010 §6.2.1, step 1).
+    #[serde(default)]
+    pub solid_tides: bool,
 }
 
 /// `earth_orientation:` block.
@@ -330,6 +334,9 @@ impl GravitySpec {
             (None, None) if self.order.is_some() => {
                 Err("gravity.order is for a full field: add field and degree".into())
             }
+            (None, _) if self.solid_tides => Err(
+                "gravity.solid_tides is for a full field: add field: egm2008 and a degree".into(),
+            ),
             _ => Ok(()),
         }
     }
@@ -359,6 +366,10 @@ impl GravitySpec {
             std::sync::Arc::new(crate::earth::gfc::read(&base.join(field), Some(degree))?)
         };
         let mu = field.gm_km3_s2;
+        let tides = match self.solid_tides {
+            true => Some(crate::earth::SolidTides::new(&field)?),
+            false => None,
+        };
         let harmonics = crate::earth::Harmonics::new(field, degree, self.order.unwrap_or(degree))?;
         let earth = match orientation {
             Some(o) => crate::earth::EarthOrientation::new(std::sync::Arc::new(
@@ -366,11 +377,15 @@ impl GravitySpec {
             )),
             None => crate::earth::EarthOrientation::shipped()?,
         };
-        let force = crate::force::field::FieldGravity::new(
+        let mut force = crate::force::field::FieldGravity::new(
             harmonics,
             earth,
             reference.tt_seconds_since_j2000(),
         );
+        if let Some(tides) = tides {
+            force =
+                force.with_solid_tides(tides, crate::solar_system::CenturyClock::new(reference));
+        }
         Ok((mu, Some(Box::new(force))))
     }
 }

@@ -86,6 +86,7 @@ pub fn parse(text: &str, origin: &str, degree: Option<usize>) -> Result<GravityF
         radius * 1e-3,
         n_max,
     );
+    field.tide_system = tide;
     let mut seen = vec![false; (max_degree + 1) * (max_degree + 2) / 2];
     for (i, line) in lines {
         let at = |e: String| format!("{origin}:{}: {e}", i + 1);

@@ -26,6 +26,9 @@ pub struct GravityField {
     pub radius_km: f64,
     /// Highest degree held.
     pub max_degree: usize,
+    /// The file's `tide_system` (`tide_free`, `zero_tide`, `mean_tide`), `unknown` if not
+    /// stated.
+    pub tide_system: String,
     c: Vec<f64>,
     s: Vec<f64>,
 }
@@ -47,6 +50,7 @@ impl GravityField {
             gm_km3_s2,
             radius_km,
             max_degree,
+            tide_system: "unknown".into(),
             c,
             s: vec![0.0; len],
         }

@@ -2,7 +2,8 @@
 //! and rotated to GCRF through the IAU 2006/2000A chain with Earth-orientation data.
 
 use super::{Force, ForceError};
-use crate::earth::{EarthOrientation, Harmonics};
+use crate::earth::{EarthOrientation, Harmonics, SolidTides};
+use crate::solar_system::{Body, CenturyClock};
 use crate::state::StateVector;
 use nalgebra::{Matrix3x6, Vector3};
 
@@ -14,6 +15,8 @@ pub struct FieldGravity {
     /// TT seconds since J2000.0 at t_s = 0 of the model's time axis.
     tt0_s: f64,
     name: String,
+    /// Solid Earth tides raised by the Sun and Moon (their series on this clock).
+    tides: Option<(SolidTides, CenturyClock)>,
 }
 
 impl FieldGravity {
@@ -26,7 +29,16 @@ impl FieldGravity {
             harmonics,
             earth,
             tt0_s,
+            tides: None,
         }
+    }
+
+    /// With solid Earth tides on the degree-2 coefficients, the Sun and Moon taken from
+    /// their series on `clock` (the model's time axis).
+    pub fn with_solid_tides(mut self, tides: SolidTides, clock: CenturyClock) -> Self {
+        self.name.push_str("_solid_tides");
+        self.tides = Some((tides, clock));
+        self
     }
 
     /// The field evaluated.
@@ -43,7 +55,13 @@ impl Force for FieldGravity {
     fn acceleration(&self, t_s: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
         let m = self.earth.at(self.tt0_s + t_s).gcrf_to_itrf();
         let r = m * Vector3::new(x[0], x[1], x[2]);
-        Ok(m.transpose() * self.harmonics.acceleration(&r))
+        let mut a = self.harmonics.acceleration(&r);
+        if let Some((tides, clock)) = &self.tides {
+            let t_c = clock.centuries(t_s);
+            let bodies = [Body::Sun, Body::Moon].map(|b| (m * b.position_km(t_c), b.mu_km3_s2()));
+            a += tides.acceleration(&r, &bodies);
+        }
+        Ok(m.transpose() * a)
     }
 
     fn partials(&self, t_s: f64, x: &StateVector) -> Result<Matrix3x6<f64>, ForceError> {
