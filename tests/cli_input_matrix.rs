@@ -350,7 +350,7 @@ fn bad_inputs(d: &Path, good: &Inputs) -> Vec<Bad> {
         )),
     );
     // A quarter of a revolution with velocities: enough for a fit, too short to learn
-    // a force or rank maneuvers.
+    // a force (only a quiet verdict is given on it) or rank maneuvers.
     add(
         &mut bad,
         d,
@@ -1090,10 +1090,11 @@ fn every_command_refuses_every_bad_input_it_reads_with_one_message_and_no_output
         for b in bad.iter().filter(|b| roles.contains(&b.role)) {
             // `check` compares predictions with whatever next arc it is given; a short
             // one is a weak check, not a bad input (its report says how many points).
-            // A fit needs no full revolution either.
+            // A fit needs no full revolution either, and `learn` gives a quiet verdict on
+            // one (with a note; an anomalous short arc is refused: tests/real_gnss.rs).
             let short = matches!(b.what, "two points" | "a quarter revolution");
             if (command == "check" && short)
-                || (command == "fit" && b.what == "a quarter revolution")
+                || (matches!(command, "fit" | "learn") && b.what == "a quarter revolution")
             {
                 continue;
             }

@@ -15,7 +15,7 @@ use std::path::{Path, PathBuf};
 /// Options of `arcwise fit`.
 #[derive(ClapArgs, Debug)]
 pub struct Args {
-    /// Observation arc (.csv or .oem).
+    /// Observation arc (.csv, .oem or .sp3).
     #[arg(long, value_name = "ARC.csv")]
     arc: PathBuf,
     /// Known force model.

@@ -26,7 +26,7 @@ use std::time::Duration;
 /// Options of `arcwise learn`.
 #[derive(ClapArgs, Debug)]
 pub struct Args {
-    /// Observation arc (.csv or .oem).
+    /// Observation arc (.csv, .oem or .sp3).
     #[arg(long, value_name = "ARC.csv")]
     arc: PathBuf,
     /// Known force model.

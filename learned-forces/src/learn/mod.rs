@@ -336,10 +336,14 @@ impl Learner<'_> {
         Ok((sol, train_fit, rms))
     }
 
-    /// The base fit, refused when the arc is shorter than one revolution of the fitted
-    /// orbit: over less than a revolution a small force and a change of the orbit itself
-    /// cannot be told apart, so "no anomaly" or a learned term would both be unfounded.
-    fn base_fit(&self, fit_observer: &mut dyn FitObserver) -> Result<FitResult, LearnError> {
+    /// The base fit, and whether the arc is shorter than one revolution of the fitted
+    /// orbit (its span and the period, s): over less than a revolution a small force and a
+    /// change of the orbit itself cannot be told apart, so a term learned there would be
+    /// unfounded — but a quiet verdict still says the known forces explain the arc.
+    fn base_fit(
+        &self,
+        fit_observer: &mut dyn FitObserver,
+    ) -> Result<(FitResult, Option<ShortArc>), LearnError> {
         let base = fit(self.arc, self.model()?, &self.options.fit, fit_observer)?;
         let span_s = self.arc.end().seconds_since(&self.arc.start());
         let mu = propagator::CentralBody::EARTH_EGM96.mu_km3_s2;
@@ -353,14 +357,10 @@ impl Learner<'_> {
         }
         let a = -mu / (2.0 * energy);
         let period_s = std::f64::consts::TAU * (a * a * a / mu).sqrt();
-        if span_s < period_s {
-            return Err(LearnError::Unfit(format!(
-                "the arc spans {:.1} min, less than one revolution ({:.1} min): too short to tell a force from a change of the orbit; give at least one revolution (a day or more is usual)",
-                span_s / 60.0,
-                period_s / 60.0
-            )));
-        }
-        Ok(base)
+        Ok((
+            base,
+            (span_s < period_s).then_some(ShortArc { span_s, period_s }),
+        ))
     }
 
     fn model(&self) -> Result<ForceModel, LearnError> {
@@ -602,7 +602,10 @@ pub fn linearize(
         options,
         context,
     };
-    let base = l.base_fit(fit_observer)?;
+    let (base, short) = l.base_fit(fit_observer)?;
+    if let Some(short) = short {
+        return Err(short.refusal());
+    }
     let problem = l.problem(arc, &base)?;
     Ok((base, problem))
 }
@@ -687,7 +690,33 @@ pub fn canonical_key(n: &Node) -> String {
     format!("{:06}|{directions}|{trig}|{text}", n.complexity())
 }
 
+/// An arc shorter than one revolution of its fitted orbit.
+struct ShortArc {
+    span_s: f64,
+    period_s: f64,
+}
+
+impl ShortArc {
+    fn span(&self) -> String {
+        format!(
+            "the arc spans {:.1} min, less than one revolution ({:.1} min)",
+            self.span_s / 60.0,
+            self.period_s / 60.0
+        )
+    }
+
+    /// Why nothing can be learned on it.
+    fn refusal(&self) -> LearnError {
+        LearnError::Unfit(format!(
+            "{}: too short to tell a force from a change of the orbit; give at least one revolution (a day or more is usual)",
+            self.span()
+        ))
+    }
+}
+
 /// Learns the missing force of `arc` under the known forces `make_model(epoch)` builds.
+/// On an arc shorter than one revolution only a quiet verdict is given (with a note); an
+/// anomalous one is refused.
 pub fn learn(
     arc: &Arc,
     make_model: &(dyn Fn(Epoch) -> Result<ForceModel, String> + Sync),
@@ -702,8 +731,17 @@ pub fn learn(
         options,
         context,
     };
-    let base = l.base_fit(fit_observer)?;
+    let (base, short) = l.base_fit(fit_observer)?;
     let mut notes = Vec::new();
+    if let Some(short) = short {
+        if base.verdict.anomaly {
+            return Err(short.refusal());
+        }
+        notes.push(format!(
+            "{}: the known forces explain it, but a small force could hide in the orbit's own adjustment over so short an arc",
+            short.span()
+        ));
+    }
     if !base.verdict.anomaly {
         notes.push("the base fit's verdict is no_anomaly: the known forces explain the arc; nothing was learned".into());
         return Ok(Learned {
