@@ -393,3 +393,82 @@ fn an_oem_across_an_impulsive_maneuver_is_split_into_segments() {
     ]);
     assert_eq!(code, 0, "{err}");
 }
+
+#[test]
+fn writes_its_ephemeris_in_the_frame_asked_for() {
+    // An OEM in ITRF or EME2000 names its frame and reads back (rotated to GCRF) as the
+    // GCRF run; a CSV in ITRF holds Earth-fixed positions (same radius, other direction,
+    // and a velocity without the Earth's rotation). The rotation itself is checked against
+    // pyerfa in tests/earth_orientation.rs.
+    let dir = tempfile::tempdir().unwrap();
+    let f = write(dir.path(), "forces.yaml", FORCES);
+    let s = write(dir.path(), "state.yaml", STATE);
+    let run = |name: &str, frame: &str| {
+        let out = dir.path().join(name);
+        let (code, stdout, stderr) = arcwise(&[
+            "propagate",
+            "--forces",
+            f.to_str().unwrap(),
+            "--state",
+            s.to_str().unwrap(),
+            "--to",
+            "2031-05-04T14:00:00Z",
+            "--step",
+            "600",
+            "--frame",
+            frame,
+            "--out",
+            out.to_str().unwrap(),
+        ]);
+        assert_eq!(code, 0, "{stdout}{stderr}");
+        out
+    };
+    let load = |p: &Path| {
+        propagator::ephemeris::Ephemeris::load(p, &propagator::CentralBody::EARTH_EGM96).unwrap()
+    };
+    let gcrf = load(&run("g.oem", "GCRF"));
+    for frame in ["ITRF", "EME2000"] {
+        let path = run(&format!("{frame}.oem"), frame);
+        let text = std::fs::read_to_string(&path).unwrap();
+        assert!(text.contains(&format!("REF_FRAME = {frame}\n")), "{text}");
+        let back = load(&path);
+        for (a, b) in back.points.iter().zip(&gcrf.points) {
+            let d = (a.state - b.state).fixed_rows::<3>(0).norm();
+            assert!(d < 1e-8, "{frame}: {d} km");
+        }
+    }
+    let csv = std::fs::read_to_string(run("i.csv", "ITRF")).unwrap();
+    let row: Vec<f64> = csv
+        .lines()
+        .nth(4)
+        .unwrap()
+        .split(',')
+        .skip(1)
+        .map(|v| v.parse().unwrap())
+        .collect();
+    let g = gcrf.points[3].state;
+    let (ri, rg) = (
+        nalgebra::Vector3::new(row[0], row[1], row[2]),
+        g.fixed_rows::<3>(0).into_owned(),
+    );
+    assert!((ri.norm() - rg.norm()).abs() < 1e-8);
+    assert!((ri - rg).norm() > 100.0, "{ri} vs {rg}");
+    let (code, _, err) = arcwise(&[
+        "propagate",
+        "--forces",
+        f.to_str().unwrap(),
+        "--state",
+        s.to_str().unwrap(),
+        "--to",
+        "2031-05-04T14:00:00Z",
+        "--step",
+        "600",
+        "--frame",
+        "TEME",
+        "--out",
+        dir.path().join("t.oem").to_str().unwrap(),
+    ]);
+    assert_eq!(code, 2);
+    assert!(err.contains("--frame TEME"), "{err}");
+    assert!(!dir.path().join("t.oem").exists());
+}

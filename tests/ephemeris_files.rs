@@ -27,6 +27,7 @@ fn sample() -> Ephemeris {
         object_id: "2031-042A".into(),
         points,
         segment_starts: vec![],
+        frame: Default::default(),
     }
 }
 

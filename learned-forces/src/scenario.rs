@@ -507,6 +507,7 @@ impl ScenarioSpec {
             object_id: String::new(),
             points: Vec::new(),
             segment_starts: vec![],
+            frame: Default::default(),
         };
         for (ts, x) in &p.samples {
             truth.points.push(EphemerisPoint {

@@ -4,6 +4,7 @@
 //! RTN: R = r/|r|, N = (r×v)/|r×v|, T = N×R. For a circular orbit T is the velocity
 //! direction ("along-track"); N is the orbit normal ("cross-track").
 
+use crate::state::StateVector;
 use nalgebra::{Matrix3, Vector3};
 
 /// The rotation whose rows are R, T and N in ECI, so `m * v_eci = v_rtn`.
@@ -94,9 +95,10 @@ mod tests {
 }
 
 /// A reference frame a file may name (CCSDS registry names).
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
 pub enum Frame {
     /// GCRF, arcwise's inertial frame (ICRF axes, the same to the mas here).
+    #[default]
     Gcrf,
     /// EME2000: J2000 mean equator and equinox, the frame bias (~23 mas) from GCRF.
     Eme2000,
@@ -114,10 +116,20 @@ impl Frame {
             _ => None,
         }
     }
+
+    /// The name arcwise writes (OEM `REF_FRAME`): `GCRF`, `EME2000` or `ITRF` (the
+    /// realization is the Earth-orientation data's).
+    pub fn keyword(&self) -> &'static str {
+        match self {
+            Frame::Gcrf => "GCRF",
+            Frame::Eme2000 => "EME2000",
+            Frame::Itrf => "ITRF",
+        }
+    }
 }
 
-/// Rotates positions and states from one named frame to GCRF (ITRF with the shipped IERS
-/// Earth-orientation data).
+/// Rotates positions and states between one named frame and GCRF (ITRF with the shipped
+/// IERS Earth-orientation data).
 pub struct ToGcrf {
     frame: Frame,
     bias: Matrix3<f64>,
@@ -159,5 +171,19 @@ impl ToGcrf {
                 }
             }
         }
+    }
+
+    /// The inverse: a GCRF state (km, km/s) at `epoch` in this frame.
+    pub fn state_from_gcrf(&self, epoch: &crate::Epoch, x: &StateVector) -> StateVector {
+        let (r, v) = (
+            Vector3::new(x[0], x[1], x[2]),
+            Vector3::new(x[3], x[4], x[5]),
+        );
+        let (r, v) = match (self.frame, &self.earth) {
+            (Frame::Gcrf, _) | (Frame::Itrf, None) => (r, v),
+            (Frame::Eme2000, _) => (self.bias.transpose() * r, self.bias.transpose() * v),
+            (Frame::Itrf, Some(e)) => e.at(epoch.tt_seconds_since_j2000()).state_to_itrf(&r, &v),
+        };
+        StateVector::new(r[0], r[1], r[2], v[0], v[1], v[2])
     }
 }

@@ -34,6 +34,16 @@ pub struct ArcOptions {
     pub frame: String,
 }
 
+/// The frame a `--frame` value names, or an error saying which are known.
+pub fn frame_option(value: &str) -> Result<propagator::frames::Frame, CliError> {
+    propagator::frames::Frame::from_keyword(value).ok_or_else(|| {
+        CliError::input(format!(
+            "--frame {}: GCRF, EME2000 or ITRF",
+            propagator::text::sanitized(value)
+        ))
+    })
+}
+
 impl ArcOptions {
     /// The arc reader's defaults, or an error naming the bad option.
     pub fn defaults(&self) -> Result<ArcDefaults, CliError> {
@@ -46,12 +56,7 @@ impl ArcOptions {
         if let Some(o) = &self.object {
             propagator::text::check_name("--object", o).map_err(CliError::input)?;
         }
-        let frame = propagator::frames::Frame::from_keyword(&self.frame).ok_or_else(|| {
-            CliError::input(format!(
-                "--frame {}: GCRF, EME2000 or ITRF",
-                propagator::text::sanitized(&self.frame)
-            ))
-        })?;
+        let frame = frame_option(&self.frame)?;
         Ok(ArcDefaults {
             sigma_km: self.sigma_km,
             object: self.object.clone(),

@@ -6,6 +6,7 @@ use crate::report::{state_json, write_report};
 use clap::Args as ClapArgs;
 use propagator::config::{ForcesFile, InitialState, StateFile};
 use propagator::ephemeris::{Ephemeris, EphemerisPoint, Format};
+use propagator::frames::Frame;
 use propagator::integrator::{Method, Settings};
 use propagator::propagation::{checked_output_grid, propagate, Options, Request, Termination};
 use propagator::{Epoch, TimeAxis};
@@ -31,6 +32,12 @@ pub struct Args {
     /// Output ephemeris; the format follows the extension (.oem or .csv).
     #[arg(long, value_name = "FILE")]
     out: PathBuf,
+    /// Frame of the written states: GCRF (default), EME2000 or ITRF (Earth-fixed, through
+    /// the shipped IERS Earth-orientation data). An OEM names it in REF_FRAME; a CSV does
+    /// not, so say it when the file is read back (`--frame`). A CSV --state is read as
+    /// GCRF.
+    #[arg(long, value_name = "FRAME", default_value = "GCRF")]
+    frame: String,
     /// Integrator: rk4 (fixed step), dp54 or dp853 (adaptive).
     #[arg(long, default_value = "dp853", value_name = "NAME")]
     integrator: String,
@@ -161,6 +168,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
             ("--report", a.report.as_deref()),
         ]),
     )?;
+    let frame = super::frame_option(&a.frame)?;
     let method = Method::parse(&a.integrator).ok_or_else(|| {
         CliError::input(format!(
             "--integrator {}: expected rk4, dp54 or dp853",
@@ -238,7 +246,10 @@ pub fn run(a: Args) -> Result<(), CliError> {
         object_id: initial.object_id.clone().unwrap_or_default(),
         points,
         segment_starts,
-    };
+        frame: Frame::Gcrf,
+    }
+    .in_frame(frame)
+    .map_err(CliError::input)?;
     eph.save(&a.out).map_err(CliError::input)?;
 
     let (t_fin, x_fin) = result.final_state;
@@ -293,6 +304,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
             "force_evaluations": stats.evaluations,
             "wall_s": wall_s,
             "output_file": a.out.display().to_string(),
+            "output_frame": frame.keyword(),
         });
         write_report(path, &report)?;
     }

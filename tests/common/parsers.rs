@@ -218,6 +218,7 @@ fn example_ephemeris() -> Ephemeris {
         object_name: "FUZZ-1".into(),
         object_id: "2031-999A".into(),
         segment_starts: vec![],
+        frame: Default::default(),
         points: (0..6)
             .map(|k| {
                 let a = 0.0011 * 60.0 * k as f64;

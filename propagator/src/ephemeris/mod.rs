@@ -35,9 +35,37 @@ pub struct Ephemeris {
     /// Index in `points` of the first state of each OEM segment after the first (empty
     /// for one segment). States are never interpolated across a segment boundary.
     pub segment_starts: Vec<usize>,
+    /// The frame of the states: GCRF everywhere inside arcwise (readers convert); another
+    /// frame only on the way out (an OEM names it in `REF_FRAME`).
+    pub frame: crate::frames::Frame,
 }
 
 impl Ephemeris {
+    /// This GCRF ephemeris with its states in `frame` (ITRF through the shipped IERS
+    /// Earth-orientation data, velocities included).
+    pub fn in_frame(&self, frame: crate::frames::Frame) -> Result<Ephemeris, String> {
+        if self.frame != crate::frames::Frame::Gcrf {
+            return Err(format!(
+                "the ephemeris is in {}, not GCRF",
+                self.frame.keyword()
+            ));
+        }
+        let rotate = crate::frames::ToGcrf::new(frame)?;
+        let points = self
+            .points
+            .iter()
+            .map(|p| EphemerisPoint {
+                epoch: p.epoch,
+                state: rotate.state_from_gcrf(&p.epoch, &p.state),
+            })
+            .collect();
+        Ok(Ephemeris {
+            points,
+            frame,
+            ..self.clone()
+        })
+    }
+
     /// The index ranges of the segments in `points`.
     pub fn segments(&self) -> Vec<std::ops::Range<usize>> {
         let mut bounds = vec![0];

@@ -31,14 +31,20 @@ pub fn format(eph: &Ephemeris) -> String {
     };
     let mut s = String::with_capacity(512 + eph.points.len() * 140);
     s.push_str("CCSDS_OEM_VERS = 2.0\n");
-    s.push_str("COMMENT Written by arcwise; states in GCRF\n");
+    let frame = eph.frame.keyword();
+    s.push_str(&format!("COMMENT Written by arcwise; states in {frame}\n"));
+    if eph.frame == Frame::Itrf {
+        s.push_str("COMMENT Earth-fixed through the IERS Earth-orientation data arcwise ships\n");
+    }
     s.push_str(&format!("CREATION_DATE = {}\n", creation_date()));
     s.push_str("ORIGINATOR = ARCWISE\n");
     for (k, seg) in eph.segments().into_iter().enumerate() {
         let pts = &eph.points[seg];
         s.push_str("\nMETA_START\n");
         s.push_str(&format!("OBJECT_NAME = {name}\nOBJECT_ID = {id}\n"));
-        s.push_str("CENTER_NAME = EARTH\nREF_FRAME = GCRF\nTIME_SYSTEM = UTC\n");
+        s.push_str(&format!(
+            "CENTER_NAME = EARTH\nREF_FRAME = {frame}\nTIME_SYSTEM = UTC\n"
+        ));
         if let (Some(a), Some(b)) = (pts.first(), pts.last()) {
             s.push_str(&format!(
                 "START_TIME = {}\nSTOP_TIME = {}\n",
