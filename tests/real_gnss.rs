@@ -363,3 +363,47 @@ fn a_csv_arc_in_itrf_fits_as_the_sp3_file_does_and_not_when_taken_as_gcrf() {
         .unwrap();
     assert!(wrong > 1.0, "{wrong} km");
 }
+
+#[test]
+fn the_arc_and_the_field_share_the_earth_orientation_that_forces_yaml_names() {
+    // A copy of the IERS finals2000A excerpt with UT1 − UTC 10 ms later, named in
+    // forces.yaml: the SP3 positions must turn into GCRF through it too (not through the
+    // shipped table), so the fitted orbit is the shipped one turned by ω·10 ms about the
+    // pole (≈ 19 m at GPS radius) and fits as well.
+    let dir = tempfile::tempdir().unwrap();
+    let src = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/data/eop/finals2000A_2021-04.txt"
+    ))
+    .unwrap();
+    let shifted: String = src
+        .lines()
+        .map(|l| {
+            let ut1: f64 = l[58..68].trim().parse().unwrap();
+            format!("{}{:>10.7}{}\n", &l[..58], ut1 + 0.010, &l[68..])
+        })
+        .collect();
+    std::fs::write(dir.path().join("eop-shifted.txt"), shifted).unwrap();
+    let g = "{ field: egm2008, degree: 12 }";
+    let gs = "{ field: egm2008, degree: 12 }\nearth_orientation: { file: eop-shifted.txt }";
+    let (a, b) = (
+        fit(dir.path(), "G05", g, COD, "0.02", &[]),
+        fit(dir.path(), "G05", gs, COD, "0.02", &[]),
+    );
+    let r = |j: &serde_json::Value| {
+        let v: Vec<f64> = (0..3)
+            .map(|i| j["state_first"]["r_km"][i].as_f64().unwrap())
+            .collect();
+        nalgebra::Vector3::new(v[0], v[1], v[2])
+    };
+    let (ra, rb) = (r(&a), r(&b));
+    let want = 7.292_115e-5 * 0.010 * ra[0].hypot(ra[1]);
+    let got = (rb - ra).norm();
+    assert!(
+        (got / want - 1.0).abs() < 0.05,
+        "moved {got} km, expected {want} km"
+    );
+    for j in [&a, &b] {
+        assert!(j["rms_km"].as_f64().unwrap() < 2e-4, "{}", j["rms_km"]);
+    }
+}

@@ -36,7 +36,7 @@ pub struct Arc {
 }
 
 /// Defaults for what a file may leave out.
-#[derive(Clone, Debug, PartialEq)]
+#[derive(Clone, Debug)]
 pub struct ArcDefaults {
     /// σ for rows without `sigma_km`, km.
     pub sigma_km: f64,
@@ -46,6 +46,9 @@ pub struct ArcDefaults {
     pub object: Option<String>,
     /// The frame of a CSV arc's states (rotated to GCRF on reading).
     pub csv_frame: Frame,
+    /// Earth-orientation data for Earth-fixed inputs (SP3, ITRF CSV or OEM): the force
+    /// model's, so arc and field share one Earth; the shipped table if `None`.
+    pub earth: Option<propagator::earth::EarthOrientation>,
 }
 
 impl Default for ArcDefaults {
@@ -55,6 +58,7 @@ impl Default for ArcDefaults {
             sigma_km_s: 1e-5,
             object: None,
             csv_frame: Frame::Gcrf,
+            earth: None,
         }
     }
 }
@@ -95,12 +99,12 @@ impl Arc {
                         })
                         .collect(),
                 };
-                arc.rotate_to_gcrf(defaults.csv_frame)
+                arc.rotate_to_gcrf(defaults.csv_frame, &defaults)
                     .map_err(|e| file_error_at(path, None, e))?;
                 arc
             }
             Some("oem") => {
-                let (eph, lines) = oem::parse(text, path)?;
+                let (eph, lines) = oem::parse_with(text, path, defaults.earth.as_ref())?;
                 Arc {
                     observations: eph
                         .points
@@ -137,7 +141,7 @@ impl Arc {
     }
 
     /// The positions of one satellite of an SP3 file (`defaults.object`), rotated from
-    /// the file's Earth-fixed frame to GCRF with the shipped IERS Earth-orientation table.
+    /// the file's Earth-fixed frame to GCRF with `defaults.earth`.
     fn from_sp3(text: &str, path: &Path, defaults: &ArcDefaults) -> Result<Arc, FileError> {
         let sp3 = Sp3::parse(text, path)?;
         let Some(id) = defaults.object.as_deref() else {
@@ -165,14 +169,14 @@ impl Arc {
             })
             .collect();
         let mut arc = Arc { observations };
-        arc.rotate_to_gcrf(Frame::Itrf)
+        arc.rotate_to_gcrf(Frame::Itrf, defaults)
             .map_err(|e| file_error_at(path, None, e))?;
         Ok(arc)
     }
 
     /// Rotates positions (and velocities, if observed) from `frame` to GCRF.
-    fn rotate_to_gcrf(&mut self, frame: Frame) -> Result<(), String> {
-        let rotate = ToGcrf::new(frame)?;
+    fn rotate_to_gcrf(&mut self, frame: Frame, defaults: &ArcDefaults) -> Result<(), String> {
+        let rotate = ToGcrf::with_earth(frame, defaults.earth.as_ref())?;
         for o in &mut self.observations {
             (o.r_km, o.v_km_s) = rotate.apply(&o.epoch, o.r_km, o.v_km_s);
         }

@@ -311,6 +311,16 @@ pub struct EarthOrientationSpec {
     pub file: String,
 }
 
+impl EarthOrientationSpec {
+    /// The Earth orientation from this file (relative to `forces_path`'s folder).
+    pub fn load(&self, forces_path: &Path) -> Result<crate::earth::EarthOrientation, String> {
+        let base = forces_path.parent().unwrap_or(Path::new("."));
+        Ok(crate::earth::EarthOrientation::new(std::sync::Arc::new(
+            crate::earth::EopTable::read(&base.join(&self.file))?,
+        )))
+    }
+}
+
 impl GravitySpec {
     /// Checks the combination of keys.
     fn validate(&self) -> Result<(), String> {
@@ -372,9 +382,7 @@ impl GravitySpec {
         };
         let harmonics = crate::earth::Harmonics::new(field, degree, self.order.unwrap_or(degree))?;
         let earth = match orientation {
-            Some(o) => crate::earth::EarthOrientation::new(std::sync::Arc::new(
-                crate::earth::EopTable::read(&base.join(&o.file))?,
-            )),
+            Some(o) => o.load(path)?,
             None => crate::earth::EarthOrientation::shipped()?,
         };
         let mut force = crate::force::field::FieldGravity::new(

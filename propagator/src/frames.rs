@@ -137,10 +137,19 @@ pub struct ToGcrf {
 }
 
 impl ToGcrf {
-    /// The rotation from `frame`.
+    /// The rotation from `frame`, ITRF through the shipped Earth-orientation table.
     pub fn new(frame: Frame) -> Result<Self, String> {
-        let earth = match frame {
-            Frame::Itrf => Some(crate::earth::EarthOrientation::shipped()?),
+        Self::with_earth(frame, None)
+    }
+
+    /// The rotation from `frame`, ITRF through `earth` (the shipped table if `None`).
+    pub fn with_earth(
+        frame: Frame,
+        earth: Option<&crate::earth::EarthOrientation>,
+    ) -> Result<Self, String> {
+        let earth = match (frame, earth) {
+            (Frame::Itrf, Some(e)) => Some(e.clone()),
+            (Frame::Itrf, None) => Some(crate::earth::EarthOrientation::shipped()?),
             _ => None,
         };
         Ok(Self {

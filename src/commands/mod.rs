@@ -102,7 +102,14 @@ impl ArcOptions {
         ),
         CliError,
     > {
-        let mut arc = learned_forces::arc::Arc::load(path, self.defaults()?, &spec.central_body)
+        let mut defaults = self.defaults()?;
+        // The arc's Earth-fixed inputs through the same Earth-orientation data as the field.
+        if let Some(o) = &spec.earth_orientation {
+            defaults.earth = Some(o.load(forces_path).map_err(|e| {
+                CliError::input(format!("{}: earth_orientation: {e}", forces_path.display()))
+            })?);
+        }
+        let mut arc = learned_forces::arc::Arc::load(path, defaults, &spec.central_body)
             .map_err(CliError::input)?;
         let loaded = spec
             .build_with(

@@ -115,8 +115,18 @@ pub struct OemMessage {
     pub originator: Option<String>,
 }
 
-/// Parses an OEM for arcwise: [`read_message`], then one Earth-centred object.
+/// Parses an OEM for arcwise: [`read_message`], then one Earth-centred object, rotated to
+/// GCRF (ITRF segments through the shipped Earth-orientation table).
 pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileError> {
+    parse_with(text, path, None)
+}
+
+/// As [`parse`], ITRF segments through `earth` (the shipped table if `None`).
+pub fn parse_with(
+    text: &str,
+    path: &Path,
+    earth: Option<&crate::earth::EarthOrientation>,
+) -> Result<(Ephemeris, Vec<usize>), FileError> {
     let mut m = read_message(text, path)?;
     if !m.center_name.0.eq_ignore_ascii_case("EARTH") {
         return Err(file_error(
@@ -128,18 +138,23 @@ pub fn parse(text: &str, path: &Path) -> Result<(Ephemeris, Vec<usize>), FileErr
             ),
         ));
     }
-    to_gcrf(&mut m.ephemeris, &m.ref_frames).map_err(|e| file_error(path, None, e))?;
+    to_gcrf(&mut m.ephemeris, &m.ref_frames, earth).map_err(|e| file_error(path, None, e))?;
     Ok((m.ephemeris, m.lines))
 }
 
 pub use crate::frames::Frame;
 
-/// Rotates every segment's states to GCRF from its `REF_FRAME` (ITRF with the shipped IERS
-/// Earth-orientation data, velocities included).
-fn to_gcrf(eph: &mut Ephemeris, frames: &[String]) -> Result<(), String> {
+/// Rotates every segment's states to GCRF from its `REF_FRAME` (ITRF through `earth`,
+/// velocities included).
+fn to_gcrf(
+    eph: &mut Ephemeris,
+    frames: &[String],
+    earth: Option<&crate::earth::EarthOrientation>,
+) -> Result<(), String> {
     let segments = eph.segments();
     for (seg, name) in segments.into_iter().zip(frames) {
-        let rotate = crate::frames::ToGcrf::new(Frame::from_keyword(name).unwrap_or(Frame::Gcrf))?;
+        let frame = Frame::from_keyword(name).unwrap_or(Frame::Gcrf);
+        let rotate = crate::frames::ToGcrf::with_earth(frame, earth)?;
         for p in &mut eph.points[seg] {
             let r = nalgebra::Vector3::new(p.state[0], p.state[1], p.state[2]);
             let v = nalgebra::Vector3::new(p.state[3], p.state[4], p.state[5]);
