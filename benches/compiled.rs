@@ -46,6 +46,7 @@ fn file() -> LearnedFile {
             radius_km: 6378.1363,
             rotation_rad_s: 7.292115e-5,
         },
+        environment: None,
         terms: vec![TermEntry {
             formula: "exp(-t / k0) * T".into(),
             coefficient: 2e-9,

@@ -66,6 +66,7 @@ fn problem() -> Problem {
         radius_km: 6378.1363,
         rotation_rad_s: 7.292115e-5,
         clock: CenturyClock::new(&sim.train.start()),
+        environment: learned_forces::expr::HANDBOOK_ENV,
     };
     Problem::new(
         grid,

@@ -36,6 +36,7 @@ fn main() {
         radius_km: known.central_body.radius_km,
         rotation_rad_s: known.central_body.rotation_rad_s,
         clock: CenturyClock::new(&sim.train.start()),
+        environment: learned_forces::expr::HANDBOOK_ENV,
     };
     let (_, problem) = linearize(
         &sim.train,

@@ -22,6 +22,7 @@ fn ctx() -> Context {
         radius_km: 6378.1363,
         rotation_rad_s: 7.292115e-5,
         clock: CenturyClock::new(&Epoch::parse_utc(EPOCH).unwrap()),
+        environment: learned_forces::expr::HANDBOOK_ENV,
     }
 }
 
@@ -183,6 +184,7 @@ fn file(terms: Vec<(String, f64)>, outside: OutsidePolicy) -> LearnedFile {
             radius_km: 6378.1363,
             rotation_rad_s: 7.292115e-5,
         },
+        environment: None,
         terms: terms
             .into_iter()
             .map(|(formula, coefficient)| TermEntry {
@@ -425,5 +427,145 @@ fn the_shipped_scenarios_learned_forces_agree_three_ways() {
                 (a, b) => panic!("{name} t={t}: plugin {a:?}, in-process {b:?}"),
             }
         }
+    }
+}
+
+/// The environments a known model's drag can give the terminals.
+fn environments() -> Vec<learned_forces::expr::Environment> {
+    use learned_forces::expr::{Altitude, Density, Environment};
+    let f = propagator::CentralBody::EARTH_EGM96.flattening;
+    vec![
+        Environment {
+            density: Density::Ussa1976,
+            altitude: Altitude::Geodetic { flattening: f },
+        },
+        Environment {
+            density: Density::Exponential {
+                rho0_kg_m3: 3.725e-12,
+                h0_km: 400.0,
+                scale_height_km: 58.515,
+            },
+            altitude: Altitude::Spherical,
+        },
+        Environment {
+            density: Density::Table,
+            altitude: Altitude::Geodetic { flattening: f },
+        },
+    ]
+}
+
+#[test]
+fn the_terminals_read_the_known_models_atmosphere_and_altitude() {
+    // `rho` and `alt` against the host's own drag atmosphere and altitude model, built
+    // from a forces.yaml as a user writes it (Context::of_model), for each atmosphere and
+    // both altitude models; and ∂alt/∂r (the ellipsoid normal) against differences.
+    use propagator::config::ForcesFile;
+    let epoch = Epoch::parse_utc(EPOCH).unwrap();
+    for (atmosphere, altitude) in [
+        ("ussa1976", "geodetic"),
+        ("table", "geodetic"),
+        (
+            "{ exponential: { rho0_kg_m3: 3.725e-12, h0_km: 400.0, scale_height_km: 58.515 } }",
+            "spherical",
+        ),
+    ] {
+        let text = format!("gravity: {{ zonal_degree: 2 }}\ndrag: {{ atmosphere: {atmosphere}, cd: 2.2, area_m2: 1.0, mass_kg: 100.0, altitude: {altitude} }}\n");
+        let spec = ForcesFile::parse(&text, std::path::Path::new("f.yaml")).unwrap();
+        let c = Context::of_model(&spec, &epoch);
+        let drag = spec
+            .drag
+            .as_ref()
+            .unwrap()
+            .build(&spec.central_body)
+            .unwrap();
+        for (t, x) in states(60) {
+            let r = nalgebra::Vector3::new(x[0], x[1], x[2]);
+            let p = learned_forces::expr::Terminals::of_state(t, &x, &c);
+            let h = drag.altitude.altitude_km(&r, &spec.central_body);
+            let rho = drag.atmosphere.density_kg_m3(h).unwrap();
+            assert!(
+                (p.h - h).abs() < 1e-9,
+                "{atmosphere} {altitude}: alt {} vs {h}",
+                p.h
+            );
+            assert!(
+                rel(p.rho, rho, rho) < 1e-12,
+                "{atmosphere}: rho {} vs {rho}",
+                p.rho
+            );
+            let pd = learned_forces::expr::Terminals::of_state_dual(t, &x, &c);
+            for j in 0..3 {
+                let mut e = nalgebra::Vector3::zeros();
+                e[j] = 1e-3;
+                let fd = (drag.altitude.altitude_km(&(r + e), &spec.central_body)
+                    - drag.altitude.altitude_km(&(r - e), &spec.central_body))
+                    / 2e-3;
+                assert!(
+                    (pd.h.d[j] - fd).abs() < 1e-7,
+                    "∂alt/∂r{j}: {} vs {fd}",
+                    pd.h.d[j]
+                );
+            }
+        }
+    }
+    // Without drag the terminals keep the handbook table and spherical altitude.
+    let spec = ForcesFile::parse(
+        "gravity: { zonal_degree: 2 }\n",
+        std::path::Path::new("f.yaml"),
+    )
+    .unwrap();
+    assert_eq!(
+        Context::of_model(&spec, &epoch).environment,
+        learned_forces::expr::HANDBOOK_ENV
+    );
+}
+
+#[test]
+fn a_plugin_reads_the_same_atmosphere_and_altitude_as_in_process() {
+    // Formulas reading `rho` and `alt` under each non-default environment: the native
+    // plugin (the runtime with the propagator's USSA1976 table and ellipsoid inlined)
+    // against the in-process force, values and partials.
+    let reference = Epoch::parse_utc(EPOCH).unwrap();
+    let dir = tempfile::tempdir().unwrap();
+    let terms = vec![
+        ("rho * norm(vrel) * vrel".to_string(), -1e3),
+        ("exp(-h / 100) * T".to_string(), 1e-9),
+    ];
+    for (k, env) in environments().into_iter().enumerate() {
+        let mut f = file(terms.clone(), OutsidePolicy::Warn);
+        f.environment = learned_forces::learned_file::EnvironmentEntry::of(&env);
+        assert!(f.environment.is_some());
+        f.checksum = f.compute_checksum();
+        // The entry survives the file's own round trip.
+        let back = LearnedFile::parse(&f.clone().to_yaml()).unwrap();
+        assert_eq!(back.environment().unwrap(), env);
+        let so = build(&f, "env", &dir.path().join(format!("e{k}"))).unwrap();
+        let native = PluginForce::load(&so, &reference, Some(&f.checksum)).unwrap();
+        let inproc = f.force(&reference).unwrap();
+        let handbook = {
+            let mut g = file(terms.clone(), OutsidePolicy::Warn);
+            g.checksum = g.compute_checksum();
+            g.force(&reference).unwrap()
+        };
+        let mut differs_from_handbook = false;
+        for (t, x) in states(30) {
+            let (a, b) = (
+                native.acceleration(t, &x).unwrap(),
+                inproc.acceleration(t, &x).unwrap(),
+            );
+            assert!((a - b).norm() <= 1e-13 * b.norm(), "{env:?}: {a} vs {b}");
+            let (pa, pb) = (
+                native.partials(t, &x).unwrap(),
+                inproc.partials(t, &x).unwrap(),
+            );
+            assert!(
+                (pa - pb).abs().max() <= 1e-12 * pb.abs().max(),
+                "{env:?} partials"
+            );
+            let c = handbook.acceleration(t, &x).unwrap();
+            differs_from_handbook |= (b - c).norm() > 1e-3 * c.norm();
+        }
+        // The gate must be able to fail: the environment changes the force.
+        assert!(differs_from_handbook, "{env:?} gave the handbook's values");
     }
 }

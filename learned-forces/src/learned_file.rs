@@ -7,7 +7,7 @@
 //! at the end of the training arc, and a SHA-256 checksum of its canonical content.
 
 use crate::expr::compiled::{Needs, Program};
-use crate::expr::{parse, Context, Node, Terminals};
+use crate::expr::{parse, Altitude, Context, Density, Environment, Node, Terminals, HANDBOOK_ENV};
 use nalgebra::{Matrix3x6, Vector3};
 use propagator::force::{Force, ForceError};
 use propagator::solar_system::CenturyClock;
@@ -155,6 +155,127 @@ pub struct EarthEntry {
     pub rotation_rad_s: f64,
 }
 
+/// What the `rho` and `alt` terminals mean: the known model's atmosphere and altitude.
+/// Absent in files written before it existed: the handbook table, spherical altitude.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct EnvironmentEntry {
+    /// `table`, `ussa1976` or `{ exponential: { rho0_kg_m3, h0_km, scale_height_km } }`.
+    #[serde(with = "serde_yaml::with::singleton_map")]
+    pub density: DensityEntry,
+    /// `spherical` (|r| − R) or `geodetic`.
+    pub altitude: AltitudeEntry,
+    /// The ellipsoid's flattening for geodetic altitude (0 for spherical).
+    #[serde(default)]
+    pub flattening: f64,
+}
+
+/// `environment.density` values.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase", deny_unknown_fields)]
+pub enum DensityEntry {
+    /// The handbook piecewise-exponential table.
+    Table,
+    /// U.S. Standard Atmosphere 1976.
+    Ussa1976,
+    /// ρ0·exp(−(h − h0)/H).
+    Exponential {
+        /// kg/m³.
+        rho0_kg_m3: f64,
+        /// km.
+        h0_km: f64,
+        /// km.
+        scale_height_km: f64,
+    },
+}
+
+/// `environment.altitude` values.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum AltitudeEntry {
+    /// |r| − R.
+    Spherical,
+    /// Height above the ellipsoid.
+    Geodetic,
+}
+
+impl EnvironmentEntry {
+    /// The entry for `env`; `None` for the handbook default (so older files' content and
+    /// checksum are unchanged).
+    pub fn of(env: &Environment) -> Option<Self> {
+        if *env == HANDBOOK_ENV {
+            return None;
+        }
+        let density = match env.density {
+            Density::Table => DensityEntry::Table,
+            Density::Ussa1976 => DensityEntry::Ussa1976,
+            Density::Exponential {
+                rho0_kg_m3,
+                h0_km,
+                scale_height_km,
+            } => DensityEntry::Exponential {
+                rho0_kg_m3,
+                h0_km,
+                scale_height_km,
+            },
+        };
+        let (altitude, flattening) = match env.altitude {
+            Altitude::Spherical => (AltitudeEntry::Spherical, 0.0),
+            Altitude::Geodetic { flattening } => (AltitudeEntry::Geodetic, flattening),
+        };
+        Some(Self {
+            density,
+            altitude,
+            flattening,
+        })
+    }
+
+    /// The environment this entry names, checked.
+    pub fn environment(&self) -> Result<Environment, String> {
+        let positive = |v: f64, k: &str| {
+            if v.is_finite() && v > 0.0 {
+                Ok(v)
+            } else {
+                Err(format!(
+                    "environment: {k} must be a positive number, got {v}"
+                ))
+            }
+        };
+        let density = match self.density {
+            DensityEntry::Table => Density::Table,
+            DensityEntry::Ussa1976 => Density::Ussa1976,
+            DensityEntry::Exponential {
+                rho0_kg_m3,
+                h0_km,
+                scale_height_km,
+            } => Density::Exponential {
+                rho0_kg_m3: positive(rho0_kg_m3, "rho0_kg_m3")?,
+                h0_km: if h0_km.is_finite() {
+                    h0_km
+                } else {
+                    return Err(format!("environment: h0_km must be finite, got {h0_km}"));
+                },
+                scale_height_km: positive(scale_height_km, "scale_height_km")?,
+            },
+        };
+        let altitude = match self.altitude {
+            AltitudeEntry::Spherical => Altitude::Spherical,
+            AltitudeEntry::Geodetic if (0.0..0.1).contains(&self.flattening) => {
+                Altitude::Geodetic {
+                    flattening: self.flattening,
+                }
+            }
+            AltitudeEntry::Geodetic => {
+                return Err(format!(
+                    "environment: flattening {} is not an Earth-like ellipsoid's (0 ≤ f < 0.1)",
+                    self.flattening
+                ))
+            }
+        };
+        Ok(Environment { density, altitude })
+    }
+}
+
 /// The whole file.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -169,6 +290,9 @@ pub struct LearnedFile {
     pub epoch_utc: String,
     /// Earth constants of the terminals.
     pub earth: EarthEntry,
+    /// The atmosphere and altitude of the terminals (absent: handbook table, spherical).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub environment: Option<EnvironmentEntry>,
     /// Terms (empty when nothing was learned).
     pub terms: Vec<TermEntry>,
     /// Nonlinear constants.
@@ -361,6 +485,13 @@ impl LearnedFile {
         Ok(())
     }
 
+    /// The atmosphere and altitude of the file's terminals.
+    pub fn environment(&self) -> Result<Environment, String> {
+        self.environment
+            .as_ref()
+            .map_or(Ok(HANDBOOK_ENV), EnvironmentEntry::environment)
+    }
+
     /// The force, on a time axis whose `t_s = 0` is `reference`.
     pub fn force(&self, reference: &Epoch) -> Result<LearnedForce, String> {
         let (nodes, coefs, params) = self.compile()?;
@@ -379,6 +510,7 @@ impl LearnedFile {
                 radius_km: self.earth.radius_km,
                 rotation_rad_s: self.earth.rotation_rad_s,
                 clock: CenturyClock::new(&epoch),
+                environment: self.environment()?,
             },
             offset_s: reference.seconds_since(&epoch),
             window_s: (

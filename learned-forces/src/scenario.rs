@@ -443,11 +443,7 @@ impl ScenarioSpec {
                     truth.push(Box::new(FormulaForce {
                         needs: program.needs(),
                         program,
-                        context: crate::expr::Context {
-                            radius_km: known.central_body.radius_km,
-                            rotation_rad_s: known.central_body.rotation_rad_s,
-                            clock: propagator::solar_system::CenturyClock::new(&initial.epoch),
-                        },
+                        context: crate::expr::Context::of_model(&known, &initial.epoch),
                     }));
                 }
                 TruthTerm::Maneuver(_) => {}

@@ -47,6 +47,7 @@ fn known_forces(
         radius_km: models.known.central_body.radius_km,
         rotation_rad_s: models.known.central_body.rotation_rad_s,
         clock: CenturyClock::new(start),
+        environment: learned_forces::expr::HANDBOOK_ENV,
     };
     (Box::new(make), context)
 }

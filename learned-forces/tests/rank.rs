@@ -63,6 +63,7 @@ fn ranked(spec: &ScenarioSpec, path: &Path) -> Vec<learned_forces::learn::rank::
         radius_km: 6378.1363,
         rotation_rad_s: 7.292115e-5,
         clock: CenturyClock::new(&sim.train.start()),
+        environment: learned_forces::expr::HANDBOOK_ENV,
     };
     let (_, problem) = linearize(
         &sim.train,

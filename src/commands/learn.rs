@@ -13,13 +13,13 @@ use learned_forces::fit::FitOptions;
 use learned_forces::learn::search::SearchOptions;
 use learned_forces::learn::{learn, model_text, trajectory, LearnOptions, Learned, Outcome};
 use learned_forces::learned_file::{
-    sha256_hex, ConstantEntry, EarthEntry, FitEntry, LearnedFile, LearnedResolver, OutsidePolicy,
-    ProvenanceEntry, StateEntry, TermEntry, ValidityEntry, FORMAT_VERSION,
+    sha256_hex, ConstantEntry, EarthEntry, EnvironmentEntry, FitEntry, LearnedFile,
+    LearnedResolver, OutsidePolicy, ProvenanceEntry, StateEntry, TermEntry, ValidityEntry,
+    FORMAT_VERSION,
 };
 use propagator::config::ForcesFile;
 use propagator::ephemeris::write_atomically;
 use propagator::frames::eci_to_rtn;
-use propagator::solar_system::CenturyClock;
 use std::path::{Path, PathBuf};
 use std::time::Duration;
 
@@ -133,11 +133,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
             .map(|l| l.model)
             .map_err(|e| e.to_string())
     };
-    let context = Context {
-        radius_km: spec.central_body.radius_km,
-        rotation_rad_s: spec.central_body.rotation_rad_s,
-        clock: CenturyClock::new(&arc.start()),
-    };
+    let context = Context::of_model(&spec, &arc.start());
     let options = LearnOptions {
         fit: FitOptions {
             estimate,
@@ -292,6 +288,9 @@ fn learned_file(
             radius_km: r,
             rotation_rad_s: spec.central_body.rotation_rad_s,
         },
+        environment: EnvironmentEntry::of(
+            &learned_forces::expr::Context::of_model(spec, &arc.start()).environment,
+        ),
         terms,
         constants,
         validity: ValidityEntry {

@@ -13,7 +13,6 @@ use learned_forces::learn::rank::{best_explains, evidence_words, rank, Param};
 use learned_forces::learn::{linearize, LearnOptions};
 use learned_forces::learned_file::LearnedResolver;
 use propagator::config::ForcesFile;
-use propagator::solar_system::CenturyClock;
 use propagator::Epoch;
 use std::path::PathBuf;
 
@@ -74,11 +73,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
             .map(|l| l.model)
             .map_err(|e| e.to_string())
     };
-    let ctx = Context {
-        radius_km: spec.central_body.radius_km,
-        rotation_rad_s: spec.central_body.rotation_rad_s,
-        clock: CenturyClock::new(&t0),
-    };
+    let ctx = Context::of_model(&spec, &t0);
     let options = LearnOptions {
         fit: FitOptions {
             estimate: parse_estimate(&a.estimate)?,

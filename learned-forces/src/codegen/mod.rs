@@ -14,8 +14,56 @@ use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-/// The runtime's source text, copied into every generated crate.
+/// The runtime's source text, copied into every generated crate (see [`runtime_source`]).
 pub const RUNTIME_SOURCE: &str = include_str!("runtime.rs");
+
+/// The propagator's self-contained sources the runtime includes, by their `include!`
+/// line: the generated crate has no path back to them, so their text replaces the line.
+const INCLUDED: [(&str, &str); 2] = [
+    (
+        "include!(\"../../../propagator/src/atmosphere/ussa1976_table.rs\");",
+        include_str!("../../../propagator/src/atmosphere/ussa1976_table.rs"),
+    ),
+    (
+        "include!(\"../../../propagator/src/atmosphere/geodetic.rs\");",
+        include_str!("../../../propagator/src/atmosphere/geodetic.rs"),
+    ),
+];
+
+/// The runtime as the generated crate holds it: its `include!`s replaced by the text.
+pub fn runtime_source() -> String {
+    INCLUDED
+        .iter()
+        .fold(RUNTIME_SOURCE.to_string(), |src, (line, text)| {
+            src.replace(line, text)
+        })
+}
+
+/// The `Env` literal of the generated code (numbers as exact literals).
+fn env_literal(env: &crate::expr::Environment) -> String {
+    use crate::expr::{Altitude, Density};
+    let density = match env.density {
+        Density::Table => "Density::Table".to_string(),
+        Density::Ussa1976 => "Density::Ussa1976".to_string(),
+        Density::Exponential {
+            rho0_kg_m3,
+            h0_km,
+            scale_height_km,
+        } => format!(
+            "Density::Exponential {{ rho0_kg_m3: {}, h0_km: {}, scale_height_km: {} }}",
+            lit(rho0_kg_m3),
+            lit(h0_km),
+            lit(scale_height_km)
+        ),
+    };
+    let altitude = match env.altitude {
+        Altitude::Spherical => "Altitude::Spherical".to_string(),
+        Altitude::Geodetic { flattening } => {
+            format!("Altitude::Geodetic {{ flattening: {} }}", lit(flattening))
+        }
+    };
+    format!("Env {{ density: {density}, altitude: {altitude} }}")
+}
 
 /// Why a plugin could not be built.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -162,6 +210,8 @@ const ALT: (f64, f64) = ({a0}, {a1});
 const POLICY: u8 = {policy};
 // The terminals the formula reads; the others are never computed.
 const NEED: Need = Need {{ rtn: {need_rtn}, u: {need_u}, rho: {need_rho}, sun: {need_sun}, lit: {need_lit} }};
+// What `rho` and `alt` mean: the known model's atmosphere and altitude.
+const ENV: Env = {env};
 
 fn eval<N: Num>(p: &P<N>) -> [N; 3] {{
 {body}}}
@@ -217,7 +267,7 @@ fn accel(t: f64, s: &[f64], out: &mut [f64]) -> i32 {{
             return 0;
         }}
     }}
-    let p = terminals_for::<f64>(t, [s[0], s[1], s[2]], [s[3], s[4], s[5]], RE, W, T0C, NEED);
+    let p = terminals_for::<f64>(t, [s[0], s[1], s[2]], [s[3], s[4], s[5]], RE, W, T0C, NEED, &ENV);
     let a = eval(&p);
     // Stored before the check (the ABI leaves `out` unspecified on error), so the
     // stores need not wait for the test.
@@ -285,7 +335,7 @@ pub unsafe extern "C" fn arcwise_plugin_partials(t: f64, state: *const f64, out:
             _ => {{}}
         }}
         let d = |k: usize| Dual::var(s[k], k);
-        let p = terminals_for::<Dual>(t, [d(0), d(1), d(2)], [d(3), d(4), d(5)], RE, W, T0C, NEED);
+        let p = terminals_for::<Dual>(t, [d(0), d(1), d(2)], [d(3), d(4), d(5)], RE, W, T0C, NEED, &ENV);
         let a = eval(&p);
         for i in 0..3 {{
             for j in 0..6 {{
@@ -321,6 +371,7 @@ pub unsafe extern "C" fn arcwise_plugin_partials(t: f64, state: *const f64, out:
         need_rtn = needs.rtn,
         need_u = needs.arglat,
         need_rho = needs.density,
+        env = env_literal(&file.environment().map_err(BuildError)?),
     );
     Ok(src)
 }
@@ -406,7 +457,7 @@ pub fn build(file: &LearnedFile, name: &str, dir: &Path) -> Result<PathBuf, Buil
             .map_err(|e| BuildError(format!("{}: {e}", dir.join(p).display())))
     };
     write("Cargo.toml", &manifest(&crate_name))?;
-    write("runtime.rs", RUNTIME_SOURCE)?;
+    write("runtime.rs", &runtime_source())?;
     write("lib.rs", &generate(file, name)?)?;
     let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".into());
     // Cargo reads `.cargo/config.toml` from its working folder and every folder above

@@ -188,7 +188,7 @@ pub fn norm3<N: Num>(a: [N; 3]) -> N {
 
 // The handbook piecewise-exponential atmosphere (Vallado, Table 8-4, from memory):
 // base altitude km, density kg/m³, scale height km.
-const TABLE: [(f64, f64, f64); 28] = [
+const HANDBOOK: [(f64, f64, f64); 28] = [
     (0.0, 1.225, 7.249),
     (25.0, 3.899e-2, 6.349),
     (30.0, 1.774e-2, 6.682),
@@ -219,14 +219,108 @@ const TABLE: [(f64, f64, f64); 28] = [
     (1000.0, 3.019e-15, 268.00),
 ];
 
+/// The handbook table's density at altitude `h` (km); NaN below its lowest band, as the
+/// host's table refuses it.
 pub fn density<N: Num>(h: N) -> N {
     let hv = h.val();
+    if hv.is_nan() || hv < HANDBOOK[0].0 {
+        return N::cst(f64::NAN);
+    }
     let mut i = 0;
-    while i + 1 < TABLE.len() && TABLE[i + 1].0 <= hv {
+    while i + 1 < HANDBOOK.len() && HANDBOOK[i + 1].0 <= hv {
         i += 1;
     }
-    let (h0, rho0, sh) = TABLE[i];
+    let (h0, rho0, sh) = HANDBOOK[i];
     N::cst(rho0) * (-(h - N::cst(h0)) / N::cst(sh)).exp()
+}
+
+// The U.S. Standard Atmosphere 1976 nodes (`TABLE`) and the ellipsoid height
+// (`ellipsoid_height`): the propagator's own sources, inlined here by `arcwise build`.
+include!("../../../propagator/src/atmosphere/ussa1976_table.rs");
+include!("../../../propagator/src/atmosphere/geodetic.rs");
+
+/// USSA1976 density at `h` (km), linear in ln ρ between nodes and extrapolated above
+/// 1000 km from the last interval, as the host's `Ussa1976`; NaN below 0 km.
+pub fn ussa1976<N: Num>(h: N) -> N {
+    let hv = h.val();
+    let n = TABLE.len();
+    if hv.is_nan() || hv < TABLE[0].0 {
+        return N::cst(f64::NAN);
+    }
+    let i = if hv >= TABLE[n - 1].0 {
+        n - 2
+    } else {
+        TABLE.partition_point(|p| p.0 <= hv) - 1
+    };
+    let ((h0, l0), (h1, l1)) = (TABLE[i], TABLE[i + 1]);
+    let s = (h - N::cst(h0)) / N::cst(h1 - h0);
+    (N::cst(l0) + s * N::cst(l1 - l0)).exp()
+}
+
+/// What the `rho` terminal means: the known model's atmosphere.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Density {
+    /// The handbook piecewise-exponential table (files without an `environment`).
+    Table,
+    /// U.S. Standard Atmosphere 1976.
+    Ussa1976,
+    /// ρ0·exp(−(h − h0)/H): kg/m³, km, km.
+    Exponential {
+        rho0_kg_m3: f64,
+        h0_km: f64,
+        scale_height_km: f64,
+    },
+}
+
+/// What the `alt` terminal means: the known model's altitude.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Altitude {
+    /// |r| − R.
+    Spherical,
+    /// Height above the ellipsoid of radius R and this flattening (pole on z).
+    Geodetic { flattening: f64 },
+}
+
+/// The environment the terminals read, the same as the host model's drag.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Env {
+    pub density: Density,
+    pub altitude: Altitude,
+}
+
+/// The handbook table and spherical altitude: what a file without an `environment` means.
+pub const HANDBOOK_ENV: Env = Env {
+    density: Density::Table,
+    altitude: Altitude::Spherical,
+};
+
+impl Env {
+    /// Altitude (km) of `r` over an Earth of radius `re` (km).
+    pub fn altitude<N: Num>(&self, r: [N; 3], re: f64) -> N {
+        match self.altitude {
+            Altitude::Spherical => norm3(r) - N::cst(re),
+            Altitude::Geodetic { flattening } => {
+                // h at the value, ∂h/∂r = the ellipsoid normal: exact first derivatives.
+                let rv = [r[0].val(), r[1].val(), r[2].val()];
+                let (h, n) = ellipsoid_height(rv, re, flattening);
+                let nc = [N::cst(n[0]), N::cst(n[1]), N::cst(n[2])];
+                N::cst(h - (n[0] * rv[0] + n[1] * rv[1] + n[2] * rv[2])) + dot3(nc, r)
+            }
+        }
+    }
+
+    /// Density (kg/m³) at altitude `h` (km).
+    pub fn density<N: Num>(&self, h: N) -> N {
+        match self.density {
+            Density::Table => density(h),
+            Density::Ussa1976 => ussa1976(h),
+            Density::Exponential {
+                rho0_kg_m3,
+                h0_km,
+                scale_height_km,
+            } => N::cst(rho0_kg_m3) * (-(h - N::cst(h0_km)) / N::cst(scale_height_km)).exp(),
+        }
+    }
 }
 
 const AU_KM: f64 = 149_597_870.7;
@@ -349,10 +443,12 @@ pub fn terminals<N: Num>(
             lit: need_lit,
             ..ALL
         },
+        &HANDBOOK_ENV,
     )
 }
 
 /// As [`terminals`], computing only what `need` asks for.
+#[allow(clippy::too_many_arguments)]
 pub fn terminals_for<N: Num>(
     t: f64,
     r: [N; 3],
@@ -361,6 +457,7 @@ pub fn terminals_for<N: Num>(
     w: f64,
     t0c: f64,
     need: Need,
+    env: &Env,
 ) -> P<N> {
     let z = N::cst(0.0);
     let w = N::cst(w);
@@ -387,7 +484,7 @@ pub fn terminals_for<N: Num>(
     } else {
         ([z; 3], [z; 3], [z; 3], z)
     };
-    let h = rn - N::cst(re);
+    let h = env.altitude(r, re);
     let (sun, lit_fraction) = if need.sun || need.lit {
         let s = sun_km(t0c + t / (86_400.0 * 36_525.0));
         let sn = norm3(s);
@@ -399,7 +496,7 @@ pub fn terminals_for<N: Num>(
     } else {
         ([0.0; 3], 1.0)
     };
-    let rho = if need.rho { density(h) } else { z };
+    let rho = if need.rho { env.density(h) } else { z };
     P {
         t,
         r,

@@ -454,9 +454,49 @@ pub struct Context {
     pub rotation_rad_s: f64,
     /// Maps `t` to the Sun series' time argument.
     pub clock: CenturyClock,
+    /// What `rho` and `alt` mean: the known model's atmosphere and altitude.
+    pub environment: Environment,
 }
 
+/// The atmosphere and altitude the `rho` and `alt` terminals read (the plugin runtime's
+/// type, so a plugin computes them with the same code).
+pub use crate::codegen::runtime::{Altitude, Density, Env as Environment, HANDBOOK_ENV};
+
 impl Context {
+    /// The terminals of the known model `forces` on a time axis starting at `epoch`: its
+    /// Earth radius and rotation, and the atmosphere and altitude of its drag (the
+    /// handbook table and spherical altitude when it has no drag).
+    pub fn of_model(forces: &propagator::config::ForcesFile, epoch: &propagator::Epoch) -> Self {
+        use propagator::config::{AltitudeKey, AtmosphereSpec};
+        let body = &forces.central_body;
+        let environment = match &forces.drag {
+            None => HANDBOOK_ENV,
+            Some(d) => Environment {
+                density: match &d.atmosphere {
+                    AtmosphereSpec::Table => Density::Table,
+                    AtmosphereSpec::Ussa1976 => Density::Ussa1976,
+                    AtmosphereSpec::Exponential(e) => Density::Exponential {
+                        rho0_kg_m3: e.rho0_kg_m3,
+                        h0_km: e.h0_km,
+                        scale_height_km: e.scale_height_km,
+                    },
+                },
+                altitude: match d.altitude {
+                    AltitudeKey::Spherical => Altitude::Spherical,
+                    AltitudeKey::Geodetic => Altitude::Geodetic {
+                        flattening: body.flattening,
+                    },
+                },
+            },
+        };
+        Self {
+            radius_km: body.radius_km,
+            rotation_rad_s: body.rotation_rad_s,
+            clock: CenturyClock::new(epoch),
+            environment,
+        }
+    }
+
     /// The switching functions of the `lit` terminal (the conical shadow's boundaries,
     /// see [`propagator::force::Force::switching`]) at `t` (s on the formula's axis) and
     /// state `x`, appended to `out`: a formula reading `lit` has the shadow's kinks.
@@ -522,6 +562,7 @@ impl<N: Num> Terminals<N> {
             ctx.rotation_rad_s,
             ctx.clock.t0_centuries,
             need,
+            &ctx.environment,
         )
     }
 }

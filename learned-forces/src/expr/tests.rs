@@ -5,6 +5,7 @@ fn ctx() -> Context {
         radius_km: 6378.1363,
         rotation_rad_s: 7.292115e-5,
         clock: CenturyClock { t0_centuries: 0.31 },
+        environment: crate::expr::HANDBOOK_ENV,
     }
 }
 

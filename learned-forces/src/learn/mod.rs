@@ -1031,6 +1031,7 @@ mod tests {
             radius_km: 6378.1363,
             rotation_rad_s: 7.292115e-5,
             clock: CenturyClock { t0_centuries: 0.31 },
+            environment: crate::expr::HANDBOOK_ENV,
         };
         let states = [propagator::StateVector::new(
             6878.0, 0.0, 0.0, 0.0, 4.8, 5.9,

@@ -6,6 +6,9 @@
 
 mod ussa1976_table;
 
+// Self-contained sources shared verbatim with the learned-force plugin runtime.
+include!("geodetic.rs");
+
 use crate::body::CentralBody;
 use nalgebra::Vector3;
 
@@ -41,30 +44,9 @@ impl AltitudeModel {
 }
 
 /// Height above an ellipsoid (equatorial radius `a_km`, flattening `f`) by Bowring's
-/// iteration (Bowring 1976, Survey Review 23; converges to < 1 mm in three steps).
+/// iteration; the one implementation the plugin runtime shares (see `geodetic.rs`).
 pub fn geodetic_height_km(r: &Vector3<f64>, a_km: f64, f: f64) -> f64 {
-    let p = (r[0] * r[0] + r[1] * r[1]).sqrt();
-    let z = r[2];
-    let e2 = f * (2.0 - f);
-    let b = a_km * (1.0 - f);
-    if p < 1e-9 {
-        return z.abs() - b;
-    }
-    let ep2 = e2 / (1.0 - e2);
-    let mut beta = (z / ((1.0 - f) * p)).atan();
-    let mut lat = 0.0;
-    for _ in 0..5 {
-        let (sb, cb) = beta.sin_cos();
-        lat = (z + ep2 * b * sb.powi(3)).atan2(p - e2 * a_km * cb.powi(3));
-        beta = ((1.0 - f) * lat.tan()).atan();
-    }
-    let (sl, cl) = lat.sin_cos();
-    let n = a_km / (1.0 - e2 * sl * sl).sqrt();
-    if cl.abs() > 1e-3 {
-        p / cl - n
-    } else {
-        z / sl - n * (1.0 - e2)
-    }
+    ellipsoid_height([r[0], r[1], r[2]], a_km, f).0
 }
 
 /// ρ = ρ0 · exp(−(h − h0)/H).
