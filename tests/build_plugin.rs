@@ -569,3 +569,52 @@ fn a_plugin_reads_the_same_atmosphere_and_altitude_as_in_process() {
         assert!(differs_from_handbook, "{env:?} gave the handbook's values");
     }
 }
+
+#[test]
+fn a_learned_file_with_an_impossible_environment_is_refused() {
+    // Checksummed but impossible values (a hand-made file): refused on reading, naming
+    // the key, before anything reaches generated code.
+    use learned_forces::learned_file::{AltitudeEntry, DensityEntry, EnvironmentEntry};
+    let bad = [
+        (
+            EnvironmentEntry {
+                density: DensityEntry::Table,
+                altitude: AltitudeEntry::Geodetic,
+                flattening: 5.0,
+            },
+            "flattening",
+        ),
+        (
+            EnvironmentEntry {
+                density: DensityEntry::Exponential {
+                    rho0_kg_m3: -1.0,
+                    h0_km: 400.0,
+                    scale_height_km: 60.0,
+                },
+                altitude: AltitudeEntry::Spherical,
+                flattening: 0.0,
+            },
+            "rho0_kg_m3",
+        ),
+        (
+            EnvironmentEntry {
+                density: DensityEntry::Exponential {
+                    rho0_kg_m3: 1e-12,
+                    h0_km: f64::NAN,
+                    scale_height_km: 60.0,
+                },
+                altitude: AltitudeEntry::Spherical,
+                flattening: 0.0,
+            },
+            "h0_km",
+        ),
+    ];
+    for (entry, key) in bad {
+        let mut f = file(vec![("rho * vrel".into(), 1.0)], OutsidePolicy::Warn);
+        f.environment = Some(entry);
+        let text = f.to_yaml();
+        let e = LearnedFile::parse(&text).unwrap_err();
+        assert!(e.contains("environment") && e.contains(key), "{e}");
+        assert!(build(&f, "bad", &tempfile::tempdir().unwrap().path().join("b")).is_err());
+    }
+}

@@ -382,6 +382,7 @@ impl LearnedFile {
         if f.checksum != want {
             return Err(format!("checksum {} does not match the content ({want}): the file was changed after it was written", f.checksum));
         }
+        f.environment()?;
         f.compile().map(|_| f)
     }
 
