@@ -29,6 +29,23 @@ fn fit(
     sigma_km: &str,
     extra: &[&str],
 ) -> serde_json::Value {
+    let (code, report, said) = invoke("fit", dir, id, gravity, file, sigma_km, extra);
+    assert_eq!(code, 0, "{id}: {said}");
+    report.unwrap()
+}
+
+/// Runs `command` (fit or learn) on satellite `id` of `file` with `gravity` (a
+/// forces.yaml `gravity:` value), Sun, Moon and SRP, the SRP scale estimated:
+/// (exit code, report if written, what was said).
+fn invoke(
+    command: &str,
+    dir: &std::path::Path,
+    id: &str,
+    gravity: &str,
+    file: &str,
+    sigma_km: &str,
+    extra: &[&str],
+) -> (i32, Option<serde_json::Value>, String) {
     // GPS IIF/IIR: ~1600 kg, ~20 m² to the Sun (public mission facts, from memory); the
     // scale is estimated, so the nominal A/m only sets its starting value.
     let forces = dir.join(format!("forces-{}.yaml", gravity.len()));
@@ -37,15 +54,20 @@ fn fit(
         format!("gravity: {gravity}\nthird_body: [sun, moon]\nsrp: {{ cr: 1.3, area_m2: 20.0, mass_kg: 1600.0, shadow: conical }}\n"),
     )
     .unwrap();
-    let report = dir.join(format!(
-        "{id}-{}.json",
+    let stem = format!(
+        "{command}-{id}-{}",
         std::path::Path::new(file)
             .file_name()
             .unwrap()
             .to_string_lossy()
-    ));
+    );
+    let (report, learned) = (
+        dir.join(format!("{stem}.json")),
+        dir.join(format!("{stem}.yaml")),
+    );
+    let _ = std::fs::remove_file(&report);
     let mut args = vec![
-        "fit",
+        command,
         "--arc",
         file,
         "--object",
@@ -59,10 +81,15 @@ fn fit(
         "--report",
         report.to_str().unwrap(),
     ];
+    if command == "learn" {
+        args.extend_from_slice(&["--out", learned.to_str().unwrap()]);
+    }
     args.extend_from_slice(extra);
     let (code, out, err) = arcwise(&args);
-    assert_eq!(code, 0, "{id}: {out}{err}");
-    serde_json::from_str(&std::fs::read_to_string(&report).unwrap()).unwrap()
+    let report = std::fs::read_to_string(&report)
+        .ok()
+        .map(|t| serde_json::from_str(&t).unwrap());
+    (code, report, format!("{out}{err}"))
 }
 
 fn gps_ids() -> Vec<String> {
@@ -288,41 +315,17 @@ fn an_unmodelled_push_on_a_real_orbit_is_still_called_an_anomaly() {
 }
 
 /// `arcwise learn` on satellite `id` of `file` at σ 2 cm with the real-Earth model:
-/// (exit code, report if written, stderr).
+/// (exit code, report if written, what was said).
 fn learn(dir: &std::path::Path, id: &str, file: &str) -> (i32, Option<serde_json::Value>, String) {
-    let forces = dir.join("learn-forces.yaml");
-    std::fs::write(
-        &forces,
-        "gravity: { field: egm2008, degree: 12 }\nthird_body: [sun, moon]\nsrp: { cr: 1.3, area_m2: 20.0, mass_kg: 1600.0, shadow: conical }\n",
-    )
-    .unwrap();
-    let (out, report) = (
-        dir.join(format!("{id}.yaml")),
-        dir.join(format!("{id}-learn.json")),
-    );
-    let _ = std::fs::remove_file(&report);
-    let args = [
+    invoke(
         "learn",
-        "--arc",
-        file,
-        "--object",
+        dir,
         id,
-        "--forces",
-        forces.to_str().unwrap(),
-        "--estimate",
-        "srp_scale",
-        "--sigma-km",
+        "{ field: egm2008, degree: 12 }",
+        file,
         "0.00002",
-        "--out",
-        out.to_str().unwrap(),
-        "--report",
-        report.to_str().unwrap(),
-    ];
-    let (code, _, err) = arcwise(&args);
-    let report = std::fs::read_to_string(&report)
-        .ok()
-        .map(|t| serde_json::from_str(&t).unwrap());
-    (code, report, err)
+        &[],
+    )
 }
 
 #[test]
