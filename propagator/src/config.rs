@@ -529,6 +529,19 @@ impl ForcesFile {
         Ok(spec)
     }
 
+    /// The Earth-orientation data this file names (`None`: the shipped table), for
+    /// Earth-fixed inputs and outputs to share with the field; `path` is this file's.
+    pub fn earth_orientation(
+        &self,
+        path: &Path,
+    ) -> Result<Option<crate::earth::EarthOrientation>, ConfigError> {
+        self.earth_orientation
+            .as_ref()
+            .map(|o| o.load(path))
+            .transpose()
+            .map_err(|e| config_error(path, format!("earth_orientation: {e}")))
+    }
+
     /// Builds the force model. `reference` is the epoch where the model's time axis
     /// starts (forces that depend on absolute time are placed on it). Plugins are loaded
     /// as native libraries; see [`ForcesFile::build_with`] for other kinds.

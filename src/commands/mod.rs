@@ -104,11 +104,9 @@ impl ArcOptions {
     > {
         let mut defaults = self.defaults()?;
         // The arc's Earth-fixed inputs through the same Earth-orientation data as the field.
-        if let Some(o) = &spec.earth_orientation {
-            defaults.earth = Some(o.load(forces_path).map_err(|e| {
-                CliError::input(format!("{}: earth_orientation: {e}", forces_path.display()))
-            })?);
-        }
+        defaults.earth = spec
+            .earth_orientation(forces_path)
+            .map_err(CliError::input)?;
         let mut arc = learned_forces::arc::Arc::load(path, defaults, &spec.central_body)
             .map_err(CliError::input)?;
         let loaded = spec

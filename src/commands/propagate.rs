@@ -69,10 +69,11 @@ pub struct Args {
 fn load_initial(
     path: &std::path::Path,
     body: &propagator::CentralBody,
+    earth: Option<&propagator::earth::EarthOrientation>,
 ) -> Result<InitialState, CliError> {
     match Format::from_path(path) {
         Ok(_) => {
-            let eph = Ephemeris::load(path, body).map_err(CliError::input)?;
+            let eph = Ephemeris::load_with(path, body, earth).map_err(CliError::input)?;
             let last = eph
                 .points
                 .last()
@@ -187,7 +188,9 @@ pub fn run(a: Args) -> Result<(), CliError> {
     Format::from_path(&a.out).map_err(CliError::input)?;
     let to = Epoch::parse_utc(&a.to).map_err(|e| CliError::input(format!("--to: {e}")))?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
-    let initial = load_initial(&a.state, &spec.central_body)?;
+    // An Earth-fixed output through the same Earth-orientation data as the field.
+    let earth = spec.earth_orientation(&a.forces).map_err(CliError::input)?;
+    let initial = load_initial(&a.state, &spec.central_body, earth.as_ref())?;
     let axis = TimeAxis::new(initial.epoch);
     let loaded = spec
         .build_with(
@@ -248,7 +251,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
         segment_starts,
         frame: Frame::Gcrf,
     }
-    .in_frame(frame)
+    .in_frame(frame, earth.as_ref())
     .map_err(CliError::input)?;
     eph.save(&a.out).map_err(CliError::input)?;
 

@@ -41,16 +41,20 @@ pub struct Ephemeris {
 }
 
 impl Ephemeris {
-    /// This GCRF ephemeris with its states in `frame` (ITRF through the shipped IERS
-    /// Earth-orientation data, velocities included).
-    pub fn in_frame(&self, frame: crate::frames::Frame) -> Result<Ephemeris, String> {
+    /// This GCRF ephemeris with its states in `frame` (ITRF through `earth`, the shipped
+    /// IERS table if `None`; velocities included).
+    pub fn in_frame(
+        &self,
+        frame: crate::frames::Frame,
+        earth: Option<&crate::earth::EarthOrientation>,
+    ) -> Result<Ephemeris, String> {
         if self.frame != crate::frames::Frame::Gcrf {
             return Err(format!(
                 "the ephemeris is in {}, not GCRF",
                 self.frame.keyword()
             ));
         }
-        let rotate = crate::frames::ToGcrf::new(frame)?;
+        let rotate = crate::frames::ToGcrf::with_earth(frame, earth)?;
         let points = self
             .points
             .iter()
@@ -148,11 +152,21 @@ impl Ephemeris {
     /// Reads a CSV or OEM ephemeris (by extension) and checks it: epochs strictly
     /// increasing, every state finite and plausible (outside the Earth, km not metres).
     pub fn load(path: &Path, body: &CentralBody) -> Result<Ephemeris, FileError> {
+        Self::load_with(path, body, None)
+    }
+
+    /// As [`Ephemeris::load`], ITRF OEM segments through `earth` (the shipped table if
+    /// `None`).
+    pub fn load_with(
+        path: &Path,
+        body: &CentralBody,
+        earth: Option<&crate::earth::EarthOrientation>,
+    ) -> Result<Ephemeris, FileError> {
         let text = crate::input::read_text(path, crate::input::MAX_DATA_BYTES)
             .map_err(|e| file_error(path, None, e))?;
         let (eph, lines) = match Format::from_path(path)? {
             Format::Csv => csv::parse_ephemeris(&text, path)?,
-            Format::Oem => oem::parse(&text, path)?,
+            Format::Oem => oem::parse_with(&text, path, earth)?,
         };
         eph.validate(path, &lines, body)?;
         Ok(eph)

@@ -34,7 +34,7 @@ pub fn format(eph: &Ephemeris) -> String {
     let frame = eph.frame.keyword();
     s.push_str(&format!("COMMENT Written by arcwise; states in {frame}\n"));
     if eph.frame == Frame::Itrf {
-        s.push_str("COMMENT Earth-fixed through the IERS Earth-orientation data arcwise ships\n");
+        s.push_str("COMMENT Earth-fixed through IERS Earth-orientation data (IAU 2006/2000A)\n");
     }
     s.push_str(&format!("CREATION_DATE = {}\n", creation_date()));
     s.push_str("ORIGINATOR = ARCWISE\n");
