@@ -1,5 +1,6 @@
 //! Dormand–Prince 8(5,3) with Hairer's step control and 7th-order dense output.
 
+use super::control::{Judgement, StepControl};
 use super::tableau::{DP8_A as A, DP8_B as B, DP8_BHH as BHH, DP8_C as C, DP8_D as D, DP8_E as E};
 use super::{initial_step, scale, IntegrationError, OdeSystem, Settings, Stats};
 
@@ -28,13 +29,9 @@ pub struct Dop853 {
     rcont: Vec<f64>,
     dense_ready: bool,
     pattern: Vec<Vec<usize>>,
-    last_rejected: bool,
+    control: StepControl,
     stats: Stats,
 }
-
-const SAFETY: f64 = 0.9;
-const FAC_MIN: f64 = 0.333;
-const FAC_MAX: f64 = 6.0;
 
 /// Nonzero entries of each row of `A` (stages 2–12, then 14–16), computed once.
 fn nonzero(row: usize) -> Vec<usize> {
@@ -64,7 +61,7 @@ impl Dop853 {
             rcont: vec![0.0; 8 * n],
             dense_ready: true,
             pattern: (0..16).map(nonzero).collect(),
-            last_rejected: false,
+            control: StepControl::dop853(),
             stats: Stats::default(),
         }
     }
@@ -105,7 +102,7 @@ impl Dop853 {
         self.rcont.fill(0.0);
         self.rcont[..n].copy_from_slice(y0);
         self.dense_ready = true;
-        self.last_rejected = false;
+        self.control.restart();
         Ok(())
     }
 
@@ -149,18 +146,9 @@ impl Dop853 {
     ) -> Result<f64, IntegrationError> {
         let n = self.n;
         loop {
-            let mut h = self.dir * self.h;
-            let mut last = false;
-            if (self.t + 1.01 * h - t_stop) * self.dir > 0.0 {
-                h = t_stop - self.t;
-                last = true;
-            }
-            if h.abs() < self.settings.min_step_s && !last {
-                return Err(IntegrationError::StepTooSmall {
-                    t_s: self.t,
-                    min_step_s: self.settings.min_step_s,
-                });
-            }
+            let (h, last) = self
+                .control
+                .trial(self.t, self.h, self.dir, t_stop, &self.settings)?;
             for s in 1..12 {
                 self.stage(sys, s, self.t, false, h)?;
             }
@@ -195,54 +183,38 @@ impl Dop853 {
             }
             let err = h.abs() * err * (1.0 / (deno * self.n_err as f64)).sqrt();
             if !err.is_finite() {
-                self.h *= 0.25;
-                self.stats.rejected += 1;
-                self.last_rejected = true;
+                self.h = self.control.blown_up(self.h, &mut self.stats);
                 continue;
             }
-            let fac11 = err.powf(1.0 / 8.0);
-            let fac = (fac11 / SAFETY).clamp(1.0 / FAC_MAX, 1.0 / FAC_MIN);
-            let mut h_new = h.abs() / fac;
-            if err <= 1.0 {
-                if self.last_rejected {
-                    h_new = h_new.min(h.abs());
+            let t_new = if last { t_stop } else { self.t + h };
+            let judged =
+                self.control
+                    .judge(err, h.abs(), t_new, &self.settings, &mut self.stats)?;
+            let h_next = match judged {
+                Judgement::Reject { h_retry } => {
+                    self.h = h_retry;
+                    continue;
                 }
-                self.last_rejected = false;
-                // Derivative at the new point (stage 13, and the next step's first).
-                {
-                    let (_, rest) = self.k.split_at_mut(12 * n);
-                    sys.rhs(self.t + h, &self.ynew, &mut rest[..n])?;
-                }
-                self.stats.evaluations += 1;
-                // Keep the step's start for a dense output built later, if asked.
-                std::mem::swap(&mut self.y_prev, &mut self.y);
-                self.f_prev.copy_from_slice(&self.k[..n]);
-                self.y.copy_from_slice(&self.ynew);
-                let (first, rest) = self.k.split_at_mut(12 * n);
-                first[..n].copy_from_slice(&rest[..n]);
-                self.t_prev = self.t;
-                self.t = if last { t_stop } else { self.t + h };
-                self.h_done = h;
-                self.dense_ready = false;
-                self.h = h_new.min(self.settings.max_step_s);
-                self.stats.accepted += 1;
-                if self.stats.accepted > self.settings.max_steps {
-                    return Err(IntegrationError::TooManySteps {
-                        t_s: self.t,
-                        steps: self.stats.accepted,
-                    });
-                }
-                return Ok(self.t);
+                Judgement::Accept { h_next } => h_next,
+            };
+            // Derivative at the new point (stage 13, and the next step's first).
+            {
+                let (_, rest) = self.k.split_at_mut(12 * n);
+                sys.rhs(self.t + h, &self.ynew, &mut rest[..n])?;
             }
-            self.h = h.abs() / (1.0 / FAC_MIN).min(fac11 / SAFETY);
-            self.last_rejected = true;
-            self.stats.rejected += 1;
-            if self.h < self.settings.min_step_s {
-                return Err(IntegrationError::StepTooSmall {
-                    t_s: self.t,
-                    min_step_s: self.settings.min_step_s,
-                });
-            }
+            self.stats.evaluations += 1;
+            // Keep the step's start for a dense output built later, if asked.
+            std::mem::swap(&mut self.y_prev, &mut self.y);
+            self.f_prev.copy_from_slice(&self.k[..n]);
+            self.y.copy_from_slice(&self.ynew);
+            let (first, rest) = self.k.split_at_mut(12 * n);
+            first[..n].copy_from_slice(&rest[..n]);
+            self.t_prev = self.t;
+            self.t = t_new;
+            self.h_done = h;
+            self.dense_ready = false;
+            self.h = h_next;
+            return Ok(self.t);
         }
     }
 

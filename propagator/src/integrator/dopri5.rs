@@ -1,5 +1,6 @@
 //! Dormand–Prince 5(4) with Hairer's step control and 4th-order dense output.
 
+use super::control::{Judgement, StepControl};
 use super::tableau::{DP5_A as A, DP5_C as C, DP5_D as D, DP5_E as E};
 use super::{initial_step, scale, IntegrationError, OdeSystem, Settings, Stats};
 
@@ -18,15 +19,9 @@ pub struct Dopri5 {
     k: [Vec<f64>; 7],
     y1: Vec<f64>,
     rcont: [Vec<f64>; 5],
-    fac_old: f64,
-    last_rejected: bool,
+    control: StepControl,
     stats: Stats,
 }
-
-const BETA: f64 = 0.04;
-const SAFETY: f64 = 0.9;
-const FAC_MIN: f64 = 0.2; // smallest ratio h_new / h
-const FAC_MAX: f64 = 10.0; // largest ratio h_new / h
 
 impl Dopri5 {
     /// A stepper for a system of dimension `n`.
@@ -45,8 +40,7 @@ impl Dopri5 {
             k: [z(), z(), z(), z(), z(), z(), z()],
             y1: z(),
             rcont: [z(), z(), z(), z(), z()],
-            fac_old: 1e-4,
-            last_rejected: false,
+            control: StepControl::dopri5(),
             stats: Stats::default(),
         }
     }
@@ -92,8 +86,7 @@ impl Dopri5 {
             r.fill(0.0);
         }
         self.rcont[0].copy_from_slice(y0);
-        self.fac_old = 1e-4;
-        self.last_rejected = false;
+        self.control.restart();
         Ok(())
     }
 
@@ -104,18 +97,9 @@ impl Dopri5 {
     ) -> Result<f64, IntegrationError> {
         let n = self.n;
         loop {
-            let mut h = self.dir * self.h;
-            let mut last = false;
-            if (self.t + 1.01 * h - t_stop) * self.dir > 0.0 {
-                h = t_stop - self.t;
-                last = true;
-            }
-            if h.abs() < self.settings.min_step_s && !last {
-                return Err(IntegrationError::StepTooSmall {
-                    t_s: self.t,
-                    min_step_s: self.settings.min_step_s,
-                });
-            }
+            let (h, last) = self
+                .control
+                .trial(self.t, self.h, self.dir, t_stop, &self.settings)?;
             // Stages 2..7 (k[1]..k[6]); k[6] at the 5th-order solution (FSAL).
             for s in 1..7 {
                 for i in 0..n {
@@ -148,59 +132,41 @@ impl Dopri5 {
             let err = (err / self.n_err as f64).sqrt();
             if !err.is_finite() {
                 // A blown-up trial step: shrink hard and try again.
-                self.h *= 0.25;
-                self.stats.rejected += 1;
-                self.last_rejected = true;
+                self.h = self.control.blown_up(self.h, &mut self.stats);
                 continue;
             }
-            let fac11 = err.powf(0.2 - BETA * 0.75);
-            let fac =
-                (fac11 / self.fac_old.powf(BETA) / SAFETY).clamp(1.0 / FAC_MAX, 1.0 / FAC_MIN);
-            let mut h_new = h.abs() / fac;
-            if err <= 1.0 {
-                self.fac_old = err.max(1e-4);
-                if self.last_rejected {
-                    h_new = h_new.min(h.abs());
+            let t_new = if last { t_stop } else { self.t + h };
+            let judged =
+                self.control
+                    .judge(err, h.abs(), t_new, &self.settings, &mut self.stats)?;
+            let h_next = match judged {
+                Judgement::Reject { h_retry } => {
+                    self.h = h_retry;
+                    continue;
                 }
-                self.last_rejected = false;
-                // Dense output for [t, t + h].
-                for i in 0..n {
-                    let ydiff = self.y1[i] - self.y[i];
-                    let bspl = h * self.k[0][i] - ydiff;
-                    self.rcont[0][i] = self.y[i];
-                    self.rcont[1][i] = ydiff;
-                    self.rcont[2][i] = bspl;
-                    self.rcont[3][i] = ydiff - h * self.k[6][i] - bspl;
-                    let mut d = 0.0;
-                    for j in 0..7 {
-                        d += D[j] * self.k[j][i];
-                    }
-                    self.rcont[4][i] = h * d;
+                Judgement::Accept { h_next } => h_next,
+            };
+            // Dense output for [t, t + h].
+            for i in 0..n {
+                let ydiff = self.y1[i] - self.y[i];
+                let bspl = h * self.k[0][i] - ydiff;
+                self.rcont[0][i] = self.y[i];
+                self.rcont[1][i] = ydiff;
+                self.rcont[2][i] = bspl;
+                self.rcont[3][i] = ydiff - h * self.k[6][i] - bspl;
+                let mut d = 0.0;
+                for j in 0..7 {
+                    d += D[j] * self.k[j][i];
                 }
-                self.t_prev = self.t;
-                self.t = if last { t_stop } else { self.t + h };
-                self.y.copy_from_slice(&self.y1);
-                let (first, rest) = self.k.split_at_mut(6);
-                first[0].copy_from_slice(&rest[0]);
-                self.h = h_new.min(self.settings.max_step_s);
-                self.stats.accepted += 1;
-                if self.stats.accepted > self.settings.max_steps {
-                    return Err(IntegrationError::TooManySteps {
-                        t_s: self.t,
-                        steps: self.stats.accepted,
-                    });
-                }
-                return Ok(self.t);
+                self.rcont[4][i] = h * d;
             }
-            self.h = h.abs() / (1.0 / FAC_MIN).min(fac11 / SAFETY);
-            self.last_rejected = true;
-            self.stats.rejected += 1;
-            if self.h < self.settings.min_step_s {
-                return Err(IntegrationError::StepTooSmall {
-                    t_s: self.t,
-                    min_step_s: self.settings.min_step_s,
-                });
-            }
+            self.t_prev = self.t;
+            self.t = t_new;
+            self.y.copy_from_slice(&self.y1);
+            let (first, rest) = self.k.split_at_mut(6);
+            first[0].copy_from_slice(&rest[0]);
+            self.h = h_next;
+            return Ok(self.t);
         }
     }
 

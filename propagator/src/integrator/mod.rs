@@ -15,6 +15,7 @@
 // Numerical kernels index several arrays in step; index loops read like the formulas.
 #![allow(clippy::needless_range_loop)]
 
+mod control;
 mod dop853;
 mod dopri5;
 mod rk4;
