@@ -6,7 +6,7 @@
 
 use learned_forces::arc::{Arc, ArcDefaults};
 use learned_forces::learned_file::LearnedFile;
-use learned_forces::next_arc::{noise_rms_km, predict, GateRule};
+use learned_forces::next_arc::{check, GateRule};
 use propagator::config::ForcesFile;
 use std::path::Path;
 use std::process::ExitCode;
@@ -22,28 +22,21 @@ fn run(args: &[String]) -> Result<bool, String> {
         .map_err(|e| e.to_string())?;
     // The learned prediction starts from the fit with the learned force; the baseline
     // from the known-forces fit of the same training arc.
-    let (epoch, x0) = file.state_at_end.state("state_at_end")?;
-    let (known_epoch, known_x0) = file
-        .state_at_end_known_forces
-        .as_ref()
-        .ok_or("the learned file has no known-forces end state; run learn again")?
-        .state("state_at_end_known_forces")?;
-    let base = spec
-        .build(Path::new(forces), known_epoch)
-        .map_err(|e| e.to_string())?
-        .model;
-    let mut corrected = spec
-        .build(Path::new(forces), epoch)
-        .map_err(|e| e.to_string())?
-        .model;
-    corrected.push(Box::new(file.force(&epoch)?));
-    let rb = predict(&base, &known_epoch, known_x0, &arc)?.rms_km;
-    let rl = predict(&corrected, &epoch, x0, &arc)?.rms_km;
-    let gate = GateRule {
+    let known_forces = |at: propagator::Epoch| {
+        spec.build(Path::new(forces), at)
+            .map(|b| b.model)
+            .map_err(|e| e.to_string())
+    };
+    let rule = GateRule {
         max_rms_km: Some(max),
         ..GateRule::default()
-    }
-    .judge(rl, rb, noise_rms_km(&arc));
+    };
+    let checked = check(&file, &known_forces, &arc, &rule).map_err(|e| e.to_string())?;
+    let (rl, rb, gate) = (
+        checked.learned.rms_km,
+        checked.known.rms_km,
+        checked.outcome,
+    );
     println!(
         "next arc RMS: {:.2} m with the learned force, {:.2} m with the known forces only",
         rl * 1e3,

@@ -208,6 +208,76 @@ impl GateRule {
     }
 }
 
+/// Where a next-arc check failed: in the learned file, in building the known forces,
+/// or in predicting the arc (the caller names the file).
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum CheckError {
+    /// The learned file's end states or force.
+    #[error("{0}")]
+    Learned(String),
+    /// The known force model.
+    #[error("{0}")]
+    Model(String),
+    /// The arc (before the start, a failed or decayed propagation).
+    #[error("{0}")]
+    Arc(String),
+}
+
+/// Both predictions of a next arc and the gate's verdict on them.
+#[derive(Clone, Debug)]
+pub struct NextArcCheck {
+    /// Where the learned prediction starts (the training fit's end).
+    pub epoch: Epoch,
+    /// With the learned force, from the learned fit's end state.
+    pub learned: Prediction,
+    /// With the known forces only, from the known-forces fit's end state.
+    pub known: Prediction,
+    /// The arc's noise RMS, km.
+    pub noise_km: f64,
+    /// The verdict of `rule`.
+    pub outcome: GateOutcome,
+}
+
+/// Predicts `arc` with the known forces plus the learned force of `file` (from its
+/// `state_at_end`) and with the known forces alone (from `state_at_end_known_forces`),
+/// and judges the two by `rule`; `known_forces(epoch)` builds the known model on a time
+/// axis starting at `epoch`.
+pub fn check(
+    file: &crate::learned_file::LearnedFile,
+    known_forces: &dyn Fn(Epoch) -> Result<ForceModel, String>,
+    arc: &Arc,
+    rule: &GateRule,
+) -> Result<NextArcCheck, CheckError> {
+    let (epoch, x0) = file
+        .state_at_end
+        .state("state_at_end")
+        .map_err(CheckError::Learned)?;
+    let (known_epoch, known_x0) = file
+        .state_at_end_known_forces
+        .as_ref()
+        .ok_or_else(|| {
+            CheckError::Learned(
+                "no state_at_end_known_forces (written by an older arcwise): the known-forces baseline cannot be formed; run learn again".into(),
+            )
+        })?
+        .state("state_at_end_known_forces")
+        .map_err(CheckError::Learned)?;
+    let known_model = known_forces(known_epoch).map_err(CheckError::Model)?;
+    let mut learned_model = known_forces(epoch).map_err(CheckError::Model)?;
+    learned_model.push(Box::new(file.force(&epoch).map_err(CheckError::Learned)?));
+    let known = predict(&known_model, &known_epoch, known_x0, arc).map_err(CheckError::Arc)?;
+    let learned = predict(&learned_model, &epoch, x0, arc).map_err(CheckError::Arc)?;
+    let noise_km = noise_rms_km(arc);
+    let outcome = rule.judge(learned.rms_km, known.rms_km, noise_km);
+    Ok(NextArcCheck {
+        epoch,
+        learned,
+        known,
+        noise_km,
+        outcome,
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -6,7 +6,7 @@ use crate::plot::{write_panels, Panel, Series};
 use crate::report::write_report;
 use clap::Args as ClapArgs;
 use learned_forces::learned_file::{LearnedFile, LearnedResolver};
-use learned_forces::next_arc::{noise_rms_km, predict, GateRule, Prediction};
+use learned_forces::next_arc::{check, CheckError, GateRule, NextArcCheck, Prediction};
 use propagator::config::ForcesFile;
 use propagator::Epoch;
 use std::path::PathBuf;
@@ -74,41 +74,27 @@ pub fn run(a: Args) -> Result<(), CliError> {
     }
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
     let (arc, _, _) = a.arc_options.load(&a.arc, &spec, &a.forces)?;
-    let (epoch, x0) = file
-        .state_at_end
-        .state("state_at_end")
-        .map_err(|e| CliError::input(format!("{}: {e}", a.learned.display())))?;
-    let (known_epoch, known_x0) = file
-        .state_at_end_known_forces
-        .as_ref()
-        .ok_or_else(|| {
-            CliError::input(format!(
-                "{}: no state_at_end_known_forces (written by an older arcwise): the known-forces baseline cannot be formed; run learn again",
-                a.learned.display()
-            ))
-        })?
-        .state("state_at_end_known_forces")
-        .map_err(|e| CliError::input(format!("{}: {e}", a.learned.display())))?;
-    let build = |at: &Epoch| {
-        spec.build_with(&a.forces, *at, &LearnedResolver)
-            .map(|b| b.model)
-            .map_err(CliError::input)
-    };
-    let base_model = build(&known_epoch)?;
-    let mut learned_model = build(&epoch)?;
-    learned_model
-        .push(Box::new(file.force(&epoch).map_err(|e| {
-            CliError::input(format!("{}: {e}", a.learned.display()))
-        })?));
-    let on_arc = |e: String| CliError::input(format!("{}: {e}", a.arc.display()));
-    let base = predict(&base_model, &known_epoch, known_x0, &arc).map_err(on_arc)?;
-    let learned = predict(&learned_model, &epoch, x0, &arc).map_err(on_arc)?;
-    let noise_km = noise_rms_km(&arc);
     let rule = GateRule {
         max_rms_km: a.max_rms_km,
         ..GateRule::default()
     };
-    let gate = rule.judge(learned.rms_km, base.rms_km, noise_km);
+    let known_forces = |at: Epoch| {
+        spec.build_with(&a.forces, at, &LearnedResolver)
+            .map(|b| b.model)
+            .map_err(|e| e.to_string())
+    };
+    let checked = check(&file, &known_forces, &arc, &rule).map_err(|e| match e {
+        CheckError::Learned(m) => CliError::input(format!("{}: {m}", a.learned.display())),
+        CheckError::Model(m) => CliError::input(m),
+        CheckError::Arc(m) => CliError::input(format!("{}: {m}", a.arc.display())),
+    })?;
+    let NextArcCheck {
+        epoch,
+        learned,
+        known: base,
+        noise_km,
+        outcome: gate,
+    } = checked;
     let passed = gate.passed;
     let quarters = learned.rms_by_quarter_km();
     let times = &learned.times_s;
