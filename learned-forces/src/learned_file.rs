@@ -486,6 +486,108 @@ impl LearnedFile {
         Ok(())
     }
 
+    /// The file for what `learn` found on `arc` under the known model whose terminals
+    /// are `context`: the chosen terms (none when nothing was learned), the validity
+    /// window of the arc (altitude over a sphere of the context's radius, margins of the
+    /// arc's span and 20 km), the fit statistics and both end states. The checksum is set
+    /// by [`Self::to_yaml`].
+    pub fn from_learned(
+        learned: &crate::learn::Learned,
+        arc: &crate::arc::Arc,
+        context: &Context,
+        name: &str,
+        outside: OutsidePolicy,
+        provenance: ProvenanceEntry,
+    ) -> Self {
+        let l = learned;
+        let r = context.radius_km;
+        let heights: Vec<f64> = arc.observations.iter().map(|o| o.r_km.norm() - r).collect();
+        let span = arc.end().seconds_since(&arc.start());
+        let observations = arc.observations.len();
+        let (terms, constants, fit, end) = match &l.chosen {
+            Some(c) => (
+                c.nodes
+                    .iter()
+                    .zip(c.coefficients.iter().zip(&c.sigmas))
+                    .map(|(n, (v, s))| TermEntry {
+                        formula: n.to_string(),
+                        coefficient: *v,
+                        sigma: *s,
+                    })
+                    .collect(),
+                c.constants
+                    .iter()
+                    .zip(&c.constant_sigmas)
+                    .enumerate()
+                    .filter(|(_, (v, _))| v.is_finite())
+                    .map(|(i, (v, s))| ConstantEntry {
+                        name: format!("k{i}"),
+                        value: *v,
+                        sigma: *s,
+                    })
+                    .collect(),
+                FitEntry {
+                    observations,
+                    rms_km_before: l.base.rms_km,
+                    rms_km_after: c.fit.rms_km,
+                    held_out_rms_km: c.held_out_rms_km,
+                    chi2: c.fit.verdict.chi2,
+                    dof: c.fit.verdict.dof,
+                },
+                StateEntry::new(&c.fit.epoch_last, &c.fit.x_last),
+            ),
+            None => (
+                vec![],
+                vec![],
+                FitEntry {
+                    observations,
+                    rms_km_before: l.base.rms_km,
+                    rms_km_after: l.base.rms_km,
+                    held_out_rms_km: l.held_out_rms_base_km.unwrap_or(f64::NAN).max(0.0),
+                    chi2: l.base.verdict.chi2,
+                    dof: l.base.verdict.dof,
+                },
+                StateEntry::new(&l.base.epoch_last, &l.base.x_last),
+            ),
+        };
+        let fit = FitEntry {
+            held_out_rms_km: if fit.held_out_rms_km.is_finite() {
+                fit.held_out_rms_km
+            } else {
+                0.0
+            },
+            ..fit
+        };
+        Self {
+            format_version: FORMAT_VERSION,
+            name: name.to_string(),
+            frame: "ECI".into(),
+            epoch_utc: arc.start().to_utc_string(),
+            earth: EarthEntry {
+                radius_km: r,
+                rotation_rad_s: context.rotation_rad_s,
+            },
+            environment: EnvironmentEntry::of(&context.environment),
+            terms,
+            constants,
+            validity: ValidityEntry {
+                start_utc: arc.start().to_utc_string(),
+                end_utc: arc.end().to_utc_string(),
+                min_altitude_km: heights.iter().copied().fold(f64::INFINITY, f64::min),
+                max_altitude_km: heights.iter().copied().fold(f64::NEG_INFINITY, f64::max),
+                outside,
+                time_margin_s: span,
+                altitude_margin_km: 20.0,
+            },
+            fit,
+            provenance,
+            state_at_end: end,
+            state_at_end_known_forces: Some(StateEntry::new(&l.base.epoch_last, &l.base.x_last)),
+            notes: l.notes.clone(),
+            checksum: String::new(),
+        }
+    }
+
     /// The atmosphere and altitude of the file's terminals.
     pub fn environment(&self) -> Result<Environment, String> {
         self.environment

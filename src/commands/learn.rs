@@ -13,9 +13,7 @@ use learned_forces::fit::FitOptions;
 use learned_forces::learn::search::SearchOptions;
 use learned_forces::learn::{learn, model_text, trajectory, LearnOptions, Learned, Outcome};
 use learned_forces::learned_file::{
-    sha256_hex, ConstantEntry, EarthEntry, EnvironmentEntry, FitEntry, LearnedFile,
-    LearnedResolver, OutsidePolicy, ProvenanceEntry, StateEntry, TermEntry, ValidityEntry,
-    FORMAT_VERSION,
+    sha256_hex, LearnedFile, LearnedResolver, OutsidePolicy, ProvenanceEntry,
 };
 use propagator::config::ForcesFile;
 use propagator::ephemeris::write_atomically;
@@ -185,7 +183,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
             })
             .unwrap_or_else(|| "learned".into())
     });
-    let mut file = learned_file(&a, &arc, &spec, &learned, &name, outside)?;
+    let mut file = learned_file(&a, &arc, &context, &learned, &name, outside)?;
     write_atomically(&a.out, file.to_yaml().as_bytes()).map_err(CliError::input)?;
     summarize(&learned, &a.out);
     if let Some(dir) = &a.plot {
@@ -211,10 +209,11 @@ pub fn run(a: Args) -> Result<(), CliError> {
     }
 }
 
+/// The learned file: the library assembles it; the command adds the provenance.
 fn learned_file(
     a: &Args,
     arc: &Arc,
-    spec: &ForcesFile,
+    context: &Context,
     l: &Learned,
     name: &str,
     outside: OutsidePolicy,
@@ -224,96 +223,15 @@ fn learned_file(
             .map(|b| sha256_hex(&b))
             .map_err(|e| CliError::input(format!("{}: {e}", p.display())))
     };
-    let r = spec.central_body.radius_km;
-    let heights: Vec<f64> = arc.observations.iter().map(|o| o.r_km.norm() - r).collect();
-    let span = arc.end().seconds_since(&arc.start());
-    let (terms, constants, fit, end) = match &l.chosen {
-        Some(c) => {
-            let terms = c
-                .nodes
-                .iter()
-                .zip(c.coefficients.iter().zip(&c.sigmas))
-                .map(|(n, (v, s))| TermEntry {
-                    formula: n.to_string(),
-                    coefficient: *v,
-                    sigma: *s,
-                })
-                .collect();
-            let constants = c
-                .constants
-                .iter()
-                .zip(&c.constant_sigmas)
-                .enumerate()
-                .filter(|(_, (v, _))| v.is_finite())
-                .map(|(i, (v, s))| ConstantEntry {
-                    name: format!("k{i}"),
-                    value: *v,
-                    sigma: *s,
-                })
-                .collect();
-            let fit = FitEntry {
-                observations: arc.observations.len(),
-                rms_km_before: l.base.rms_km,
-                rms_km_after: c.fit.rms_km,
-                held_out_rms_km: c.held_out_rms_km,
-                chi2: c.fit.verdict.chi2,
-                dof: c.fit.verdict.dof,
-            };
-            (terms, constants, fit, (&c.fit.epoch_last, c.fit.x_last))
-        }
-        None => (
-            vec![],
-            vec![],
-            FitEntry {
-                observations: arc.observations.len(),
-                rms_km_before: l.base.rms_km,
-                rms_km_after: l.base.rms_km,
-                held_out_rms_km: l.held_out_rms_base_km.unwrap_or(f64::NAN).max(0.0),
-                chi2: l.base.verdict.chi2,
-                dof: l.base.verdict.dof,
-            },
-            (&l.base.epoch_last, l.base.x_last),
-        ),
+    let provenance = ProvenanceEntry {
+        arc_sha256: read(&a.arc)?,
+        forces_sha256: read(&a.forces)?,
+        seed: a.seed,
+        tool_version: env!("CARGO_PKG_VERSION").into(),
     };
-    let mut fit = fit;
-    if !fit.held_out_rms_km.is_finite() {
-        fit.held_out_rms_km = 0.0;
-    }
-    Ok(LearnedFile {
-        format_version: FORMAT_VERSION,
-        name: name.to_string(),
-        frame: "ECI".into(),
-        epoch_utc: arc.start().to_utc_string(),
-        earth: EarthEntry {
-            radius_km: r,
-            rotation_rad_s: spec.central_body.rotation_rad_s,
-        },
-        environment: EnvironmentEntry::of(
-            &learned_forces::expr::Context::of_model(spec, &arc.start()).environment,
-        ),
-        terms,
-        constants,
-        validity: ValidityEntry {
-            start_utc: arc.start().to_utc_string(),
-            end_utc: arc.end().to_utc_string(),
-            min_altitude_km: heights.iter().copied().fold(f64::INFINITY, f64::min),
-            max_altitude_km: heights.iter().copied().fold(f64::NEG_INFINITY, f64::max),
-            outside,
-            time_margin_s: span,
-            altitude_margin_km: 20.0,
-        },
-        fit,
-        provenance: ProvenanceEntry {
-            arc_sha256: read(&a.arc)?,
-            forces_sha256: read(&a.forces)?,
-            seed: a.seed,
-            tool_version: env!("CARGO_PKG_VERSION").into(),
-        },
-        state_at_end: StateEntry::new(end.0, &end.1),
-        state_at_end_known_forces: Some(StateEntry::new(&l.base.epoch_last, &l.base.x_last)),
-        notes: l.notes.clone(),
-        checksum: String::new(),
-    })
+    Ok(LearnedFile::from_learned(
+        l, arc, context, name, outside, provenance,
+    ))
 }
 
 fn summarize(l: &Learned, out: &Path) {
