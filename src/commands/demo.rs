@@ -171,7 +171,9 @@ pub fn run(a: Args) -> Result<(), CliError> {
     let r = nalgebra::Vector3::new(x[0], x[1], x[2]);
     let v = nalgebra::Vector3::new(x[3], x[4], x[5]);
     let rr = r * ((r.norm() - 1.5) / r.norm());
-    let vs = r.normalize().cross(&v).normalize() * (398_600.441_8 / rr.norm()).sqrt();
+    // A circular orbit in another plane crossing the prediction 1.5 km below it.
+    let mu = propagator::CentralBody::EARTH_EGM96.mu_km3_s2;
+    let vs = r.normalize().cross(&v).normalize() * (mu / rr.norm()).sqrt();
     let secondary = d.join("secondary_debris.yaml");
     std::fs::write(
         &secondary,
