@@ -4,10 +4,14 @@
 // Numeric kernels index several arrays in step.
 #![allow(clippy::needless_range_loop)]
 
+mod final_fit;
+mod holdout;
 pub mod hypotheses;
 pub mod linearized;
 pub mod rank;
+mod refine;
 pub mod search;
+mod select;
 
 use crate::arc::Arc;
 use crate::expr::{Context, Node};
@@ -731,6 +735,7 @@ pub fn learn(
         options,
         context,
     };
+    // 1. Base fit: the known forces alone; a quiet arc ends here.
     let (base, short) = l.base_fit(fit_observer)?;
     let mut notes = Vec::new();
     if let Some(short) = short {
@@ -742,53 +747,86 @@ pub fn learn(
             short.span()
         ));
     }
+    let nothing = |base, front, held_out_rms_base_km, notes, search_stats| Learned {
+        base,
+        chosen: None,
+        front,
+        held_out_rms_base_km,
+        notes,
+        search_stats,
+    };
     if !base.verdict.anomaly {
         notes.push("the base fit's verdict is no_anomaly: the known forces explain the arc; nothing was learned".into());
-        return Ok(Learned {
-            base,
-            chosen: None,
-            front: vec![],
-            held_out_rms_base_km: None,
-            notes,
-            search_stats: None,
-        });
+        return Ok(nothing(base, vec![], None, notes, None));
     }
-    // Train on the early part, hold out the tail.
-    let span = arc.end().seconds_since(&arc.start());
-    let cut = (1.0 - options.holdout_fraction) * span;
-    let (train_obs, held_obs): (Vec<_>, Vec<_>) = arc
-        .observations
-        .iter()
-        .partition(|o| o.epoch.seconds_since(&arc.start()) <= cut);
-    let train = Arc {
-        observations: train_obs.into_iter().copied().collect(),
-    };
-    let held = Arc {
-        observations: held_obs.into_iter().copied().collect(),
-    };
-    if train.observations.len() < 10 || held.observations.is_empty() {
-        return Err(LearnError::Unfit(
-            "the arc is too short to hold out a part for selection".into(),
-        ));
-    }
-    let base_train = fit(
-        &train,
-        l.model()?,
-        &FitOptions {
-            initial_state: Some(base.x0),
-            ..options.fit.clone()
-        },
-        fit_observer,
-    )?;
-    let held_out_base = l.predict_rms(&base_train, &[], &held)?;
-    let problem = l.problem(&train, &base_train)?;
+    // 2. Hold-out: train on the early part, keep the tail for selection.
+    let split = holdout::HoldOut::split(arc, options.holdout_fraction)?;
+    let base_train = l.train_fit(&split, &base, fit_observer)?;
+    let held_out_base = l.predict_rms(&base_train, &[], &split.held)?;
+    // 3. Linearized sensitivities of the training fit.
+    let problem = l.problem(&split.train, &base_train)?;
+    // 4. Search over formulas in the linearized problem.
     let sopts = SearchOptions {
-        span_s: cut,
+        span_s: split.cut_s,
         ..options.search.clone()
     };
     let found = search(&problem, &sopts, search_observer);
-    let mut front: Vec<FrontEntry> = found
-        .front
+    let mut front = front_entries(&found.front);
+    let stats = Some((found.evaluations, found.generations, found.seconds));
+    // 5. Refinement of the most promising with the force in the dynamics.
+    let refined = l.refine_front(&found.front, &problem, &split, &base_train, fit_observer)?;
+    for r in &refined {
+        if let Some(f) = front.iter_mut().find(|f| f.complexity == r.complexity) {
+            f.held_out_rms_km = Some(r.held_out_rms_km);
+        }
+    }
+    // 6. Selection: the simplest that predicts the tail as well as the best.
+    let best = select::best_held_out(&refined);
+    let Some(chosen) = select::simplest_as_good(&refined, best, &split.held, options) else {
+        notes.push("no candidate survived refinement with significant terms".into());
+        return Ok(nothing(base, front, Some(held_out_base), notes, stats));
+    };
+    if chosen.held_out_rms_km >= held_out_base {
+        notes.push(format!(
+            "the best model predicts the held-out tail no better than the known forces ({:.1} m vs {:.1} m): nothing learned",
+            chosen.held_out_rms_km * 1e3,
+            held_out_base * 1e3
+        ));
+        return Ok(nothing(base, front, Some(held_out_base), notes, stats));
+    }
+    // 7. Equivalent forms: among forms the arc cannot tell apart, the canonical one, so
+    // that the formula does not flip with the noise.
+    let (sol, train_fit, rms) = l.canonical_equivalent(
+        &problem,
+        (&split.train, &base_train, &split.held),
+        (chosen.solution, chosen.fit, chosen.held_out_rms_km),
+        best,
+        &mut notes,
+        fit_observer,
+    )?;
+    // 8. Final fit on the whole arc.
+    let chosen = l.final_fit(
+        &base,
+        &problem,
+        sol,
+        &train_fit,
+        rms,
+        &mut notes,
+        fit_observer,
+    )?;
+    Ok(Learned {
+        base,
+        chosen: Some(chosen),
+        front,
+        held_out_rms_base_km: Some(held_out_base),
+        notes,
+        search_stats: stats,
+    })
+}
+
+/// The search's front as the report lists it (held-out errors filled in by refinement).
+fn front_entries(front: &[Solution]) -> Vec<FrontEntry> {
+    front
         .iter()
         .map(|s| FrontEntry {
             complexity: s.complexity,
@@ -796,213 +834,7 @@ pub fn learn(
             cost: s.cost,
             held_out_rms_km: None,
         })
-        .collect();
-    // Refine the most promising front members with the force in the dynamics, then
-    // re-test each term's significance around the refined solution.
-    let mut refined: Vec<(usize, Solution, FitResult, f64)> = Vec::new();
-    // "Most promising" by BIC (χ² + k ln m, k coefficients and constants): by χ² alone
-    // the most complex members always win, and a simpler one only a fraction of a χ²
-    // unit worse was never refined. The best fit by χ² is refined too.
-    let ln_m = (problem.rows().max(2) as f64).ln();
-    let bic = |s: &Solution| s.cost + (s.coefficients.len() + s.constants.len()) as f64 * ln_m;
-    let mut order: Vec<usize> = (0..found.front.len()).collect();
-    order.sort_by(|&a, &b| bic(&found.front[a]).total_cmp(&bic(&found.front[b])));
-    order.truncate(options.refine_top);
-    if let Some(best_fit) =
-        (0..found.front.len()).min_by(|&a, &b| found.front[a].cost.total_cmp(&found.front[b].cost))
-    {
-        if !order.contains(&best_fit) {
-            order.push(best_fit);
-        }
-    }
-    order.sort();
-    for idx in order {
-        let mut sol = found.front[idx].clone();
-        let mut result = None;
-        for _ in 0..sol.nodes.len() {
-            let r = match l.refine(
-                &train,
-                base_train.x0,
-                &base_train.values,
-                &sol.nodes,
-                &sol.coefficients,
-                &sol.constants,
-                fit_observer,
-            ) {
-                Ok(r) => r,
-                Err(_) => break,
-            };
-            let nb = options.fit.estimate.len();
-            let signif: Vec<f64> = (0..sol.nodes.len())
-                .map(|i| {
-                    let e = &r.estimates[nb + i];
-                    e.value.abs() / e.sigma.max(1e-300)
-                })
-                .collect();
-            let (worst, wv) = signif
-                .iter()
-                .copied()
-                .enumerate()
-                .min_by(|a, b| a.1.total_cmp(&b.1))
-                .unwrap_or((0, f64::INFINITY));
-            if wv >= options.search.threshold || sol.nodes.len() == 1 {
-                if wv >= options.search.threshold {
-                    result = Some(r);
-                }
-                break;
-            }
-            sol.nodes.remove(worst);
-            sol.coefficients.remove(worst);
-        }
-        let Some(r) = result else { continue };
-        let rms = l.predict_rms(&r, &sol.nodes, &held)?;
-        if let Some(f) = front
-            .iter_mut()
-            .find(|f| f.complexity == found.front[idx].complexity)
-        {
-            f.held_out_rms_km = Some(rms);
-        }
-        refined.push((idx, sol, r, rms));
-    }
-    let best = refined.iter().map(|r| r.3).fold(f64::INFINITY, f64::min);
-    let chosen_one = refined
-        .iter()
-        .filter(|r| predicts_as_well(r.3, best, &held, options.selection_tolerance))
-        .min_by_key(|r| r.1.nodes.iter().map(|n| n.complexity() + 1).sum::<usize>());
-    let stats = Some((found.evaluations, found.generations, found.seconds));
-    let Some((_, sol, train_fit, rms)) = chosen_one.cloned() else {
-        notes.push("no candidate survived refinement with significant terms".into());
-        return Ok(Learned {
-            base,
-            chosen: None,
-            front,
-            held_out_rms_base_km: Some(held_out_base),
-            notes,
-            search_stats: stats,
-        });
-    };
-    if rms >= held_out_base {
-        notes.push(format!(
-            "the best model predicts the held-out tail no better than the known forces ({:.1} m vs {:.1} m): nothing learned",
-            rms * 1e3,
-            held_out_base * 1e3
-        ));
-        return Ok(Learned {
-            base,
-            chosen: None,
-            front,
-            held_out_rms_base_km: Some(held_out_base),
-            notes,
-            search_stats: stats,
-        });
-    }
-    // Among forms the arc cannot tell apart, report the canonical one, so that the
-    // formula does not flip with the noise.
-    let (sol, train_fit, rms) = l.canonical_equivalent(
-        &problem,
-        (&train, &base_train, &held),
-        (sol, train_fit, rms),
-        best,
-        &mut notes,
-        fit_observer,
-    )?;
-    // Final fit on the whole arc.
-    let nb = options.fit.estimate.len();
-    let c0: Vec<f64> = (0..sol.nodes.len())
-        .map(|i| train_fit.values[nb + i])
-        .collect();
-    let mut k0 = sol.constants.clone();
-    for e in &train_fit.estimates {
-        if let Parameter::TermConstant(j) = e.parameter {
-            if j < k0.len() {
-                k0[j] = e.value;
-            }
-        }
-    }
-    let full = l.refine(
-        arc,
-        base.x0,
-        &base.values,
-        &sol.nodes,
-        &c0,
-        &k0,
-        fit_observer,
-    )?;
-    let mut coefficients = Vec::new();
-    let mut sigmas = Vec::new();
-    let mut constants = vec![f64::NAN; k0.len()];
-    let mut constant_sigmas = vec![f64::NAN; k0.len()];
-    for e in &full.estimates {
-        match e.parameter {
-            Parameter::TermCoefficient(_) => {
-                coefficients.push(e.value);
-                sigmas.push(e.sigma);
-            }
-            Parameter::TermConstant(j) if j < constants.len() => {
-                constants[j] = e.value;
-                constant_sigmas[j] = e.sigma;
-            }
-            _ => {}
-        }
-    }
-    // A file with NaN in it would be refused by every reader: say so here instead.
-    if !coefficients
-        .iter()
-        .chain(&sigmas)
-        .chain(&constants)
-        .chain(&constant_sigmas)
-        .all(|x| x.is_finite())
-    {
-        return Err(LearnError::Unfit(format!(
-            "the final fit of `{}` gave a non-finite coefficient, constant or σ (a singular covariance): nothing written",
-            sol.nodes
-                .iter()
-                .map(|n| n.to_string())
-                .collect::<Vec<_>>()
-                .join(" + ")
-        )));
-    }
-    // A constant whose sign the formulas cannot see (a width inside a square) is
-    // reported positive, as a reader expects of a width.
-    let span_s = arc.end().seconds_since(&arc.start());
-    for j in 0..constants.len() {
-        let ends = [full.x0, full.x_last];
-        if constants[j] < 0.0
-            && sign_invisible(&sol.nodes, &constants, j, &ends, span_s, &l.context)
-        {
-            constants[j] = -constants[j];
-        }
-    }
-    let absorbed: Vec<f64> = sol
-        .nodes
-        .iter()
-        .map(|n| problem.absorbed_fraction(n, &k0))
-        .collect();
-    for (n, a) in sol.nodes.iter().zip(&absorbed) {
-        if *a > 0.999 {
-            notes.push(format!(
-                "term `{n}`: {:.0}% of its signature on this arc is indistinguishable from a change of the initial state; its coefficient rests on the rest",
-                a * 100.0
-            ));
-        }
-    }
-    Ok(Learned {
-        base,
-        chosen: Some(Chosen {
-            nodes: sol.nodes,
-            coefficients,
-            sigmas,
-            constants,
-            constant_sigmas,
-            fit: full,
-            held_out_rms_km: rms,
-            absorbed,
-        }),
-        front,
-        held_out_rms_base_km: Some(held_out_base),
-        notes,
-        search_stats: stats,
-    })
+        .collect()
 }
 
 #[cfg(test)]

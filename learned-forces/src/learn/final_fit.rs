@@ -1,0 +1,114 @@
+//! Stage 8: the final fit — the chosen terms fitted on the whole arc from the training
+//! fit's values, their coefficients, constants and σ read by name, checked finite, a
+//! sign-blind constant reported positive, and how much of each term the initial state
+//! absorbs.
+
+use super::linearized::{Problem, Solution};
+use super::{sign_invisible, Chosen, FitObserver, FitResult, LearnError, Learner};
+use crate::fit::model::Parameter;
+
+impl Learner<'_> {
+    /// The chosen model fitted on the whole arc (from `base`'s state and values and
+    /// `train_fit`'s terms); notes for terms the initial state absorbs.
+    #[allow(clippy::too_many_arguments)]
+    pub(super) fn final_fit(
+        &self,
+        base: &FitResult,
+        problem: &Problem,
+        sol: Solution,
+        train_fit: &FitResult,
+        held_out_rms_km: f64,
+        notes: &mut Vec<String>,
+        observer: &mut dyn FitObserver,
+    ) -> Result<Chosen, LearnError> {
+        let nb = self.options.fit.estimate.len();
+        let c0: Vec<f64> = (0..sol.nodes.len())
+            .map(|i| train_fit.values[nb + i])
+            .collect();
+        let mut k0 = sol.constants.clone();
+        for e in &train_fit.estimates {
+            if let Parameter::TermConstant(j) = e.parameter {
+                if j < k0.len() {
+                    k0[j] = e.value;
+                }
+            }
+        }
+        let full = self.refine(
+            self.arc,
+            base.x0,
+            &base.values,
+            &sol.nodes,
+            &c0,
+            &k0,
+            observer,
+        )?;
+        let mut coefficients = Vec::new();
+        let mut sigmas = Vec::new();
+        let mut constants = vec![f64::NAN; k0.len()];
+        let mut constant_sigmas = vec![f64::NAN; k0.len()];
+        for e in &full.estimates {
+            match e.parameter {
+                Parameter::TermCoefficient(_) => {
+                    coefficients.push(e.value);
+                    sigmas.push(e.sigma);
+                }
+                Parameter::TermConstant(j) if j < constants.len() => {
+                    constants[j] = e.value;
+                    constant_sigmas[j] = e.sigma;
+                }
+                _ => {}
+            }
+        }
+        // A file with NaN in it would be refused by every reader: say so here instead.
+        if !coefficients
+            .iter()
+            .chain(&sigmas)
+            .chain(&constants)
+            .chain(&constant_sigmas)
+            .all(|x| x.is_finite())
+        {
+            return Err(LearnError::Unfit(format!(
+                "the final fit of `{}` gave a non-finite coefficient, constant or σ (a singular covariance): nothing written",
+                sol.nodes
+                    .iter()
+                    .map(|n| n.to_string())
+                    .collect::<Vec<_>>()
+                    .join(" + ")
+            )));
+        }
+        // A constant whose sign the formulas cannot see (a width inside a square) is
+        // reported positive, as a reader expects of a width.
+        let span_s = self.arc.end().seconds_since(&self.arc.start());
+        for j in 0..constants.len() {
+            let ends = [full.x0, full.x_last];
+            if constants[j] < 0.0
+                && sign_invisible(&sol.nodes, &constants, j, &ends, span_s, &self.context)
+            {
+                constants[j] = -constants[j];
+            }
+        }
+        let absorbed: Vec<f64> = sol
+            .nodes
+            .iter()
+            .map(|n| problem.absorbed_fraction(n, &k0))
+            .collect();
+        for (n, a) in sol.nodes.iter().zip(&absorbed) {
+            if *a > 0.999 {
+                notes.push(format!(
+                    "term `{n}`: {:.0}% of its signature on this arc is indistinguishable from a change of the initial state; its coefficient rests on the rest",
+                    a * 100.0
+                ));
+            }
+        }
+        Ok(Chosen {
+            nodes: sol.nodes,
+            coefficients,
+            sigmas,
+            constants,
+            constant_sigmas,
+            fit: full,
+            held_out_rms_km,
+            absorbed,
+        })
+    }
+}

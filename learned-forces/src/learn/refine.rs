@@ -1,0 +1,117 @@
+//! Stage 5: refinement — the most promising members of the search's front fitted with
+//! their force in the dynamics, the least significant term pruned until every term is
+//! significant, and each survivor's prediction of the held-out tail.
+
+use super::holdout::HoldOut;
+use super::linearized::{Problem, Solution};
+use super::{FitObserver, FitResult, LearnError, Learner};
+
+/// A front member after refinement.
+#[derive(Clone)]
+pub(super) struct Refined {
+    /// The front member's complexity (its key in the report's front).
+    pub(super) complexity: usize,
+    /// Its terms after pruning.
+    pub(super) solution: Solution,
+    /// The training arc fitted with them.
+    pub(super) fit: FitResult,
+    /// Their prediction of the held-out tail, km.
+    pub(super) held_out_rms_km: f64,
+}
+
+impl Learner<'_> {
+    /// Refines the members of `front` worth refining ([`worth_refining`]), in front
+    /// order; members that lose every term, or whose fit fails, drop out.
+    pub(super) fn refine_front(
+        &self,
+        front: &[Solution],
+        problem: &Problem,
+        split: &HoldOut,
+        base_train: &FitResult,
+        observer: &mut dyn FitObserver,
+    ) -> Result<Vec<Refined>, LearnError> {
+        let mut refined = Vec::new();
+        for idx in worth_refining(front, problem.rows(), self.options.refine_top) {
+            let Some((solution, fit)) = self.prune(&front[idx], split, base_train, observer) else {
+                continue;
+            };
+            let held_out_rms_km = self.predict_rms(&fit, &solution.nodes, &split.held)?;
+            refined.push(Refined {
+                complexity: front[idx].complexity,
+                solution,
+                fit,
+                held_out_rms_km,
+            });
+        }
+        Ok(refined)
+    }
+
+    /// Fits `member` in the dynamics and removes its least significant term until all
+    /// pass the search's threshold; `None` when none is left significant or a fit fails.
+    fn prune(
+        &self,
+        member: &Solution,
+        split: &HoldOut,
+        base_train: &FitResult,
+        observer: &mut dyn FitObserver,
+    ) -> Option<(Solution, FitResult)> {
+        let threshold = self.options.search.threshold;
+        let mut sol = member.clone();
+        for _ in 0..sol.nodes.len() {
+            let r = self
+                .refine(
+                    &split.train,
+                    base_train.x0,
+                    &base_train.values,
+                    &sol.nodes,
+                    &sol.coefficients,
+                    &sol.constants,
+                    observer,
+                )
+                .ok()?;
+            let nb = self.options.fit.estimate.len();
+            let signif: Vec<f64> = (0..sol.nodes.len())
+                .map(|i| {
+                    let e = &r.estimates[nb + i];
+                    e.value.abs() / e.sigma.max(1e-300)
+                })
+                .collect();
+            let (worst, wv) = signif
+                .iter()
+                .copied()
+                .enumerate()
+                .min_by(|a, b| a.1.total_cmp(&b.1))
+                .unwrap_or((0, f64::INFINITY));
+            if wv >= threshold {
+                return Some((sol, r));
+            }
+            if sol.nodes.len() == 1 {
+                return None;
+            }
+            sol.nodes.remove(worst);
+            sol.coefficients.remove(worst);
+        }
+        None
+    }
+}
+
+/// The front members worth refining, in front order: the `top` best by BIC
+/// (χ² + k ln m, k coefficients and constants, m rows) and the best by χ² alone. By χ²
+/// alone the most complex members always win, and a simpler one only a fraction of a χ²
+/// unit worse was never refined.
+fn worth_refining(front: &[Solution], rows: usize, top: usize) -> Vec<usize> {
+    let ln_m = (rows.max(2) as f64).ln();
+    let bic = |s: &Solution| s.cost + (s.coefficients.len() + s.constants.len()) as f64 * ln_m;
+    let mut order: Vec<usize> = (0..front.len()).collect();
+    order.sort_by(|&a, &b| bic(&front[a]).total_cmp(&bic(&front[b])));
+    order.truncate(top);
+    if let Some(best_fit) =
+        (0..front.len()).min_by(|&a, &b| front[a].cost.total_cmp(&front[b].cost))
+    {
+        if !order.contains(&best_fit) {
+            order.push(best_fit);
+        }
+    }
+    order.sort();
+    order
+}
