@@ -4,10 +4,13 @@
 // Numeric kernels index several arrays in step.
 #![allow(clippy::needless_range_loop)]
 
+mod base;
+mod equivalent;
 mod final_fit;
 mod holdout;
 pub mod hypotheses;
 pub mod linearized;
+mod predict;
 pub mod rank;
 mod refine;
 pub mod search;
@@ -18,12 +21,17 @@ use crate::expr::{Context, Node};
 use crate::fit::model::{ExtraTerms, FitModel, Parameter};
 use crate::fit::{fit, FitError, FitObserver, FitOptions, FitResult};
 use linearized::{ObsRow, Problem, Solution};
-use nalgebra::{Matrix6, Vector3};
+use nalgebra::Matrix6;
 use propagator::propagation::{output_grid, Options, Request, Silent};
 use propagator::variational::propagate_with_partials;
 use propagator::{Epoch, ForceModel};
 use search::{search, SearchObserver, SearchOptions};
 use std::collections::BTreeSet;
+
+use equivalent::sign_invisible;
+pub use equivalent::{canonical_key, EQUIVALENT_DCHI2};
+pub use predict::{prediction_rms, trajectory};
+pub use select::{predicts_as_well, HELD_OUT_DCHI2};
 
 /// Options of the learner.
 #[derive(Clone, Debug)]
@@ -209,164 +217,6 @@ struct Learner<'a> {
 }
 
 impl Learner<'_> {
-    /// Tries every one- and two-step direction swap of every chosen term
-    /// (`Node::direction_variants`) in
-    /// the linearized problem; a swap that changes χ² by less than
-    /// [`EQUIVALENT_DCHI2`] is an equivalent form, noted for the report. The earliest in
-    /// the canonical order ([`canonical_key`]) replaces the term when, refined in the
-    /// dynamics, it keeps every term significant and the held-out error within the
-    /// selection tolerance; otherwise the search's form stays.
-    #[allow(clippy::type_complexity)]
-    fn canonical_equivalent(
-        &self,
-        problem: &Problem,
-        (train, base_train, held): (&Arc, &FitResult, &Arc),
-        (sol, train_fit, rms): (Solution, FitResult, f64),
-        best_rms: f64,
-        notes: &mut Vec<String>,
-        fit_observer: &mut dyn FitObserver,
-    ) -> Result<(Solution, FitResult, f64), LearnError> {
-        let cost_of = |nodes: &[Node]| -> Option<(Vec<f64>, f64)> {
-            let cols: Option<Vec<_>> = nodes
-                .iter()
-                .map(|n| problem.column(n, &sol.constants))
-                .collect();
-            problem.fit_columns(&cols?).map(|(c, _, cost)| (c, cost))
-        };
-        let Some((_, cost0)) = cost_of(&sol.nodes) else {
-            return Ok((sol, train_fit, rms));
-        };
-        let mut nodes = sol.nodes.clone();
-        for i in 0..nodes.len() {
-            let mut pick: Option<Node> = None;
-            let mut alike = Vec::new();
-            // One and two swaps: `sin(u) * T` ↔ `cos(u) * R` takes two.
-            let mut variants = sol.nodes[i].direction_variants();
-            for v in variants.clone() {
-                for w in v.direction_variants() {
-                    if w != sol.nodes[i] && !variants.contains(&w) {
-                        variants.push(w);
-                    }
-                }
-            }
-            for v in variants {
-                if nodes.contains(&v) {
-                    continue;
-                }
-                let mut trial = nodes.clone();
-                trial[i] = v.clone();
-                let Some((_, cost)) = cost_of(&trial) else {
-                    continue;
-                };
-                if cost - cost0 < EQUIVALENT_DCHI2 {
-                    alike.push((
-                        canonical_key(&v),
-                        format!("`{v}` (Δχ² {:+.2})", cost - cost0),
-                    ));
-                    let earliest = pick.as_ref().unwrap_or(&nodes[i]);
-                    if canonical_key(&v) < canonical_key(earliest) {
-                        pick = Some(v);
-                    }
-                }
-            }
-            if !alike.is_empty() {
-                // The canonical ones first: the form reported is among those listed.
-                alike.sort();
-                let more = alike.len().saturating_sub(4);
-                let mut alike: Vec<String> = alike.into_iter().take(4).map(|a| a.1).collect();
-                if more > 0 {
-                    alike.push(format!("{more} more"));
-                }
-                notes.push(format!(
-                    "`{}` fits this arc as well as {}: the data cannot tell these forms apart",
-                    sol.nodes[i],
-                    alike.join(", ")
-                ));
-            }
-            if let Some(v) = pick {
-                nodes[i] = v;
-            }
-        }
-        if nodes == sol.nodes {
-            return Ok((sol, train_fit, rms));
-        }
-        let Some((c0, cost)) = cost_of(&nodes) else {
-            return Ok((sol, train_fit, rms));
-        };
-        let refined = self.refine(
-            train,
-            base_train.x0,
-            &base_train.values,
-            &nodes,
-            &c0,
-            &sol.constants,
-            fit_observer,
-        );
-        let nb = self.options.fit.estimate.len();
-        if let Ok(r) = refined {
-            let significant = (0..nodes.len()).all(|i| {
-                let e = &r.estimates[nb + i];
-                e.value.abs() >= self.options.search.threshold * e.sigma
-            });
-            // A form that cannot be predicted with is no alternative: keep the search's.
-            let new_rms = self.predict_rms(&r, &nodes, held).unwrap_or(f64::INFINITY);
-            if significant
-                && predicts_as_well(new_rms, best_rms, held, self.options.selection_tolerance)
-            {
-                notes.push(format!(
-                    "reported in the canonical form (R, T, N, vrel, v, r in that order; cos before sin): {}",
-                    nodes
-                        .iter()
-                        .map(|n| n.to_string())
-                        .collect::<Vec<_>>()
-                        .join(" + ")
-                ));
-                let coefficients = (0..nodes.len())
-                    .map(|i| r.estimates[nb + i].value)
-                    .collect();
-                let sigmas = (0..nodes.len())
-                    .map(|i| r.estimates[nb + i].sigma)
-                    .collect();
-                let sol = Solution {
-                    nodes,
-                    coefficients,
-                    sigmas,
-                    cost,
-                    ..sol
-                };
-                return Ok((sol, r, new_rms));
-            }
-        }
-        Ok((sol, train_fit, rms))
-    }
-
-    /// The base fit, and whether the arc is shorter than one revolution of the fitted
-    /// orbit (its span and the period, s): over less than a revolution a small force and a
-    /// change of the orbit itself cannot be told apart, so a term learned there would be
-    /// unfounded — but a quiet verdict still says the known forces explain the arc.
-    fn base_fit(
-        &self,
-        fit_observer: &mut dyn FitObserver,
-    ) -> Result<(FitResult, Option<ShortArc>), LearnError> {
-        let base = fit(self.arc, self.model()?, &self.options.fit, fit_observer)?;
-        let span_s = self.arc.end().seconds_since(&self.arc.start());
-        let mu = propagator::CentralBody::EARTH_EGM96.mu_km3_s2;
-        let r = base.x0.fixed_rows::<3>(0).norm();
-        let v2 = base.x0.fixed_rows::<3>(3).norm_squared();
-        let energy = v2 / 2.0 - mu / r;
-        if energy >= 0.0 {
-            return Err(LearnError::Unfit(format!(
-                "the fitted orbit is not closed (specific energy {energy:.3} km²/s² ≥ 0, hyperbolic or parabolic): learning needs a bound Earth orbit"
-            )));
-        }
-        let a = -mu / (2.0 * energy);
-        let period_s = std::f64::consts::TAU * (a * a * a / mu).sqrt();
-        Ok((
-            base,
-            (span_s < period_s).then_some(ShortArc { span_s, period_s }),
-        ))
-    }
-
     fn model(&self) -> Result<ForceModel, LearnError> {
         (self.make_model)(self.arc.start()).map_err(LearnError::Unfit)
     }
@@ -437,85 +287,6 @@ impl Learner<'_> {
             &self.options.fit,
         )
     }
-}
-
-/// Position RMS (km) of `target`'s observations as predicted from a fit: the fit's state
-/// at its first observation, its parameters, and `nodes` as extra terms (coefficients and
-/// constants from the fit's estimates), propagated under `model`.
-pub fn prediction_rms(
-    model: ForceModel,
-    fitted: &FitResult,
-    nodes: &[Node],
-    context: Context,
-    target: &Arc,
-    fit_options: &FitOptions,
-) -> Result<f64, LearnError> {
-    let times: Vec<f64> = target
-        .observations
-        .iter()
-        .map(|o| o.epoch.seconds_since(&fitted.epoch0))
-        .collect();
-    let states = trajectory(model, fitted, nodes, context, &times, fit_options)?;
-    let mut ss = 0.0;
-    for (x, o) in states.iter().zip(&target.observations) {
-        ss += (o.r_km - Vector3::new(x[0], x[1], x[2])).norm_squared();
-    }
-    Ok((ss / states.len().max(1) as f64).sqrt())
-}
-
-/// States of a fitted model (as [`prediction_rms`]) at `times` (s from its first epoch).
-pub fn trajectory(
-    model: ForceModel,
-    fitted: &FitResult,
-    nodes: &[Node],
-    context: Context,
-    times: &[f64],
-    fit_options: &FitOptions,
-) -> Result<Vec<propagator::StateVector>, LearnError> {
-    let mut fm = FitModel::new(
-        model,
-        fitted.estimates.iter().map(|e| e.parameter).collect(),
-    )
-    .map_err(LearnError::Unfit)?;
-    fm.values = fitted.values.clone();
-    if !nodes.is_empty() {
-        let n_k = fitted
-            .estimates
-            .iter()
-            .filter_map(|e| {
-                if let Parameter::TermConstant(j) = e.parameter {
-                    Some(j + 1)
-                } else {
-                    None
-                }
-            })
-            .max()
-            .unwrap_or(0);
-        fm.extra = Some(ExtraTerms {
-            nodes: nodes.to_vec(),
-            coefficients: vec![0.0; nodes.len()],
-            constants: vec![1.0; n_k],
-            context,
-        });
-    }
-    if times.is_empty() {
-        return Ok(vec![]);
-    }
-    let options = Options {
-        settings: fit_options.settings,
-        altitude_floor_km: fit_options.altitude_floor_km,
-        ..Options::default()
-    };
-    let req = Request {
-        x0: fitted.x0,
-        t0_s: 0.0,
-        t_end_s: times[times.len() - 1],
-        output_times_s: times,
-        stop_times_s: &[],
-    };
-    let samples = propagate_with_partials(&fm, &req, &options, &mut Silent)
-        .map_err(|e| LearnError::Unfit(e.to_string()))?;
-    Ok(samples.iter().map(|s| s.state).collect())
 }
 
 impl Learner<'_> {
@@ -612,110 +383,6 @@ pub fn linearize(
     }
     let problem = l.problem(arc, &base)?;
     Ok((base, problem))
-}
-
-/// Held-out χ² a simpler model may lose against the best one (or 1 % of the best's
-/// χ², when model error dominates): about 4σ of the χ² difference of two predictions
-/// that differ by a few σ-units in all.
-pub const HELD_OUT_DCHI2: f64 = 16.0;
-
-/// Whether a held-out RMS `rms` (km, 3-D) predicts `held` as well as the best, `best`:
-/// within the relative `tolerance`, and not worse in χ² by more than [`HELD_OUT_DCHI2`].
-/// The relative test alone let a model 14 % worse at the noise floor (χ² + 1900 on 2160
-/// points) pass as "as good".
-pub fn predicts_as_well(rms: f64, best: f64, held: &Arc, tolerance: f64) -> bool {
-    let n = held.observations.len().max(1) as f64;
-    let s2 = held
-        .observations
-        .iter()
-        .map(|o| o.sigma_km * o.sigma_km)
-        .sum::<f64>()
-        / n;
-    let chi2 = |x: f64| n * x * x / s2.max(1e-300);
-    rms <= best * (1.0 + tolerance)
-        && chi2(rms) - chi2(best) <= HELD_OUT_DCHI2.max(0.01 * chi2(best))
-}
-
-/// Whether flipping the sign of constant `j` leaves every formula unchanged (to 1e-12)
-/// at a few epochs across `span_s` and the given states.
-fn sign_invisible(
-    nodes: &[Node],
-    constants: &[f64],
-    j: usize,
-    states: &[propagator::StateVector],
-    span_s: f64,
-    context: &Context,
-) -> bool {
-    let mut flipped = constants.to_vec();
-    flipped[j] = -flipped[j];
-    [0.0, 0.31, 0.5, 0.77, 1.0].iter().all(|f| {
-        states.iter().all(|x| {
-            let p = crate::expr::Terminals::of_state(f * span_s, x, context);
-            nodes.iter().all(|n| {
-                let (a, b) = (
-                    n.eval(&p, constants).vector(),
-                    n.eval(&p, &flipped).vector(),
-                );
-                let scale = a.iter().map(|v| v.abs()).fold(0.0, f64::max);
-                (0..3).all(|i| (a[i] - b[i]).abs() <= 1e-12 * scale)
-            })
-        })
-    })
-}
-
-/// Below this change of χ², two forms of a term (same number of coefficients) are
-/// equivalent on the arc: with equal parameter counts Δχ² is ΔAIC, and ΔAIC ≤ 2 is the
-/// usual "both substantially supported" line (Burnham & Anderson, Model Selection and
-/// Multimodel Inference, 2002; from memory).
-pub const EQUIVALENT_DCHI2: f64 = 2.0;
-
-/// Orders equivalent forms: the simplest first, then by the vector terminals in order of appearance (`R`,
-/// `T`, `N`, `vrel`, `v`, `r`), then by the trig functions (`cos` before `sin`), then by
-/// text. So a radial form wins over an along-track one whatever its phase. A
-/// convention, so that the reported form does not depend on the noise; the report lists
-/// the others.
-pub fn canonical_key(n: &Node) -> String {
-    let text = n.to_string();
-    let mut directions = String::new();
-    let mut trig = String::new();
-    for word in text.split(|c: char| !(c.is_ascii_alphanumeric() || c == '_')) {
-        match word {
-            "R" => directions.push('1'),
-            "T" => directions.push('2'),
-            "N" => directions.push('3'),
-            "vrel" => directions.push('4'),
-            "v" => directions.push('5'),
-            "r" => directions.push('6'),
-            "cos" => trig.push('1'),
-            "sin" => trig.push('2'),
-            _ => {}
-        }
-    }
-    format!("{:06}|{directions}|{trig}|{text}", n.complexity())
-}
-
-/// An arc shorter than one revolution of its fitted orbit.
-struct ShortArc {
-    span_s: f64,
-    period_s: f64,
-}
-
-impl ShortArc {
-    fn span(&self) -> String {
-        format!(
-            "the arc spans {:.1} min, less than one revolution ({:.1} min)",
-            self.span_s / 60.0,
-            self.period_s / 60.0
-        )
-    }
-
-    /// Why nothing can be learned on it.
-    fn refusal(&self) -> LearnError {
-        LearnError::Unfit(format!(
-            "{}: too short to tell a force from a change of the orbit; give at least one revolution (a day or more is usual)",
-            self.span()
-        ))
-    }
 }
 
 /// Learns the missing force of `arc` under the known forces `make_model(epoch)` builds.
