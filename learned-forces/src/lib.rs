@@ -17,3 +17,4 @@ pub mod learn;
 pub mod learned_file;
 pub mod model_error;
 pub mod next_arc;
+pub mod termination;

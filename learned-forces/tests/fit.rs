@@ -348,3 +348,37 @@ fn a_smooth_ephemeris_is_quiet_and_structure_that_matters_still_speaks() {
     assert!(at.verdict.p_value > 0.01, "χ² alone would have flagged it");
     assert!(at.verdict.reasons.iter().any(|m| m.contains("correlated")));
 }
+
+#[test]
+fn the_fit_says_why_it_stopped() {
+    // A normal fit ends at a solution and says which test ended it; held to one
+    // iteration per stage it ends at the limit, not converged, and the verdict says so
+    // first (a fit that stopped early must never read as quiet).
+    let (spec, path) = scenario("quiet.yaml");
+    let sim = spec.simulate(&path).unwrap();
+    let models = spec.models(&path).unwrap();
+    let build = || {
+        models
+            .known
+            .build(Path::new("forces"), sim.train.start())
+            .unwrap()
+            .model
+    };
+    let r = fit(&sim.train, build(), &FitOptions::default(), &mut QuietFit).unwrap();
+    assert!(r.termination.converged(), "{:?}", r.termination);
+    let short = FitOptions {
+        max_iterations: 1,
+        ..FitOptions::default()
+    };
+    let r = fit(&sim.train, build(), &short, &mut QuietFit).unwrap();
+    assert_eq!(
+        r.termination,
+        learned_forces::termination::Termination::IterationLimit
+    );
+    assert!(r.verdict.anomaly);
+    assert!(
+        r.verdict.reasons[0].contains("did not converge"),
+        "{:?}",
+        r.verdict.reasons
+    );
+}

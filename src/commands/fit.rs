@@ -96,7 +96,8 @@ pub fn fit_json(r: &FitResult) -> serde_json::Value {
         })).collect::<Vec<_>>(),
         "observations": r.residuals.len(),
         "iterations": r.iterations,
-        "converged": r.converged,
+        "converged": r.termination.converged(),
+        "termination": r.termination.as_str(),
         "state_first": state_json(&r.epoch0, &r.x0),
         "state_first_sigma": { "r_km": &r.x0_sigma[..3], "v_km_s": &r.x0_sigma[3..] },
         "state_last": state_json(&r.epoch_last, &r.x_last),
@@ -185,7 +186,11 @@ pub fn run(a: Args) -> Result<(), CliError> {
         v.p_value,
         r.edited,
         r.iterations,
-        if r.converged { "" } else { " (not converged)" }
+        if r.termination.converged() {
+            String::new()
+        } else {
+            format!(" (not converged: {})", r.termination.as_str())
+        }
     );
     for e in &r.estimates {
         println!(

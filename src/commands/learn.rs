@@ -243,10 +243,12 @@ fn summarize(l: &Learned, out: &Path) {
         v.dof,
         if v.anomaly { "anomaly" } else { "no_anomaly" }
     );
-    if let Some((n, g, s)) = l.search_stats {
+    if let Some(st) = l.search_stats {
+        let (n, g, s) = (st.evaluations, st.generations, st.seconds);
         println!(
-            "search: {n} candidates in {g} generations, {s:.1} s ({:.0} per second)",
-            n as f64 / s.max(1e-9)
+            "search: {n} candidates in {g} generations, {s:.1} s ({:.0} per second), stopped by {}",
+            n as f64 / s.max(1e-9),
+            st.termination.as_str().replace('_', " ")
         );
     }
     for f in &l.front {
@@ -335,7 +337,12 @@ fn report(a: &Args, l: &Learned, file: &LearnedFile) -> serde_json::Value {
         "pareto_front": l.front.iter().map(|f| serde_json::json!({
             "complexity": f.complexity, "cost": f.cost, "formula": f.formula, "held_out_rms_km": f.held_out_rms_km,
         })).collect::<Vec<_>>(),
-        "search": l.search_stats.map(|(n, g, s)| serde_json::json!({"candidates": n, "generations": g, "seconds": s})),
+        "search": l.search_stats.map(|s| serde_json::json!({
+            "candidates": s.evaluations,
+            "generations": s.generations,
+            "seconds": s.seconds,
+            "stopped_by": s.termination.as_str(),
+        })),
         "notes": l.notes,
         "learned_fit": chosen.map(|c| fit_json(&c.fit)),
     })

@@ -10,6 +10,7 @@ pub mod model;
 pub mod stats;
 
 use crate::arc::Arc;
+use crate::termination::Termination;
 use model::{FitModel, Parameter};
 use nalgebra::{DMatrix, DVector, Vector3};
 use propagator::frames::eci_to_rtn;
@@ -192,8 +193,8 @@ pub struct FitResult {
     pub edited: usize,
     /// Gauss–Newton iterations in all.
     pub iterations: usize,
-    /// Whether the last stage converged.
-    pub converged: bool,
+    /// Why the last stage's iterations stopped.
+    pub termination: Termination,
     /// The verdict.
     pub verdict: Verdict,
     /// Weighted Jacobian of the used measurements at the solution (rows as the stacked
@@ -451,7 +452,7 @@ pub fn fit(
     let mut used = vec![true; n_obs];
     let mut reasons: Vec<Option<String>> = vec![None; n_obs];
     let mut iterations = 0;
-    let mut converged = false;
+    let mut termination = Termination::IterationLimit;
     let mut lin = None;
     for (si, &last) in stage_ends.iter().enumerate() {
         let final_stage = si + 1 == stages;
@@ -479,7 +480,7 @@ pub fn fit(
                 observer,
             )?;
             iterations += it;
-            converged = conv;
+            termination = conv;
             if !final_stage {
                 break;
             }
@@ -531,7 +532,7 @@ pub fn fit(
     let rms_km = (sum_sq / n_used.max(1) as f64).sqrt();
     let dof = lin.z.len().saturating_sub(n_est);
     let mut verdict = verdict(&lin.z, dof, &residuals, options);
-    if !converged {
+    if !termination.converged() {
         // Say it first: every number after it describes the last iterate, not a
         // least-squares solution.
         verdict.reasons.insert(
@@ -569,7 +570,7 @@ pub fn fit(
         rms_km,
         edited: used.iter().filter(|u| !**u).count(),
         iterations,
-        converged,
+        termination,
         verdict,
         jacobian: lin.jac.clone(),
         weighted_residual: lin.z.clone(),
@@ -588,10 +589,10 @@ fn solve_stage(
     stage: usize,
     stages: usize,
     observer: &mut dyn FitObserver,
-) -> Result<(Linearized, usize, bool), FitError> {
+) -> Result<(Linearized, usize, Termination), FitError> {
     let mut lin = problem.linearize(fm, x0, last, used, n_est)?;
     let mut lambda = 1e-6;
-    let mut converged = false;
+    let mut stop: Option<Termination> = None;
     let mut it = 0;
     while it < problem.options.max_iterations {
         it += 1;
@@ -623,8 +624,10 @@ fn solve_stage(
                     accepted = true;
                     let rms = (lin.cost / lin.z.len().max(1) as f64).sqrt();
                     observer.on_iteration(stage, stages, it, rms);
-                    if step_sigma < 1e-4 || improvement < 1e-12 {
-                        converged = true;
+                    if step_sigma < 1e-4 {
+                        stop = Some(Termination::StepBelowSigma);
+                    } else if improvement < 1e-12 {
+                        stop = Some(Termination::NoImprovement);
                     }
                     break;
                 }
@@ -636,14 +639,18 @@ fn solve_stage(
         }
         if !accepted {
             // No downhill step at any damping: at the minimum to numerical precision.
-            converged = lin.cost.is_finite();
+            stop = Some(if lin.cost.is_finite() {
+                Termination::NoDownhillStep
+            } else {
+                Termination::NotFinite
+            });
             break;
         }
-        if converged {
+        if stop.is_some() {
             break;
         }
     }
-    Ok((lin, it, converged))
+    Ok((lin, it, stop.unwrap_or(Termination::IterationLimit)))
 }
 
 /// Edits observations beyond `k` robust σ; returns how many were newly edited.

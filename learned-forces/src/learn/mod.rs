@@ -112,7 +112,20 @@ pub struct Learned {
     /// Sentences for the report.
     pub notes: Vec<String>,
     /// Candidate evaluations, generations, seconds of the search.
-    pub search_stats: Option<(usize, usize, f64)>,
+    pub search_stats: Option<SearchStats>,
+}
+
+/// How the search went: its size, its time and why it stopped.
+#[derive(Clone, Copy, Debug)]
+pub struct SearchStats {
+    /// Candidate evaluations.
+    pub evaluations: usize,
+    /// Generations run.
+    pub generations: usize,
+    /// Wall time, s.
+    pub seconds: f64,
+    /// Why the search stopped.
+    pub termination: crate::termination::Termination,
 }
 
 /// What learning concluded about the arc.
@@ -439,7 +452,12 @@ pub fn learn(
     };
     let found = search(&problem, &sopts, search_observer);
     let mut front = front_entries(&found.front);
-    let stats = Some((found.evaluations, found.generations, found.seconds));
+    let stats = Some(SearchStats {
+        evaluations: found.evaluations,
+        generations: found.generations,
+        seconds: found.seconds,
+        termination: found.termination,
+    });
     // 5. Refinement of the most promising with the force in the dynamics.
     let refined = l.refine_front(&found.front, &problem, &split, &base_train, fit_observer)?;
     for r in &refined {

@@ -7,6 +7,7 @@
 
 use super::linearized::{Problem, Solution};
 use crate::expr::{parse, Node};
+use crate::termination::Termination;
 use rand_chacha::ChaCha8Rng;
 use rand_core::{Rng, SeedableRng};
 use rayon::prelude::*;
@@ -105,6 +106,8 @@ pub struct SearchResult {
     pub generations: usize,
     /// Wall time, s.
     pub seconds: f64,
+    /// Why it stopped.
+    pub termination: Termination,
 }
 
 const VECTORS: [&str; 4] = ["R", "T", "N", "vrel / norm(vrel)"];
@@ -364,6 +367,7 @@ pub fn search(
     let mut seen: HashMap<String, Option<Solution>> = HashMap::new();
     let mut evaluations = 0;
     let mut generations = 0;
+    let mut termination = Termination::Generations;
     for gen in 0..opts.generations.max(1) {
         generations = gen + 1;
         // Evaluate the new individuals in parallel, in a fixed order.
@@ -413,7 +417,12 @@ pub fn search(
         let front = pareto(&archive).len();
         let rate = evaluations as f64 / started.elapsed().as_secs_f64().max(1e-9);
         observer.on_generation(generations, opts.generations, best_cost, front, rate);
-        if opts.time_limit.is_some_and(|l| started.elapsed() > l) || gen + 1 == opts.generations {
+        if gen + 1 == opts.generations {
+            termination = Termination::Generations;
+            break;
+        }
+        if opts.time_limit.is_some_and(|l| started.elapsed() > l) {
+            termination = Termination::TimeLimit;
             break;
         }
         let survivors: Vec<Individual> = ranked
@@ -422,6 +431,7 @@ pub fn search(
             .map(|r| r.2.clone())
             .collect();
         if survivors.is_empty() {
+            termination = Termination::NoSurvivors;
             break;
         }
         // Next generation: elites, then children, each from its own random stream.
@@ -448,6 +458,7 @@ pub fn search(
         evaluations,
         generations,
         seconds: started.elapsed().as_secs_f64(),
+        termination,
     }
 }
 
