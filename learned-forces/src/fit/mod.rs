@@ -121,7 +121,7 @@ pub struct Residual {
 }
 
 /// A fitted parameter.
-#[derive(Clone, Debug, PartialEq)]
+#[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Estimate {
     /// Which.
     pub parameter: Parameter,
@@ -204,6 +204,28 @@ pub struct FitResult {
     pub weighted_residual: DVector<f64>,
     /// Final values of the estimated parameters (same order as `estimates`).
     pub values: Vec<f64>,
+}
+
+impl FitResult {
+    /// The estimate of `parameter`, if it was estimated.
+    pub fn estimate(&self, parameter: Parameter) -> Option<&Estimate> {
+        self.estimates.iter().find(|e| e.parameter == parameter)
+    }
+
+    /// The estimates of the extra terms' coefficients, term `i` at index `i` (`n` terms;
+    /// a term without an estimate has a NaN value and σ).
+    pub fn term_coefficients(&self, n: usize) -> Vec<Estimate> {
+        (0..n)
+            .map(|i| {
+                let p = Parameter::TermCoefficient(i);
+                self.estimate(p).copied().unwrap_or(Estimate {
+                    parameter: p,
+                    value: f64::NAN,
+                    sigma: f64::NAN,
+                })
+            })
+            .collect()
+    }
 }
 
 struct Linearized {

@@ -101,12 +101,11 @@ impl Learner<'_> {
             &sol.constants,
             fit_observer,
         );
-        let nb = self.options.fit.estimate.len();
         if let Ok(r) = refined {
-            let significant = (0..nodes.len()).all(|i| {
-                let e = &r.estimates[nb + i];
-                e.value.abs() >= self.options.search.threshold * e.sigma
-            });
+            let terms = r.term_coefficients(nodes.len());
+            let significant = terms
+                .iter()
+                .all(|e| e.value.abs() >= self.options.search.threshold * e.sigma);
             // A form that cannot be predicted with is no alternative: keep the search's.
             let new_rms = self.predict_rms(&r, &nodes, held).unwrap_or(f64::INFINITY);
             if significant
@@ -120,12 +119,8 @@ impl Learner<'_> {
                         .collect::<Vec<_>>()
                         .join(" + ")
                 ));
-                let coefficients = (0..nodes.len())
-                    .map(|i| r.estimates[nb + i].value)
-                    .collect();
-                let sigmas = (0..nodes.len())
-                    .map(|i| r.estimates[nb + i].sigma)
-                    .collect();
+                let coefficients = terms.iter().map(|e| e.value).collect();
+                let sigmas = terms.iter().map(|e| e.sigma).collect();
                 let sol = Solution {
                     nodes,
                     coefficients,

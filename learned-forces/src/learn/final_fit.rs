@@ -21,9 +21,10 @@ impl Learner<'_> {
         notes: &mut Vec<String>,
         observer: &mut dyn FitObserver,
     ) -> Result<Chosen, LearnError> {
-        let nb = self.options.fit.estimate.len();
-        let c0: Vec<f64> = (0..sol.nodes.len())
-            .map(|i| train_fit.values[nb + i])
+        let c0: Vec<f64> = train_fit
+            .term_coefficients(sol.nodes.len())
+            .iter()
+            .map(|e| e.value)
             .collect();
         let mut k0 = sol.constants.clone();
         for e in &train_fit.estimates {

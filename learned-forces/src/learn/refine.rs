@@ -69,12 +69,10 @@ impl Learner<'_> {
                     observer,
                 )
                 .ok()?;
-            let nb = self.options.fit.estimate.len();
-            let signif: Vec<f64> = (0..sol.nodes.len())
-                .map(|i| {
-                    let e = &r.estimates[nb + i];
-                    e.value.abs() / e.sigma.max(1e-300)
-                })
+            let signif: Vec<f64> = r
+                .term_coefficients(sol.nodes.len())
+                .iter()
+                .map(|e| e.value.abs() / e.sigma.max(1e-300))
                 .collect();
             let (worst, wv) = signif
                 .iter()
