@@ -81,7 +81,9 @@ impl Instr {
         match self {
             Pos | Vel | VelRel | UnitR | UnitT | UnitN | Sun | AddV(..) | SubV(..) | Scale(..)
             | DivV(..) | NegV(..) | Cross(..) => Ty::Vector,
-            _ => Ty::Scalar,
+            Time | Alt | Rho | ArgLat | Lit | Const(_) | AddS(..) | SubS(..) | MulS(..)
+            | DivS(..) | NegS(..) | Sin(..) | Cos(..) | Exp(..) | Sqrt(..) | Pow(..) | Norm(..)
+            | Dot(..) => Ty::Scalar,
         }
     }
 }
@@ -231,7 +233,29 @@ impl Program {
                 }
                 Instr::Sun => n.sun = true,
                 Instr::Lit => n.lit = true,
-                _ => {}
+                // Terminals every evaluation has, constants and operators: no extra need.
+                Instr::Time
+                | Instr::Const(_)
+                | Instr::Pos
+                | Instr::Vel
+                | Instr::AddS(..)
+                | Instr::SubS(..)
+                | Instr::MulS(..)
+                | Instr::DivS(..)
+                | Instr::NegS(..)
+                | Instr::Sin(..)
+                | Instr::Cos(..)
+                | Instr::Exp(..)
+                | Instr::Sqrt(..)
+                | Instr::Pow(..)
+                | Instr::Norm(..)
+                | Instr::Dot(..)
+                | Instr::AddV(..)
+                | Instr::SubV(..)
+                | Instr::Scale(..)
+                | Instr::DivV(..)
+                | Instr::NegV(..)
+                | Instr::Cross(..) => {}
             }
         }
         n

@@ -93,6 +93,17 @@ pub enum Node {
     Pow(Box<Node>, i32),
 }
 
+/// A node seen by its arity (see [`Node::shape`]).
+#[derive(Clone, Copy, Debug)]
+pub enum Shape<'a> {
+    /// A terminal or a constant.
+    Leaf,
+    /// An operator over one subtree.
+    Unary(&'a Node),
+    /// An operator over two subtrees.
+    Binary(&'a Node, &'a Node),
+}
+
 /// The vector terminals a direction swap exchanges, in the canonical order.
 pub const SWAPPABLE: [Node; 6] = [
     Node::UnitR,
@@ -158,38 +169,49 @@ impl Node {
         }
     }
 
-    /// Number of nodes (the complexity measure).
-    pub fn complexity(&self) -> usize {
+    /// The node's place in a tree: a leaf, or an operator over one or two subtrees. Every
+    /// variant is listed (no wildcard), so a new operator must say which it is; the
+    /// tree walks below all go through here.
+    pub fn shape(&self) -> Shape<'_> {
         use Node::*;
         match self {
+            Time | Altitude | Density | ArgLat | Lit | Const(_) | Param(_) | Pos | Vel | VelRel
+            | UnitR | UnitT | UnitN | SunDir => Shape::Leaf,
+            Neg(a) | Sin(a) | Cos(a) | Exp(a) | Sqrt(a) | Norm(a) | Pow(a, _) => Shape::Unary(a),
             Add(a, c) | Sub(a, c) | Mul(a, c) | Div(a, c) | Dot(a, c) | Cross(a, c) => {
-                1 + a.complexity() + c.complexity()
+                Shape::Binary(a, c)
             }
-            Neg(a) | Sin(a) | Cos(a) | Exp(a) | Sqrt(a) | Norm(a) | Pow(a, _) => 1 + a.complexity(),
-            _ => 1,
         }
+    }
+
+    /// Number of nodes (the complexity measure).
+    pub fn complexity(&self) -> usize {
+        1 + self
+            .children()
+            .iter()
+            .map(|c| c.complexity())
+            .sum::<usize>()
     }
 
     /// The largest `k<i>` index used, plus one (the number of constants needed).
     pub fn n_params(&self) -> usize {
-        use Node::*;
         match self {
-            Param(i) => i + 1,
-            Add(a, c) | Sub(a, c) | Mul(a, c) | Div(a, c) | Dot(a, c) | Cross(a, c) => {
-                a.n_params().max(c.n_params())
-            }
-            Neg(a) | Sin(a) | Cos(a) | Exp(a) | Sqrt(a) | Norm(a) | Pow(a, _) => a.n_params(),
-            _ => 0,
+            Node::Param(i) => i + 1,
+            _ => self
+                .children()
+                .iter()
+                .map(|c| c.n_params())
+                .max()
+                .unwrap_or(0),
         }
     }
 
     /// Children, for the search's tree operators.
     pub fn children(&self) -> Vec<&Node> {
-        use Node::*;
-        match self {
-            Add(a, c) | Sub(a, c) | Mul(a, c) | Div(a, c) | Dot(a, c) | Cross(a, c) => vec![a, c],
-            Neg(a) | Sin(a) | Cos(a) | Exp(a) | Sqrt(a) | Norm(a) | Pow(a, _) => vec![a],
-            _ => vec![],
+        match self.shape() {
+            Shape::Leaf => vec![],
+            Shape::Unary(a) => vec![a],
+            Shape::Binary(a, c) => vec![a, c],
         }
     }
 
@@ -254,13 +276,14 @@ impl Node {
         1 + self.children().iter().map(|c| c.size()).sum::<usize>()
     }
 
-    /// Mutable children.
+    /// Mutable children (every variant listed, as in [`Node::shape`]).
     pub fn children_mut(&mut self) -> Vec<&mut Node> {
         use Node::*;
         match self {
-            Add(a, c) | Sub(a, c) | Mul(a, c) | Div(a, c) | Dot(a, c) | Cross(a, c) => vec![a, c],
+            Time | Altitude | Density | ArgLat | Lit | Const(_) | Param(_) | Pos | Vel | VelRel
+            | UnitR | UnitT | UnitN | SunDir => vec![],
             Neg(a) | Sin(a) | Cos(a) | Exp(a) | Sqrt(a) | Norm(a) | Pow(a, _) => vec![a],
-            _ => vec![],
+            Add(a, c) | Sub(a, c) | Mul(a, c) | Div(a, c) | Dot(a, c) | Cross(a, c) => vec![a, c],
         }
     }
 
