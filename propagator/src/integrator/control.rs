@@ -28,10 +28,22 @@ pub(crate) struct StepControl {
 /// What the controller says of a trial step.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub(crate) enum Judgement {
-    /// Keep it; the next step's size, s.
-    Accept { h_next: f64 },
+    /// Keep it: the time it reaches and the next step's size, s.
+    Accept { t_new: f64, h_next: f64 },
     /// Redo it with this size, s.
     Reject { h_retry: f64 },
+}
+
+/// A trial step: from `t`, of signed size `h`, ending the interval at `t_stop` when
+/// `last`.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct Trial {
+    pub(crate) t: f64,
+    pub(crate) h: f64,
+    pub(crate) last: bool,
+    pub(crate) t_stop: f64,
+    /// The step size planned before the cut to `t_stop` (magnitude, s).
+    planned: f64,
 }
 
 impl StepControl {
@@ -62,8 +74,8 @@ impl StepControl {
         self.last_rejected = false;
     }
 
-    /// The signed trial step of magnitude `h` from `t` in direction `dir`, cut to end
-    /// exactly at `t_stop` when within 1 % of it (then `last` is true).
+    /// The trial step of magnitude `h` from `t` in direction `dir`, cut to end exactly
+    /// at `t_stop` when within 1 % of it.
     pub(crate) fn trial(
         &self,
         t: f64,
@@ -71,10 +83,17 @@ impl StepControl {
         dir: f64,
         t_stop: f64,
         settings: &Settings,
-    ) -> Result<(f64, bool), IntegrationError> {
+    ) -> Result<Trial, IntegrationError> {
+        let planned = h;
         let h = dir * h;
         if (t + 1.01 * h - t_stop) * dir > 0.0 {
-            return Ok((t_stop - t, true));
+            return Ok(Trial {
+                t,
+                h: t_stop - t,
+                last: true,
+                t_stop,
+                planned,
+            });
         }
         if h.abs() < settings.min_step_s {
             return Err(IntegrationError::StepTooSmall {
@@ -82,27 +101,39 @@ impl StepControl {
                 min_step_s: settings.min_step_s,
             });
         }
-        Ok((h, false))
+        Ok(Trial {
+            t,
+            h,
+            last: false,
+            t_stop,
+            planned,
+        })
     }
 
-    /// A trial step of magnitude `h` whose error was not finite: retry at a quarter.
-    pub(crate) fn blown_up(&mut self, h: f64, stats: &mut Stats) -> f64 {
-        self.last_rejected = true;
-        stats.rejected += 1;
-        h * 0.25
-    }
-
-    /// Accepts or rejects a step of magnitude `h` whose scaled error norm is `err`; a
-    /// retry below the smallest step is an error.
+    /// Accepts or rejects `trial`, whose scaled error norm is `err` (a non-finite error
+    /// is a blown-up step: retried at a quarter of the planned size); a retry below the
+    /// smallest step is an error.
     pub(crate) fn judge(
         &mut self,
         err: f64,
-        h: f64,
-        t: f64,
+        trial: &Trial,
         settings: &Settings,
         stats: &mut Stats,
     ) -> Result<Judgement, IntegrationError> {
+        let h = trial.h.abs();
+        if !err.is_finite() {
+            self.last_rejected = true;
+            stats.rejected += 1;
+            return Ok(Judgement::Reject {
+                h_retry: trial.planned * 0.25,
+            });
+        }
         let fac11 = err.powf(self.exponent);
+        let t_new = if trial.last {
+            trial.t_stop
+        } else {
+            trial.t + trial.h
+        };
         if err <= 1.0 {
             let fac = (fac11 / self.fac_old.powf(self.beta) / SAFETY)
                 .clamp(1.0 / self.fac_max, 1.0 / self.fac_min);
@@ -115,11 +146,12 @@ impl StepControl {
             stats.accepted += 1;
             if stats.accepted > settings.max_steps {
                 return Err(IntegrationError::TooManySteps {
-                    t_s: t,
+                    t_s: t_new,
                     steps: stats.accepted,
                 });
             }
             return Ok(Judgement::Accept {
+                t_new,
                 h_next: h_next.min(settings.max_step_s),
             });
         }
@@ -128,7 +160,7 @@ impl StepControl {
         let h_retry = h / (1.0 / self.fac_min).min(fac11 / SAFETY);
         if h_retry < settings.min_step_s {
             return Err(IntegrationError::StepTooSmall {
-                t_s: t,
+                t_s: trial.t,
                 min_step_s: settings.min_step_s,
             });
         }

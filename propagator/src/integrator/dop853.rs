@@ -146,9 +146,10 @@ impl Dop853 {
     ) -> Result<f64, IntegrationError> {
         let n = self.n;
         loop {
-            let (h, last) = self
+            let trial = self
                 .control
                 .trial(self.t, self.h, self.dir, t_stop, &self.settings)?;
+            let h = trial.h;
             for s in 1..12 {
                 self.stage(sys, s, self.t, false, h)?;
             }
@@ -182,21 +183,17 @@ impl Dop853 {
                 deno = 1.0;
             }
             let err = h.abs() * err * (1.0 / (deno * self.n_err as f64)).sqrt();
-            if !err.is_finite() {
-                self.h = self.control.blown_up(self.h, &mut self.stats);
-                continue;
-            }
-            let t_new = if last { t_stop } else { self.t + h };
-            let judged =
-                self.control
-                    .judge(err, h.abs(), t_new, &self.settings, &mut self.stats)?;
-            let h_next = match judged {
-                Judgement::Reject { h_retry } => {
-                    self.h = h_retry;
-                    continue;
-                }
-                Judgement::Accept { h_next } => h_next,
-            };
+            let (t_new, h_next) =
+                match self
+                    .control
+                    .judge(err, &trial, &self.settings, &mut self.stats)?
+                {
+                    Judgement::Reject { h_retry } => {
+                        self.h = h_retry;
+                        continue;
+                    }
+                    Judgement::Accept { t_new, h_next } => (t_new, h_next),
+                };
             // Derivative at the new point (stage 13, and the next step's first).
             {
                 let (_, rest) = self.k.split_at_mut(12 * n);

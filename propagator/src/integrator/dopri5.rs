@@ -97,9 +97,10 @@ impl Dopri5 {
     ) -> Result<f64, IntegrationError> {
         let n = self.n;
         loop {
-            let (h, last) = self
+            let trial = self
                 .control
                 .trial(self.t, self.h, self.dir, t_stop, &self.settings)?;
+            let h = trial.h;
             // Stages 2..7 (k[1]..k[6]); k[6] at the 5th-order solution (FSAL).
             for s in 1..7 {
                 for i in 0..n {
@@ -130,22 +131,17 @@ impl Dopri5 {
                 err += (h * e / sk).powi(2);
             }
             let err = (err / self.n_err as f64).sqrt();
-            if !err.is_finite() {
-                // A blown-up trial step: shrink hard and try again.
-                self.h = self.control.blown_up(self.h, &mut self.stats);
-                continue;
-            }
-            let t_new = if last { t_stop } else { self.t + h };
-            let judged =
-                self.control
-                    .judge(err, h.abs(), t_new, &self.settings, &mut self.stats)?;
-            let h_next = match judged {
-                Judgement::Reject { h_retry } => {
-                    self.h = h_retry;
-                    continue;
-                }
-                Judgement::Accept { h_next } => h_next,
-            };
+            let (t_new, h_next) =
+                match self
+                    .control
+                    .judge(err, &trial, &self.settings, &mut self.stats)?
+                {
+                    Judgement::Reject { h_retry } => {
+                        self.h = h_retry;
+                        continue;
+                    }
+                    Judgement::Accept { t_new, h_next } => (t_new, h_next),
+                };
             // Dense output for [t, t + h].
             for i in 0..n {
                 let ydiff = self.y1[i] - self.y[i];
