@@ -86,6 +86,7 @@ fn file() -> LearnedFile {
             v_km_s: [0.0, 7.5, 0.0],
         },
         state_at_end_known_forces: None,
+        known_parameters: vec![],
         notes: vec![],
         checksum: String::new(),
     };

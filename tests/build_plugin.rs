@@ -223,6 +223,7 @@ fn file(terms: Vec<(String, f64)>, outside: OutsidePolicy) -> LearnedFile {
             v_km_s: [0.0, 7.5, 0.0],
         },
         state_at_end_known_forces: None,
+        known_parameters: vec![],
         notes: vec![],
         checksum: String::new(),
     };

@@ -251,3 +251,68 @@ fn quiet_arc_learns_nothing_and_exits_0() {
     assert_eq!(code, 2);
     assert!(stderr.contains("--outside"));
 }
+
+#[test]
+fn a_learned_file_records_the_known_models_estimated_parameters_and_check_says_so() {
+    // Learned with the drag scale estimated alongside, the terms complement drag at that
+    // scale: the file records it (with σ) and a note says to use it; `check`, which
+    // predicts with forces.yaml as given, warns on screen and in its report. Without
+    // estimates nothing is recorded (older files' content unchanged).
+    let dir = tempfile::tempdir().unwrap();
+    let v = simulate(dir.path(), "venting");
+    let (train, forces) = (v.join("train.csv"), v.join("forces.yaml"));
+    let learn = |out: &Path, extra: &[&str]| {
+        let mut args = vec![
+            "learn",
+            "--arc",
+            s(&train),
+            "--forces",
+            s(&forces),
+            "--out",
+            s(out),
+            "--generations",
+            "4",
+        ];
+        args.extend_from_slice(extra);
+        let (code, stdout, stderr) = arcwise(&args);
+        assert_eq!(code, 0, "{stdout}{stderr}");
+        std::fs::read_to_string(out).unwrap()
+    };
+    let with = v.join("with-scale.yaml");
+    let text = learn(&with, &["--estimate", "drag_scale"]);
+    let f = learned_forces::learned_file::LearnedFile::parse(&text).unwrap();
+    let p = &f.known_parameters;
+    assert_eq!(p.len(), 1, "{text}");
+    assert_eq!(p[0].name, "drag_scale");
+    assert!(
+        p[0].value > 0.5 && p[0].value < 2.0 && p[0].sigma > 0.0,
+        "{:?}",
+        p[0]
+    );
+    assert!(
+        f.notes.iter().any(|n| n.contains("drag_scale =")),
+        "{:?}",
+        f.notes
+    );
+    let rep = v.join("check.json");
+    let (_, stdout, stderr) = arcwise(&[
+        "check",
+        "--learned",
+        s(&with),
+        "--forces",
+        s(&v.join("forces.yaml")),
+        "--arc",
+        s(&v.join("next.csv")),
+        "--report",
+        s(&rep),
+    ]);
+    assert!(
+        stderr.contains("fitted with drag_scale"),
+        "{stdout}{stderr}"
+    );
+    let r: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&rep).unwrap()).unwrap();
+    assert!(r["warnings"].to_string().contains("drag_scale"), "{r}");
+    let without = learn(&v.join("plain.yaml"), &[]);
+    assert!(!without.contains("known_parameters"), "{without}");
+}

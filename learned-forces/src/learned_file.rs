@@ -310,6 +310,12 @@ pub struct LearnedFile {
     /// (their checksum does not cover it).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub state_at_end_known_forces: Option<StateEntry>,
+    /// The known model's parameters estimated alongside the terms in the final fit
+    /// (`drag_scale`, `srp_scale`, empirical accelerations), name, value and 1σ: the terms
+    /// complement the known forces with these values, not with forces.yaml's own. Absent
+    /// when none was estimated (and in older files: their checksum does not cover it).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub known_parameters: Vec<ConstantEntry>,
     /// Notes for the reader (degenerate terms, verdicts).
     #[serde(default)]
     pub notes: Vec<String>,
@@ -550,6 +556,36 @@ impl LearnedFile {
                 StateEntry::new(&l.base.epoch_last, &l.base.x_last),
             ),
         };
+        // The classical parameters of the fit the terms came with (the base fit's when
+        // nothing was learned), and a note to use them with the file.
+        let final_fit = l.chosen.as_ref().map_or(&l.base, |c| &c.fit);
+        let known_parameters: Vec<ConstantEntry> = final_fit
+            .estimates
+            .iter()
+            .filter(|e| {
+                !matches!(
+                    e.parameter,
+                    crate::fit::model::Parameter::TermCoefficient(_)
+                        | crate::fit::model::Parameter::TermConstant(_)
+                )
+            })
+            .map(|e| ConstantEntry {
+                name: e.parameter.name(),
+                value: e.value,
+                sigma: e.sigma,
+            })
+            .collect();
+        let mut notes = l.notes.clone();
+        if !known_parameters.is_empty() && l.chosen.is_some() {
+            notes.push(format!(
+                "learned with {} estimated alongside: the terms complement the known forces with these values; use them (e.g. drag: {{ scale: … }}) wherever this file is used",
+                known_parameters
+                    .iter()
+                    .map(|p| format!("{} = {:.4} ± {:.1e}", p.name, p.value, p.sigma))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ));
+        }
         let fit = FitEntry {
             held_out_rms_km: if fit.held_out_rms_km.is_finite() {
                 fit.held_out_rms_km
@@ -583,7 +619,8 @@ impl LearnedFile {
             provenance,
             state_at_end: end,
             state_at_end_known_forces: Some(StateEntry::new(&l.base.epoch_last, &l.base.x_last)),
-            notes: l.notes.clone(),
+            known_parameters,
+            notes,
             checksum: String::new(),
         }
     }

@@ -262,6 +262,17 @@ pub fn check(
         })?
         .state("state_at_end_known_forces")
         .map_err(CheckError::Learned)?;
+    if !file.known_parameters.is_empty() {
+        // Not silently: the terms were fitted with these values of the known model.
+        propagator::notice::warn_once(format!(
+            "the learned file was fitted with {} estimated; this check predicts with the known forces as forces.yaml gives them (set the values there for a like-for-like check)",
+            file.known_parameters
+                .iter()
+                .map(|p| format!("{} = {:.4}", p.name, p.value))
+                .collect::<Vec<_>>()
+                .join(", ")
+        ));
+    }
     let known_model = known_forces(known_epoch).map_err(CheckError::Model)?;
     let mut learned_model = known_forces(epoch).map_err(CheckError::Model)?;
     learned_model.push(Box::new(file.force(&epoch).map_err(CheckError::Learned)?));
