@@ -619,3 +619,17 @@ fn a_learned_file_with_an_impossible_environment_is_refused() {
         assert!(build(&f, "bad", &tempfile::tempdir().unwrap().path().join("b")).is_err());
     }
 }
+
+#[test]
+fn the_plugin_runtime_is_self_contained() {
+    // The runtime's `include!`s (terminals, USSA1976 nodes, ellipsoid height) are inlined
+    // into the generated crate, which has no path back to this repository.
+    let src = learned_forces::codegen::runtime_source();
+    assert!(
+        !src.contains("include!("),
+        "an include! left in the plugin runtime"
+    );
+    for item in ["pub struct P<N>", "static TABLE", "fn ellipsoid_height"] {
+        assert!(src.contains(item), "{item} missing");
+    }
+}

@@ -19,7 +19,11 @@ pub const RUNTIME_SOURCE: &str = include_str!("runtime.rs");
 
 /// The propagator's self-contained sources the runtime includes, by their `include!`
 /// line: the generated crate has no path back to them, so their text replaces the line.
-const INCLUDED: [(&str, &str); 2] = [
+const INCLUDED: [(&str, &str); 3] = [
+    (
+        "include!(\"../expr/terminals.rs\");",
+        include_str!("../expr/terminals.rs"),
+    ),
     (
         "include!(\"../../../propagator/src/atmosphere/ussa1976_table.rs\");",
         include_str!("../../../propagator/src/atmosphere/ussa1976_table.rs"),

@@ -382,41 +382,9 @@ pub fn lit(r: [f64; 3], s: [f64; 3], re: f64) -> f64 {
     }
 }
 
-/// Terminal values at a point (`learned_forces::expr::Terminals` in the library).
-#[derive(Clone, Copy, Debug)]
-pub struct P<N> {
-    pub t: f64,
-    pub r: [N; 3],
-    pub v: [N; 3],
-    pub vrel: [N; 3],
-    pub rh: [N; 3],
-    pub th: [N; 3],
-    pub nh: [N; 3],
-    pub h: N,
-    pub rho: N,
-    pub u: N,
-    pub sun: [f64; 3],
-    pub lit: f64,
-}
-
-/// Which terminals to compute (the rest are left at zero); generated code passes
-/// constants, so the unused work is compiled away.
-#[derive(Clone, Copy)]
-pub struct Need {
-    pub rtn: bool,
-    pub u: bool,
-    pub rho: bool,
-    pub sun: bool,
-    pub lit: bool,
-}
-
-pub const ALL: Need = Need {
-    rtn: true,
-    u: true,
-    rho: true,
-    sun: true,
-    lit: true,
-};
+// The terminal set of the formula language (`P`, `Need`, `ALL`): the formula module's
+// own source, inlined here by `arcwise build`.
+include!("../expr/terminals.rs");
 
 /// Terminals at formula time `t` (s), state (r, v); `t0c` TT centuries at `t = 0`.
 /// `need_sun` and `need_lit` skip the Sun series and the shadow when unused.
