@@ -2,7 +2,7 @@
 //! (drag and SRP scale factors, empirical RTN accelerations).
 
 use nalgebra::{Matrix3, Matrix3x6, Vector3};
-use propagator::force::{central_difference_partials, Force, ForceError, Segment};
+use propagator::force::{central_difference_partials, Force, ForceError, ScaleKind, Segment};
 use propagator::frames::eci_to_rtn;
 use propagator::variational::Dynamics;
 use propagator::{ForceModel, StateVector};
@@ -100,9 +100,9 @@ impl FitModel {
     /// Wraps `model`; `parameters` start at their initial values. A scale of a force the
     /// model does not have is an error.
     pub fn new(model: ForceModel, parameters: Vec<Parameter>) -> Result<Self, String> {
-        let find = |name: &str| model.forces().iter().position(|f| f.name() == name);
-        let drag_index = find("drag");
-        let srp_index = find("srp");
+        let find = |kind: ScaleKind| model.forces().iter().position(|f| f.scale() == Some(kind));
+        let drag_index = find(ScaleKind::Drag);
+        let srp_index = find(ScaleKind::Srp);
         for p in &parameters {
             match p {
                 Parameter::DragScale if drag_index.is_none() => {

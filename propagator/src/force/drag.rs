@@ -52,6 +52,10 @@ impl Force for Drag {
         "drag"
     }
 
+    fn scale(&self) -> Option<super::ScaleKind> {
+        Some(super::ScaleKind::Drag)
+    }
+
     fn acceleration(&self, t_s: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
         let r = Vector3::new(x[0], x[1], x[2]);
         let h = self.altitude.altitude_km(&r, &self.body);

@@ -111,6 +111,21 @@ pub trait Force: Send + Sync {
     /// at every sign change, so that no step straddles a kink: an adaptive step across one
     /// keeps the kink's error (2.7 m a day at the default tolerance for a conical shadow).
     fn switching(&self, _t_s: f64, _x: &StateVector, _out: &mut Vec<f64>) {}
+
+    /// Which overall scale of this force a fit may estimate, if any (drag's and SRP's):
+    /// the fit finds the force by this, never by its name, which a plugin could share.
+    fn scale(&self) -> Option<ScaleKind> {
+        None
+    }
+}
+
+/// A force's overall multiplier a fit can estimate.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum ScaleKind {
+    /// Atmospheric drag (`drag_scale`).
+    Drag,
+    /// Solar radiation pressure (`srp_scale`).
+    Srp,
 }
 
 /// Central-difference ∂a/∂x of any force; steps relative to |r| and |v|.

@@ -170,6 +170,10 @@ impl Force for SolarPressure {
         "srp"
     }
 
+    fn scale(&self) -> Option<super::ScaleKind> {
+        Some(super::ScaleKind::Srp)
+    }
+
     fn acceleration(&self, t_s: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
         let r = Vector3::new(x[0], x[1], x[2]);
         let s = sun_position_km(self.clock.centuries(t_s));
