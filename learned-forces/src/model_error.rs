@@ -33,10 +33,11 @@ pub struct ModelError {
 }
 
 /// Relative uncertainty of a force by name (see the module text).
-fn relative_uncertainty(name: &str) -> f64 {
-    if name.starts_with("drag") || name == "srp" {
+fn relative_uncertainty(f: &dyn propagator::Force) -> f64 {
+    if f.scale().is_some() {
+        // Drag and SRP: the forces whose size a fit may scale.
         0.1
-    } else if name.starts_with("third_body") {
+    } else if f.name().starts_with("third_body") {
         1e-3
     } else {
         0.0
@@ -69,7 +70,7 @@ pub fn default_for(arc: &Arc, loaded: &LoadedForces) -> ModelError {
     let x = StateVector::new(r[0], r[1], r[2], v[0], v[1], v[2]);
     let mut a = 0.0;
     for f in loaded.model.forces() {
-        let k = relative_uncertainty(f.name());
+        let k = relative_uncertainty(f.as_ref());
         if k > 0.0 {
             if let Ok(acc) = f.acceleration(0.0, &x) {
                 a += k * acc.norm();
