@@ -457,7 +457,7 @@ fn environments() -> Vec<learned_forces::expr::Environment> {
 
 #[test]
 fn the_terminals_read_the_known_models_atmosphere_and_altitude() {
-    // `rho` and `alt` against the host's own drag atmosphere and altitude model, built
+    // `rho` and `h` against the host's own drag atmosphere and altitude model, built
     // from a forces.yaml as a user writes it (Context::of_model), for each atmosphere and
     // both altitude models; and ∂alt/∂r (the ellipsoid normal) against differences.
     use propagator::config::ForcesFile;
@@ -523,7 +523,7 @@ fn the_terminals_read_the_known_models_atmosphere_and_altitude() {
 
 #[test]
 fn a_plugin_reads_the_same_atmosphere_and_altitude_as_in_process() {
-    // Formulas reading `rho` and `alt` under each non-default environment: the native
+    // Formulas reading `rho` and `h` under each non-default environment: the native
     // plugin (the runtime with the propagator's USSA1976 table and ellipsoid inlined)
     // against the in-process force, values and partials.
     let reference = Epoch::parse_utc(EPOCH).unwrap();

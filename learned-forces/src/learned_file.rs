@@ -155,7 +155,7 @@ pub struct EarthEntry {
     pub rotation_rad_s: f64,
 }
 
-/// What the `rho` and `alt` terminals mean: the known model's atmosphere and altitude.
+/// What the `rho` and `h` terminals mean: the known model's atmosphere and altitude.
 /// Absent in files written before it existed: the handbook table, spherical altitude.
 #[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]

@@ -315,9 +315,9 @@ impl EarthOrientationSpec {
     /// The Earth orientation from this file (relative to `forces_path`'s folder).
     pub fn load(&self, forces_path: &Path) -> Result<crate::earth::EarthOrientation, String> {
         let base = forces_path.parent().unwrap_or(Path::new("."));
-        Ok(crate::earth::EarthOrientation::new(std::sync::Arc::new(
-            crate::earth::EopTable::read(&base.join(&self.file))?,
-        )))
+        Ok(crate::earth::EarthOrientation::new(
+            crate::input::parsed_once(&base.join(&self.file), crate::earth::EopTable::read)?,
+        ))
     }
 }
 

@@ -22,6 +22,50 @@ pub const MAX_YAML_DEPTH: usize = 32;
 /// The most YAML nodes a document may expand to, aliases included.
 pub const MAX_YAML_NODES: u64 = 200_000;
 
+/// A parsed data file shared within the process: the same file (same canonical path,
+/// length and modification time, same parsed type) is read and parsed once however many
+/// times a command builds its force model (the learner rebuilds it for every fit, and
+/// arcs read the Earth-orientation file the field also uses). Errors are not kept, so a
+/// bad file is reported every time; a file changed on disk is read again.
+pub fn parsed_once<T: Send + Sync + 'static>(
+    path: &Path,
+    parse: impl FnOnce(&Path) -> Result<T, String>,
+) -> Result<std::sync::Arc<T>, String> {
+    use std::any::{Any, TypeId};
+    use std::collections::HashMap;
+    use std::sync::{Arc, Mutex, OnceLock};
+    type Key = (
+        TypeId,
+        std::path::PathBuf,
+        u64,
+        Option<std::time::SystemTime>,
+    );
+    static CACHE: OnceLock<Mutex<HashMap<Key, Arc<dyn Any + Send + Sync>>>> = OnceLock::new();
+    let key = std::fs::canonicalize(path).ok().and_then(|p| {
+        let m = std::fs::metadata(&p).ok()?;
+        Some((TypeId::of::<T>(), p, m.len(), m.modified().ok()))
+    });
+    let Some(key) = key else {
+        // Missing or unreadable: the parser says why, in its own words.
+        return parse(path).map(Arc::new);
+    };
+    let cache = CACHE.get_or_init(|| Mutex::new(HashMap::new()));
+    let hit = cache
+        .lock()
+        .unwrap_or_else(|p| p.into_inner())
+        .get(&key)
+        .cloned();
+    if let Some(Ok(v)) = hit.map(|v| v.downcast::<T>()) {
+        return Ok(v);
+    }
+    let v = Arc::new(parse(path)?);
+    cache
+        .lock()
+        .unwrap_or_else(|p| p.into_inner())
+        .insert(key, v.clone());
+    Ok(v)
+}
+
 /// Reads a UTF-8 text file of at most `max_bytes`; the message does not name the file
 /// (callers add it, with their own error type).
 pub fn read_text(path: &Path, max_bytes: u64) -> Result<String, String> {
@@ -145,5 +189,35 @@ mod tests {
         assert_eq!(read_text(&p, 4096).unwrap().len(), 2048);
         std::fs::write(&p, [0x66, 0xff, 0x66]).unwrap();
         assert!(read_text(&p, 4096).unwrap_err().contains("UTF-8"));
+    }
+
+    #[test]
+    fn a_file_is_parsed_once_until_it_changes_and_errors_are_not_kept() {
+        use std::sync::atomic::{AtomicUsize, Ordering};
+        static CALLS: AtomicUsize = AtomicUsize::new(0);
+        #[derive(Debug)]
+        struct Parsed(String);
+        let parse = |p: &Path| {
+            CALLS.fetch_add(1, Ordering::SeqCst);
+            let t = std::fs::read_to_string(p).map_err(|e| e.to_string())?;
+            if t.starts_with("bad") {
+                return Err("bad file".to_string());
+            }
+            Ok(Parsed(t))
+        };
+        let dir = tempfile::tempdir().unwrap();
+        let f = dir.path().join("eop.txt");
+        std::fs::write(&f, "one").unwrap();
+        assert_eq!(parsed_once(&f, parse).unwrap().0, "one");
+        assert_eq!(parsed_once(&f, parse).unwrap().0, "one");
+        assert_eq!(CALLS.load(Ordering::SeqCst), 1);
+        // A different length is a different file.
+        std::fs::write(&f, "three").unwrap();
+        assert_eq!(parsed_once(&f, parse).unwrap().0, "three");
+        std::fs::write(&f, "bad, longer").unwrap();
+        assert!(parsed_once(&f, parse).is_err());
+        assert!(parsed_once(&f, parse).is_err());
+        assert_eq!(CALLS.load(Ordering::SeqCst), 4);
+        assert!(parsed_once(&dir.path().join("missing"), parse).is_err());
     }
 }

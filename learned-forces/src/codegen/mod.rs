@@ -214,7 +214,7 @@ const ALT: (f64, f64) = ({a0}, {a1});
 const POLICY: u8 = {policy};
 // The terminals the formula reads; the others are never computed.
 const NEED: Need = Need {{ rtn: {need_rtn}, u: {need_u}, rho: {need_rho}, sun: {need_sun}, lit: {need_lit} }};
-// What `rho` and `alt` mean: the known model's atmosphere and altitude.
+// What `rho` and `h` mean: the known model's atmosphere and altitude.
 const ENV: Env = {env};
 
 fn eval<N: Num>(p: &P<N>) -> [N; 3] {{

@@ -272,7 +272,7 @@ pub enum Density {
     },
 }
 
-/// What the `alt` terminal means: the known model's altitude.
+/// What the `h` terminal means: the known model's altitude.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub enum Altitude {
     /// |r| − R.

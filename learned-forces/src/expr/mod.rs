@@ -477,11 +477,11 @@ pub struct Context {
     pub rotation_rad_s: f64,
     /// Maps `t` to the Sun series' time argument.
     pub clock: CenturyClock,
-    /// What `rho` and `alt` mean: the known model's atmosphere and altitude.
+    /// What `rho` and `h` mean: the known model's atmosphere and altitude.
     pub environment: Environment,
 }
 
-/// The atmosphere and altitude the `rho` and `alt` terminals read (the plugin runtime's
+/// The atmosphere and altitude the `rho` and `h` terminals read (the plugin runtime's
 /// type, so a plugin computes them with the same code).
 pub use crate::codegen::runtime::{Altitude, Density, Env as Environment, HANDBOOK_ENV};
 

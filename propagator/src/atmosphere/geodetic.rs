@@ -1,7 +1,7 @@
 // Height above an ellipsoid, and the ellipsoid's outward normal at the foot point.
 //
 // Included verbatim by the propagator (`atmosphere::geodetic_height_km`) and by the
-// learned-force plugin runtime, so the host's drag and a learned formula's `alt` terminal
+// learned-force plugin runtime, so the host's drag and a learned formula's `h` terminal
 // measure the same height: keep it free of `use` and of anything but core arithmetic.
 
 /// Height (km) of `r` (km, Earth-fixed or with the pole on z) above the ellipsoid of
