@@ -155,5 +155,41 @@ fn real_earth(c: &mut Criterion) {
     g.finish();
 }
 
-criterion_group!(benches, force_evaluation, one_day, real_earth);
+fn thermosphere(c: &mut Criterion) {
+    use propagator::atmosphere::nrlmsise00::{nrlmsise00, Geomagnetic, MsisInput};
+    let at = |altitude_km: f64, geomagnetic| MsisInput {
+        day_of_year: 172.0,
+        ut_s: 29000.0,
+        altitude_km,
+        latitude_deg: 60.0,
+        longitude_deg: -70.0,
+        local_solar_time_h: 16.0,
+        f107: 150.0,
+        f107a: 150.0,
+        geomagnetic,
+    };
+    let storm = Geomagnetic::History([40.0, 80.0, 60.0, 30.0, 20.0, 15.0, 10.0]);
+    // 400 km: above the 300 km where the lower-thermosphere terms drop out;
+    // 200 km: with them; 400 km storm-time: the 3-hourly history's sums.
+    for (label, input) in [
+        (
+            "NRLMSISE-00 density, one evaluation, 400 km daily Ap",
+            at(400.0, Geomagnetic::Daily(15.0)),
+        ),
+        (
+            "NRLMSISE-00 density, one evaluation, 200 km daily Ap",
+            at(200.0, Geomagnetic::Daily(15.0)),
+        ),
+        (
+            "NRLMSISE-00 density, one evaluation, 400 km storm-time Ap",
+            at(400.0, storm),
+        ),
+    ] {
+        c.bench_function(label, |b| {
+            b.iter(|| nrlmsise00(black_box(&input)).mass_density_kg_m3)
+        });
+    }
+}
+
+criterion_group!(benches, force_evaluation, one_day, real_earth, thermosphere);
 criterion_main!(benches);

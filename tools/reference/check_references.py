@@ -19,6 +19,7 @@ import eop_table  # noqa: E402
 import gcrf_itrf  # noqa: E402
 import gravity_field  # noqa: E402
 import leap_seconds  # noqa: E402
+import nrlmsise00  # noqa: E402
 import real_earth_trajectory  # noqa: E402
 import sun_moon  # noqa: E402
 import third_body_trajectories  # noqa: E402
@@ -37,6 +38,8 @@ FILES = [
     "tests/data/reference/gcrf_itrf_erfa.json",
     "tests/data/reference/gravity_egm2008_deg70.json",
     "tests/data/reference/real_earth_trajectory.json",
+    "propagator/src/atmosphere/nrlmsise00_tables.rs",
+    "tests/data/reference/nrlmsise00_pymsis.json",
 ]
 
 
@@ -78,6 +81,7 @@ def main():
         gcrf_itrf.main(tmp)
         gravity_field.main(tmp)
         real_earth_trajectory.main(tmp)
+        nrlmsise00.main(tmp)
         bad = 0
         for rel in FILES:
             new, old = (tmp / rel).read_text(), (ROOT / rel).read_text()

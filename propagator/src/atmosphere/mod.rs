@@ -6,6 +6,13 @@
 
 mod ussa1976_table;
 
+/// NRLMSISE-00 (Picone et al. 2002): density from position, time and space weather.
+pub mod nrlmsise00 {
+    // Both files are self-contained so the plugin runtime can include them verbatim.
+    include!("nrlmsise00_tables.rs");
+    include!("nrlmsise00_model.rs");
+}
+
 // Self-contained sources shared verbatim with the learned-force plugin runtime.
 include!("geodetic.rs");
 

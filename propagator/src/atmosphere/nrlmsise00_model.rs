@@ -1,0 +1,969 @@
+// NRLMSISE-00 empirical model of the neutral atmosphere (Picone, Hedin, Drob & Aikin
+// 2002, JGR 107(A12) 1468; the MSIS formulation of Hedin 1987, JGR 92(A5) 4649, and
+// Hedin 1991, JGR 96(A2) 1159), written from the model's description and NRL's
+// reference release; coefficients in `nrlmsise00_tables.rs`.
+//
+// Self-contained (core arithmetic only, no `use`) so that the learned-force plugin
+// runtime can include it verbatim and a formula's `rho` is the host's density.
+//
+// Internally the model works as published: number densities in cm⁻³, g/cm³, gravity in
+// cm/s², the gas constant 831.4 in its units, angles with the model's own rounded
+// constants (DGTR, DR, HR, SR below): these are part of the model, not π/180.
+
+/// Degrees to radians, as the model rounds it.
+const DGTR: f64 = 1.74533e-2;
+/// Day of year to radians of the annual cycle (2π/365), as the model rounds it.
+const DR: f64 = 1.72142e-2;
+/// Hours to radians of the diurnal cycle, as the model rounds it.
+const HR: f64 = 0.2618;
+/// Seconds to radians of the diurnal cycle, as the model rounds it.
+const SR: f64 = 7.2722e-5;
+/// Gas constant in the model's units.
+const RGAS: f64 = 831.4;
+/// Atomic mass unit, g (the model's value).
+const AMU_G: f64 = 1.66e-24;
+
+/// Geomagnetic activity as the model takes it.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Geomagnetic {
+    /// The daily Ap index.
+    Daily(f64),
+    /// The storm-time history: daily Ap; 3-hourly ap now, 3, 6 and 9 h before; the mean
+    /// of the eight 3-hourly values 12–33 h before, and of those 36–57 h before.
+    History([f64; 7]),
+}
+
+/// Where and when the model is evaluated, and the Sun's and the field's activity.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct MsisInput {
+    /// Day of year, 1–366. The model uses the whole day (as its reference release does).
+    pub day_of_year: f64,
+    /// Universal time of day, s.
+    pub ut_s: f64,
+    /// Geodetic altitude, km.
+    pub altitude_km: f64,
+    /// Geodetic latitude, degrees.
+    pub latitude_deg: f64,
+    /// East longitude, degrees.
+    pub longitude_deg: f64,
+    /// Local apparent solar time, hours.
+    pub local_solar_time_h: f64,
+    /// F10.7 solar radio flux of the previous day, 10⁻²² W m⁻² Hz⁻¹ (sfu).
+    pub f107: f64,
+    /// 81-day centred mean of F10.7, sfu.
+    pub f107a: f64,
+    /// Geomagnetic activity.
+    pub geomagnetic: Geomagnetic,
+}
+
+/// The model's answer at one point.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct MsisOutput {
+    /// Number densities, m⁻³: He, O, N2, O2, Ar, H, N, anomalous O.
+    pub number_density_m3: [f64; 8],
+    /// Total mass density for drag, kg/m³, anomalous oxygen included.
+    pub mass_density_kg_m3: f64,
+    /// Exospheric temperature, K.
+    pub exospheric_temperature_k: f64,
+    /// Temperature at the altitude, K.
+    pub temperature_k: f64,
+}
+
+/// Evaluates NRLMSISE-00 (the reference release's GTD7D: all species, mass density
+/// with anomalous oxygen), all switches on.
+pub fn nrlmsise00(input: &MsisInput) -> MsisOutput {
+    let point = Point::new(input);
+    let (n, tinf, tz) = if input.altitude_km >= ZN2[0] {
+        let upper = thermosphere(&point, input.altitude_km);
+        (upper.n, upper.tinf, upper.tz)
+    } else {
+        lower_atmosphere(&point, input.altitude_km)
+    };
+    let mass = AMU_G
+        * (4.0 * n[0] + 16.0 * n[1] + 28.0 * n[2] + 32.0 * n[3] + 40.0 * n[4] + n[5]
+            + 14.0 * n[6]
+            + 16.0 * n[7]);
+    let mut number_density_m3 = n;
+    for d in number_density_m3.iter_mut() {
+        *d *= 1e6;
+    }
+    MsisOutput {
+        number_density_m3,
+        mass_density_kg_m3: mass * 1e3,
+        exospheric_temperature_k: tinf,
+        temperature_k: tz,
+    }
+}
+
+/// Mesosphere/stratosphere spline nodes (km) and troposphere nodes.
+const ZN2: [f64; 4] = [72.5, 55.0, 45.0, 32.5];
+const ZN3: [f64; 5] = [32.5, 20.0, 15.0, 10.0, 0.0];
+/// Below this altitude the thermosphere routine computes N2 alone.
+const ZMIX: f64 = 62.5;
+
+/// Quantities of one evaluation point that every coefficient set shares.
+struct Point {
+    day: f64,
+    sec: f64,
+    lat: f64,
+    lon: f64,
+    tloc: f64,
+    df: f64,
+    dfa: f64,
+    f107a: f64,
+    geomagnetic: Geomagnetic,
+    /// Associated Legendre functions P(n, m) of sin(latitude): `plg[m][n]`.
+    plg: [[f64; 8]; 4],
+    /// cos, sin of one, two and three times the local-time angle.
+    ctloc: f64,
+    stloc: f64,
+    c2tloc: f64,
+    s2tloc: f64,
+    c3tloc: f64,
+    s3tloc: f64,
+    clong: f64,
+    slong: f64,
+    /// Surface gravity (cm/s²) and effective Earth radius (km) at the latitude.
+    gsurf: f64,
+    re: f64,
+}
+
+impl Point {
+    fn new(input: &MsisInput) -> Point {
+        let c = (input.latitude_deg * DGTR).sin();
+        let s = (input.latitude_deg * DGTR).cos();
+        let (c2, s2) = (c * c, s * s);
+        let c4 = c2 * c2;
+        let mut plg = [[0.0; 8]; 4];
+        plg[0][1] = c;
+        plg[0][2] = 0.5 * (3.0 * c2 - 1.0);
+        plg[0][3] = 0.5 * (5.0 * c * c2 - 3.0 * c);
+        plg[0][4] = (35.0 * c4 - 30.0 * c2 + 3.0) / 8.0;
+        plg[0][5] = (63.0 * c2 * c2 * c - 70.0 * c2 * c + 15.0 * c) / 8.0;
+        plg[0][6] = (11.0 * c * plg[0][5] - 5.0 * plg[0][4]) / 6.0;
+        plg[1][1] = s;
+        plg[1][2] = 3.0 * c * s;
+        plg[1][3] = 1.5 * (5.0 * c2 - 1.0) * s;
+        plg[1][4] = 2.5 * (7.0 * c2 * c - 3.0 * c) * s;
+        plg[1][5] = 1.875 * (21.0 * c4 - 14.0 * c2 + 1.0) * s;
+        plg[1][6] = (11.0 * c * plg[1][5] - 6.0 * plg[1][4]) / 5.0;
+        plg[2][2] = 3.0 * s2;
+        plg[2][3] = 15.0 * s2 * c;
+        plg[2][4] = 7.5 * (7.0 * c2 - 1.0) * s2;
+        plg[2][5] = 3.0 * c * plg[2][4] - 2.0 * plg[2][3];
+        plg[2][6] = (11.0 * c * plg[2][5] - 7.0 * plg[2][4]) / 4.0;
+        plg[2][7] = (13.0 * c * plg[2][6] - 8.0 * plg[2][5]) / 5.0;
+        plg[3][3] = 15.0 * s2 * s;
+        plg[3][4] = 105.0 * s2 * s * c;
+        plg[3][5] = (9.0 * c * plg[3][4] - 7.0 * plg[3][3]) / 2.0;
+        plg[3][6] = (11.0 * c * plg[3][5] - 8.0 * plg[3][4]) / 3.0;
+        let tloc = input.local_solar_time_h;
+        let (stloc, ctloc) = (HR * tloc).sin_cos();
+        let (s2tloc, c2tloc) = (2.0 * HR * tloc).sin_cos();
+        let (s3tloc, c3tloc) = (3.0 * HR * tloc).sin_cos();
+        let (slong, clong) = (DGTR * input.longitude_deg).sin_cos();
+        // Gravity of the model's latitude formula (its GLATF).
+        let c2lat = (2.0 * DGTR * input.latitude_deg).cos();
+        let gsurf = 980.616 * (1.0 - 0.0026373 * c2lat);
+        let re = 2.0 * gsurf / (3.085462e-6 + 2.27e-9 * c2lat) * 1e-5;
+        Point {
+            day: input.day_of_year.floor(),
+            sec: input.ut_s,
+            lat: input.latitude_deg,
+            lon: input.longitude_deg,
+            tloc,
+            df: input.f107 - input.f107a,
+            dfa: input.f107a - 150.0,
+            f107a: input.f107a,
+            geomagnetic: input.geomagnetic,
+            plg,
+            ctloc,
+            stloc,
+            c2tloc,
+            s2tloc,
+            c3tloc,
+            s3tloc,
+            clong,
+            slong,
+            gsurf,
+            re,
+        }
+    }
+
+    /// Geopotential height difference between `zz` and `zl`, km.
+    fn zeta(&self, zz: f64, zl: f64) -> f64 {
+        (zz - zl) * (self.re + zl) / (self.re + zz)
+    }
+
+    /// Scale height, km, at `alt` km of mass `xm` amu and temperature `temp` K.
+    fn scale_height(&self, alt: f64, xm: f64, temp: f64) -> f64 {
+        let g = self.gsurf / (1.0 + alt / self.re).powi(2);
+        RGAS * temp / (g * xm)
+    }
+}
+
+/// The magnetic-activity terms the last upper-atmosphere expansion computed, which the
+/// lower-atmosphere expansions reuse (the reference release keeps them in a common
+/// block; the order of calls below reproduces what it holds).
+#[derive(Clone, Copy, Default)]
+struct Magnetic {
+    /// Daily-Ap function.
+    apdf: f64,
+    /// Storm-time function of the 3-hourly history.
+    apt: f64,
+}
+
+/// The storm-time function's g0 of one ap value (its G0).
+fn g0(a: f64, p: &[f64; 150], p25: f64) -> f64 {
+    a - 4.0 + (p[25] - 1.0) * (a - 4.0 + ((-p25.abs() * (a - 4.0)).exp() - 1.0) / p25.abs())
+}
+
+/// Weighted sum of the ap history (its SG0).
+fn sg0(ex: f64, p: &[f64; 150], p25: f64, ap: &[f64; 7]) -> f64 {
+    let sumex = 1.0 + (1.0 - ex.powi(19)) / (1.0 - ex) * ex.sqrt();
+    (g0(ap[1], p, p25)
+        + (g0(ap[2], p, p25) * ex
+            + g0(ap[3], p, p25) * ex * ex
+            + g0(ap[4], p, p25) * ex.powi(3)
+            + (g0(ap[5], p, p25) * ex.powi(4) + g0(ap[6], p, p25) * ex.powi(12))
+                * (1.0 - ex.powi(8))
+                / (1.0 - ex)))
+        / sumex
+}
+
+/// The upper-atmosphere expansion G(L) of one coefficient set (its GLOBE7): a sum of
+/// solar-flux, seasonal, tidal, magnetic and longitudinal terms.
+fn globe7(p: &[f64; 150], pt: &Point, m: &mut Magnetic) -> f64 {
+    let plg = &pt.plg;
+    let (df, dfa, day) = (pt.df, pt.dfa, pt.day);
+    let cd32 = (DR * (day - p[31])).cos();
+    let cd18 = (2.0 * DR * (day - p[17])).cos();
+    let cd14 = (DR * (day - p[13])).cos();
+    let cd39 = (2.0 * DR * (day - p[38])).cos();
+    let mut t = [0.0; 14];
+    // F10.7
+    t[0] = p[19] * df * (1.0 + p[59] * dfa) + p[20] * df * df + p[21] * dfa + p[29] * dfa * dfa;
+    let f1 = 1.0 + (p[47] * dfa + p[19] * df + p[20] * df * df);
+    let f2 = 1.0 + (p[49] * dfa + p[19] * df + p[20] * df * df);
+    // Time independent; symmetrical and asymmetrical annual and semiannual.
+    t[1] = (p[1] * plg[0][2] + p[2] * plg[0][4] + p[22] * plg[0][6])
+        + p[14] * plg[0][2] * dfa
+        + p[26] * plg[0][1];
+    t[2] = p[18] * cd32;
+    t[3] = (p[15] + p[16] * plg[0][2]) * cd18;
+    t[4] = f1 * (p[9] * plg[0][1] + p[10] * plg[0][3]) * cd14;
+    t[5] = p[37] * plg[0][1] * cd39;
+    // Diurnal, semidiurnal, terdiurnal.
+    let t71 = p[11] * plg[1][2] * cd14;
+    let t72 = p[12] * plg[1][2] * cd14;
+    t[6] = f2
+        * ((p[3] * plg[1][1] + p[4] * plg[1][3] + p[27] * plg[1][5] + t71) * pt.ctloc
+            + (p[6] * plg[1][1] + p[7] * plg[1][3] + p[28] * plg[1][5] + t72) * pt.stloc);
+    let t81 = (p[23] * plg[2][3] + p[35] * plg[2][5]) * cd14;
+    let t82 = (p[33] * plg[2][3] + p[36] * plg[2][5]) * cd14;
+    t[7] = f2
+        * ((p[5] * plg[2][2] + p[41] * plg[2][4] + t81) * pt.c2tloc
+            + (p[8] * plg[2][2] + p[42] * plg[2][4] + t82) * pt.s2tloc);
+    t[13] = f2
+        * ((p[39] * plg[3][3] + (p[93] * plg[3][4] + p[46] * plg[3][6]) * cd14) * pt.s3tloc
+            + (p[40] * plg[3][3] + (p[94] * plg[3][4] + p[48] * plg[3][6]) * cd14) * pt.c3tloc);
+    // Magnetic activity.
+    let storm = match pt.geomagnetic {
+        Geomagnetic::History(ap) => {
+            if p[51] != 0.0 {
+                let ex = (-10800.0 * p[51].abs() / (1.0 + p[138] * (45.0 - pt.lat.abs()))).exp();
+                let ex = ex.min(0.99999);
+                let p25 = if p[24] < 1e-4 { 1e-4 } else { p[24] };
+                m.apt = sg0(ex, p, p25, &ap);
+                t[8] = m.apt
+                    * (p[50]
+                        + p[96] * plg[0][2]
+                        + p[54] * plg[0][4]
+                        + (p[125] * plg[0][1] + p[126] * plg[0][3] + p[127] * plg[0][5]) * cd14
+                        + (p[128] * plg[1][1] + p[129] * plg[1][3] + p[130] * plg[1][5])
+                            * (HR * (pt.tloc - p[131])).cos());
+            }
+            true
+        }
+        Geomagnetic::Daily(ap) => {
+            let apd = ap - 4.0;
+            let p44 = if p[43] < 0.0 { 1e-5 } else { p[43] };
+            m.apdf = apd + (p[44] - 1.0) * (apd + ((-p44 * apd).exp() - 1.0) / p44);
+            t[8] = m.apdf
+                * (p[32]
+                    + p[45] * plg[0][2]
+                    + p[34] * plg[0][4]
+                    + (p[100] * plg[0][1] + p[101] * plg[0][3] + p[102] * plg[0][5]) * cd14
+                    + (p[121] * plg[1][1] + p[122] * plg[1][3] + p[123] * plg[1][5])
+                        * (HR * (pt.tloc - p[124])).cos());
+            false
+        }
+    };
+    // Longitudinal.
+    t[10] = (1.0 + p[80] * dfa)
+        * ((p[64] * plg[1][2]
+            + p[65] * plg[1][4]
+            + p[66] * plg[1][6]
+            + p[103] * plg[1][1]
+            + p[104] * plg[1][3]
+            + p[105] * plg[1][5]
+            + (p[109] * plg[1][1] + p[110] * plg[1][3] + p[111] * plg[1][5]) * cd14)
+            * pt.clong
+            + (p[90] * plg[1][2]
+                + p[91] * plg[1][4]
+                + p[92] * plg[1][6]
+                + p[106] * plg[1][1]
+                + p[107] * plg[1][3]
+                + p[108] * plg[1][5]
+                + (p[112] * plg[1][1] + p[113] * plg[1][3] + p[114] * plg[1][5]) * cd14)
+                * pt.slong);
+    // UT and mixed UT/longitude.
+    t[11] = (1.0 + p[95] * plg[0][1])
+        * (1.0 + p[81] * dfa)
+        * (1.0 + p[119] * plg[0][1] * cd14)
+        * ((p[68] * plg[0][1] + p[69] * plg[0][3] + p[70] * plg[0][5])
+            * (SR * (pt.sec - p[71])).cos());
+    t[11] += (p[76] * plg[2][3] + p[77] * plg[2][5] + p[78] * plg[2][7])
+        * (SR * (pt.sec - p[79]) + 2.0 * DGTR * pt.lon).cos()
+        * (1.0 + p[137] * dfa);
+    // UT/longitude magnetic activity.
+    if storm {
+        if p[51] != 0.0 {
+            t[12] = m.apt
+                * (1.0 + p[132] * plg[0][1])
+                * ((p[52] * plg[1][2] + p[98] * plg[1][4] + p[67] * plg[1][6])
+                    * (DGTR * (pt.lon - p[97])).cos())
+                + m.apt
+                    * (p[133] * plg[1][1] + p[134] * plg[1][3] + p[135] * plg[1][5])
+                    * cd14
+                    * (DGTR * (pt.lon - p[136])).cos()
+                + m.apt
+                    * (p[55] * plg[0][1] + p[56] * plg[0][3] + p[57] * plg[0][5])
+                    * (SR * (pt.sec - p[58])).cos();
+        }
+    } else {
+        t[12] = m.apdf
+            * (1.0 + p[120] * plg[0][1])
+            * ((p[60] * plg[1][2] + p[61] * plg[1][4] + p[62] * plg[1][6])
+                * (DGTR * (pt.lon - p[63])).cos())
+            + m.apdf
+                * (p[115] * plg[1][1] + p[116] * plg[1][3] + p[117] * plg[1][5])
+                * cd14
+                * (DGTR * (pt.lon - p[118])).cos()
+            + m.apdf
+                * (p[83] * plg[0][1] + p[84] * plg[0][3] + p[85] * plg[0][5])
+                * (SR * (pt.sec - p[75])).cos();
+    }
+    let mut g = p[30];
+    for term in t {
+        g += term;
+    }
+    g
+}
+
+/// The lower-atmosphere expansion of one coefficient set (its GLOB7S), with the
+/// magnetic terms of the last upper-atmosphere expansion.
+fn glob7s(p: &[f64; 100], pt: &Point, m: &Magnetic) -> f64 {
+    let plg = &pt.plg;
+    let day = pt.day;
+    let cd32 = (DR * (day - p[31])).cos();
+    let cd18 = (2.0 * DR * (day - p[17])).cos();
+    let cd14 = (DR * (day - p[13])).cos();
+    let cd39 = (2.0 * DR * (day - p[38])).cos();
+    let mut t = [0.0; 14];
+    t[0] = p[21] * pt.dfa;
+    t[1] = p[1] * plg[0][2]
+        + p[2] * plg[0][4]
+        + p[22] * plg[0][6]
+        + p[26] * plg[0][1]
+        + p[14] * plg[0][3]
+        + p[59] * plg[0][5];
+    t[2] = (p[18] + p[47] * plg[0][2] + p[29] * plg[0][4]) * cd32;
+    t[3] = (p[15] + p[16] * plg[0][2] + p[30] * plg[0][4]) * cd18;
+    t[4] = (p[9] * plg[0][1] + p[10] * plg[0][3] + p[20] * plg[0][5]) * cd14;
+    t[5] = p[37] * plg[0][1] * cd39;
+    let t71 = p[11] * plg[1][2] * cd14;
+    let t72 = p[12] * plg[1][2] * cd14;
+    t[6] = (p[3] * plg[1][1] + p[4] * plg[1][3] + t71) * pt.ctloc
+        + (p[6] * plg[1][1] + p[7] * plg[1][3] + t72) * pt.stloc;
+    let t81 = (p[23] * plg[2][3] + p[35] * plg[2][5]) * cd14;
+    let t82 = (p[33] * plg[2][3] + p[36] * plg[2][5]) * cd14;
+    t[7] = (p[5] * plg[2][2] + p[41] * plg[2][4] + t81) * pt.c2tloc
+        + (p[8] * plg[2][2] + p[42] * plg[2][4] + t82) * pt.s2tloc;
+    t[13] = p[39] * plg[3][3] * pt.s3tloc + p[40] * plg[3][3] * pt.c3tloc;
+    t[8] = match pt.geomagnetic {
+        Geomagnetic::Daily(_) => m.apdf * (p[32] + p[45] * plg[0][2]),
+        Geomagnetic::History(_) => p[50] * m.apt + p[96] * plg[0][2] * m.apt,
+    };
+    t[10] = (1.0
+        + plg[0][1]
+            * (p[80] * (DR * (day - p[81])).cos() + p[85] * (2.0 * DR * (day - p[86])).cos())
+        + p[83] * (DR * (day - p[84])).cos()
+        + p[87] * (2.0 * DR * (day - p[88])).cos())
+        * ((p[64] * plg[1][2]
+            + p[65] * plg[1][4]
+            + p[66] * plg[1][6]
+            + p[74] * plg[1][1]
+            + p[75] * plg[1][3]
+            + p[76] * plg[1][5])
+            * pt.clong
+            + (p[90] * plg[1][2]
+                + p[91] * plg[1][4]
+                + p[92] * plg[1][6]
+                + p[77] * plg[1][1]
+                + p[78] * plg[1][3]
+                + p[79] * plg[1][5])
+                * pt.slong);
+    let mut g = 0.0;
+    for term in t {
+        g += term;
+    }
+    g
+}
+
+/// Cubic spline second derivatives (natural where a slope is > 0.99e30; its SPLINE).
+fn spline<const N: usize>(x: &[f64; N], y: &[f64; N], yp1: f64, ypn: f64) -> [f64; N] {
+    let mut y2 = [0.0; N];
+    let mut u = [0.0; N];
+    if yp1 <= 0.99e30 {
+        y2[0] = -0.5;
+        u[0] = (3.0 / (x[1] - x[0])) * ((y[1] - y[0]) / (x[1] - x[0]) - yp1);
+    }
+    for i in 1..N - 1 {
+        let sig = (x[i] - x[i - 1]) / (x[i + 1] - x[i - 1]);
+        let p = sig * y2[i - 1] + 2.0;
+        y2[i] = (sig - 1.0) / p;
+        u[i] = (6.0
+            * ((y[i + 1] - y[i]) / (x[i + 1] - x[i]) - (y[i] - y[i - 1]) / (x[i] - x[i - 1]))
+            / (x[i + 1] - x[i - 1])
+            - sig * u[i - 1])
+            / p;
+    }
+    let (qn, un) = if ypn > 0.99e30 {
+        (0.0, 0.0)
+    } else {
+        let h = x[N - 1] - x[N - 2];
+        (0.5, (3.0 / h) * (ypn - (y[N - 1] - y[N - 2]) / h))
+    };
+    y2[N - 1] = (un - qn * u[N - 2]) / (qn * y2[N - 2] + 1.0);
+    for k in (0..N - 1).rev() {
+        y2[k] = y2[k] * y2[k + 1] + u[k];
+    }
+    y2
+}
+
+/// The spline's value at `x` (its SPLINT).
+fn splint<const N: usize>(xa: &[f64; N], ya: &[f64; N], y2a: &[f64; N], x: f64) -> f64 {
+    let (mut klo, mut khi) = (0, N - 1);
+    while khi - klo > 1 {
+        let k = (khi + klo) / 2;
+        if xa[k] > x {
+            khi = k;
+        } else {
+            klo = k;
+        }
+    }
+    let h = xa[khi] - xa[klo];
+    let a = (xa[khi] - x) / h;
+    let b = (x - xa[klo]) / h;
+    a * ya[klo]
+        + b * ya[khi]
+        + ((a * a * a - a) * y2a[klo] + (b * b * b - b) * y2a[khi]) * h * h / 6.0
+}
+
+/// The spline's integral from `xa[0]` to `x` (its SPLINI).
+fn splini<const N: usize>(xa: &[f64; N], ya: &[f64; N], y2a: &[f64; N], x: f64) -> f64 {
+    let mut yi = 0.0;
+    let (mut klo, mut khi) = (0, 1);
+    while x > xa[klo] && khi < N {
+        let xx = if khi < N - 1 { x.min(xa[khi]) } else { x };
+        let h = xa[khi] - xa[klo];
+        let a = (xa[khi] - xx) / h;
+        let b = (xx - xa[klo]) / h;
+        let (a2, b2) = (a * a, b * b);
+        yi += ((1.0 - a2) * ya[klo] / 2.0
+            + b2 * ya[khi] / 2.0
+            + ((-(1.0 + a2 * a2) / 4.0 + a2 / 2.0) * y2a[klo] + (b2 * b2 / 4.0 - b2 / 2.0) * y2a[khi])
+                * h
+                * h
+                / 6.0)
+            * h;
+        klo += 1;
+        khi += 1;
+    }
+    yi
+}
+
+/// A temperature profile between spline nodes: 1/T is a cubic spline in geopotential
+/// height, with end gradients `tg` (K/km).
+struct SplineProfile<const N: usize> {
+    xs: [f64; N],
+    ys: [f64; N],
+    y2: [f64; N],
+    z1: f64,
+    zgdif: f64,
+    t1: f64,
+    /// Node temperatures, K, and end gradients, K/km.
+    tn: [f64; N],
+    tg: [f64; 2],
+}
+
+impl<const N: usize> SplineProfile<N> {
+    fn new(pt: &Point, zn: &[f64; N], tn: &[f64; N], tg: [f64; 2]) -> Self {
+        let (z1, z2) = (zn[0], zn[N - 1]);
+        let (t1, t2) = (tn[0], tn[N - 1]);
+        let zgdif = pt.zeta(z2, z1);
+        let mut xs = [0.0; N];
+        let mut ys = [0.0; N];
+        for k in 0..N {
+            xs[k] = pt.zeta(zn[k], z1) / zgdif;
+            ys[k] = 1.0 / tn[k];
+        }
+        let yd1 = -tg[0] / (t1 * t1) * zgdif;
+        let yd2 = -tg[1] / (t2 * t2) * zgdif * ((pt.re + z2) / (pt.re + z1)).powi(2);
+        let y2 = spline(&xs, &ys, yd1, yd2);
+        SplineProfile {
+            xs,
+            ys,
+            y2,
+            z1,
+            zgdif,
+            t1,
+            tn: *tn,
+            tg,
+        }
+    }
+
+    /// Temperature (K) at `z` km, and the normalised height where the spline was read.
+    fn temperature(&self, pt: &Point, z: f64) -> (f64, f64) {
+        let x = pt.zeta(z, self.z1) / self.zgdif;
+        (1.0 / splint(&self.xs, &self.ys, &self.y2, x), x)
+    }
+
+    /// exp(−γ ∫ 1/T): the hydrostatic factor from the profile's top node to `x`, for a
+    /// gas of mass `xm` amu, capped as the model caps it.
+    fn hydrostatic(&self, pt: &Point, x: f64, xm: f64) -> f64 {
+        let glb = pt.gsurf / (1.0 + self.z1 / pt.re).powi(2);
+        let gamm = xm * glb * self.zgdif / RGAS;
+        let expl = (gamm * splini(&self.xs, &self.ys, &self.y2, x)).min(50.0);
+        (-expl).exp()
+    }
+}
+
+/// The thermosphere temperature profile: Bates above `za`, below it 1/T a spline through
+/// nodes whose top node joins the Bates profile (value and gradient) at `za`.
+struct Thermal {
+    tinf: f64,
+    tlb: f64,
+    s: f64,
+    za: f64,
+    /// The spline below `za`, built once per point (every species shares it).
+    below: SplineProfile<5>,
+}
+
+/// Lower boundary of the Bates profile, km (PTM(6)).
+fn zlb() -> f64 {
+    PTM[5]
+}
+
+/// Lowest node of the thermosphere spline, km.
+const ZN1_BOTTOM: f64 = 72.5;
+
+impl Thermal {
+    /// `tn1`: node temperatures at 110, 100, 90 and 72.5 km (K); `tg_bottom`: the
+    /// gradient at 72.5 km (K/km).
+    fn new(pt: &Point, tinf: f64, tlb: f64, s: f64, tn1: [f64; 4], tg_bottom: f64) -> Thermal {
+        let za = PDL[1][15];
+        let ta = tinf - (tinf - tlb) * (-s * pt.zeta(za, zlb())).exp();
+        let dta = (tinf - ta) * s * ((pt.re + zlb()) / (pt.re + za)).powi(2);
+        let zn1 = [za, 110.0, 100.0, 90.0, ZN1_BOTTOM];
+        let nodes = [ta, tn1[0], tn1[1], tn1[2], tn1[3]];
+        Thermal {
+            tinf,
+            tlb,
+            s,
+            za,
+            below: SplineProfile::new(pt, &zn1, &nodes, [dta, tg_bottom]),
+        }
+    }
+
+    /// Density (cm⁻³) at `alt` of a gas of mass `xm` amu with thermal-diffusion
+    /// coefficient `alpha`, from its value `dlb` at the lower boundary; and the
+    /// temperature there (its DENSU). `xm` 0 gives the temperature only.
+    fn density(&self, pt: &Point, alt: f64, dlb: f64, xm: f64, alpha: f64) -> (f64, f64) {
+        let zg2 = pt.zeta(alt.max(self.za), zlb());
+        let tt = self.tinf - (self.tinf - self.tlb) * (-self.s * zg2).exp();
+        let below = (alt < self.za).then(|| self.below.temperature(pt, alt.max(ZN1_BOTTOM)));
+        let tz = below.map_or(tt, |(t, _)| t);
+        if xm == 0.0 {
+            return (tz, tz);
+        }
+        let glb = pt.gsurf / (1.0 + zlb() / pt.re).powi(2);
+        let gamma = xm * glb / (self.s * RGAS * self.tinf);
+        let mut expl = (self.s * gamma * zg2).min(50.0);
+        if tt <= 0.0 {
+            expl = 50.0;
+        }
+        let densa = dlb * (self.tlb / tt).powf(1.0 + alpha + gamma) * (-expl).exp();
+        match below {
+            None => (densa, tz),
+            Some((_, x)) => {
+                let factor = if tz <= 0.0 {
+                    (-50.0f64).exp()
+                } else {
+                    self.below.hydrostatic(pt, x, xm)
+                };
+                (densa * (self.below.t1 / tz).powf(1.0 + alpha) * factor, tz)
+            }
+        }
+    }
+
+    /// Temperature at the bottom node (72.5 km), K.
+    fn bottom_temperature(&self) -> f64 {
+        self.below.tn[4]
+    }
+}
+
+/// Net density of a diffusive `dd` and a mixed `dm` profile (its DNET).
+fn dnet(dd: f64, dm: f64, zhm: f64, xmm: f64, xm: f64) -> f64 {
+    let a = zhm / (xmm - xm);
+    if !(dm > 0.0 && dd > 0.0) {
+        if dm == 0.0 {
+            return if dd == 0.0 { 1.0 } else { dd };
+        }
+        if dd == 0.0 {
+            return dm;
+        }
+    }
+    let ylog = a * (dm / dd).ln();
+    if ylog < -10.0 {
+        return dd;
+    }
+    if ylog > 10.0 {
+        return dm;
+    }
+    dd * (1.0 + ylog.exp()).powf(1.0 / a)
+}
+
+/// Chemistry/dissociation correction (its CCOR).
+fn ccor(alt: f64, r: f64, h1: f64, zh: f64) -> f64 {
+    let e = (alt - zh) / h1;
+    if e > 70.0 {
+        return 1.0;
+    }
+    if e < -70.0 {
+        return r.exp();
+    }
+    (r / (1.0 + e.exp())).exp()
+}
+
+/// Correction with two scale heights (its CCOR2).
+fn ccor2(alt: f64, r: f64, h1: f64, zh: f64, h2: f64) -> f64 {
+    let e1 = (alt - zh) / h1;
+    let e2 = (alt - zh) / h2;
+    if e1 > 70.0 || e2 > 70.0 {
+        return 1.0;
+    }
+    if e1 < -70.0 && e2 < -70.0 {
+        return r.exp();
+    }
+    (r / (1.0 + 0.5 * (e1.exp() + e2.exp()))).exp()
+}
+
+/// The thermosphere's answer at one altitude (its GTS7), cm⁻³.
+struct Upper {
+    /// He, O, N2, O2, Ar, H, N, anomalous O.
+    n: [f64; 8],
+    tinf: f64,
+    tz: f64,
+    /// Mixed N2 density at the altitude (for the lower atmosphere below 72.5 km).
+    dm28: f64,
+    thermal: Thermal,
+    /// Magnetic terms of the last expansion (for the lower atmosphere).
+    magnetic: Magnetic,
+}
+
+/// Which species the thermosphere computes: all, or N2 alone (below `ZMIX`).
+fn thermosphere(pt: &Point, alt: f64) -> Upper {
+    thermosphere_for(pt, alt, true)
+}
+
+fn thermosphere_for(pt: &Point, alt: f64, all: bool) -> Upper {
+    let mut m = Magnetic::default();
+    let za = PDL[1][15];
+    // Exospheric temperature, gradient and lower-boundary temperature.
+    let tinf = if alt > za {
+        PTM[0] * PT[0] * (1.0 + globe7(&PT, pt, &mut m))
+    } else {
+        PTM[0] * PT[0]
+    };
+    let g0 = if alt > ZN1_BOTTOM {
+        PTM[3] * PS[0] * (1.0 + globe7(&PS, pt, &mut m))
+    } else {
+        PTM[3] * PS[0]
+    };
+    let tlb = PTM[1] * (1.0 + globe7(&PD[3], pt, &mut m)) * PD[3][0];
+    let s = g0 / (tinf - tlb);
+    // Lower-thermosphere temperatures vary with the expansions only below 300 km, where
+    // they matter for density.
+    let base = [PTM[6] * PTL[0][0], PTM[2] * PTL[1][0], PTM[7] * PTL[2][0], PTM[4] * PTL[3][0]];
+    let mut tn1 = base;
+    let mut tg = PTM[8] * PMA[8][0];
+    if alt < 300.0 {
+        for (k, t) in tn1.iter_mut().enumerate() {
+            *t = base[k] / (1.0 - glob7s(&PTL[k], pt, &m));
+        }
+        tg *= 1.0 + glob7s(&PMA[8], pt, &m);
+    }
+    let tg_bottom = tg * tn1[3] * tn1[3] / (base[3] * base[3]);
+    let thermal = Thermal::new(pt, tinf, tlb, s, tn1, tg_bottom);
+    let mut species = Species {
+        pt,
+        thermal: &thermal,
+        alt,
+        m,
+        n: [0.0; 8],
+        b28: 0.0,
+        dm28: 0.0,
+        zhm28: 0.0,
+    };
+    species.nitrogen_molecular();
+    if all {
+        species.all_others();
+    }
+    let (tz, _) = thermal.density(pt, alt, 1.0, 0.0, 0.0);
+    Upper {
+        n: species.n,
+        tinf,
+        tz,
+        dm28: species.dm28,
+        magnetic: species.m,
+        thermal,
+    }
+}
+
+/// Mass of the mixed atmosphere, amu (PDM(5,3)).
+fn xmm() -> f64 {
+    PDM[2][4]
+}
+
+/// Species densities of the thermosphere: diffusive profiles from the lower boundary,
+/// blended with mixed profiles below the turbopause and corrected for chemistry.
+struct Species<'a> {
+    pt: &'a Point,
+    thermal: &'a Thermal,
+    alt: f64,
+    m: Magnetic,
+    n: [f64; 8],
+    /// Mixed N2 density at the turbopause, the other species' reference.
+    b28: f64,
+    dm28: f64,
+    zhm28: f64,
+}
+
+/// Thermal-diffusion coefficients, by slot of `Species::n`'s Fortran order
+/// (He, O, N2, O2, Ar, mass, H, N, anomalous O).
+const ALPHA: [f64; 9] = [-0.38, 0.0, 0.0, 0.0, 0.17, 0.0, -0.38, 0.0, 0.0];
+/// Altitudes (km) above which a species is purely diffusive.
+const ALTL: [f64; 8] = [200.0, 300.0, 160.0, 250.0, 240.0, 450.0, 320.0, 450.0];
+
+impl Species<'_> {
+    fn expansion(&mut self, p: &[f64; 150]) -> f64 {
+        globe7(p, self.pt, &mut self.m)
+    }
+
+    fn diffusive(&self, dlb: f64, xm: f64, alpha: f64) -> f64 {
+        self.thermal.density(self.pt, self.alt, dlb, xm, alpha).0
+    }
+
+    /// Diffusive density at the altitude blended with the mixed profile from the
+    /// turbopause height `zh` (km); returns (net density, mixed density at zh).
+    fn mixed(&self, dd: f64, db: f64, zh: f64, xm: f64, alpha: f64) -> (f64, f64) {
+        let (th, pt) = (self.thermal, self.pt);
+        let b = th.density(pt, zh, db, xm - xmm(), alpha - 1.0).0;
+        let dm = th.density(pt, self.alt, b, xmm(), 0.0).0;
+        (dnet(dd, dm, self.zhm28, xmm(), xm), b)
+    }
+
+    fn nitrogen_molecular(&mut self) {
+        let g28 = self.expansion(&PD[2]);
+        let day = self.pt.day;
+        let zhf = PDL[1][24]
+            * (1.0
+                + PDL[0][24] * (DGTR * self.pt.lat).sin() * (DR * (day - PT[13])).cos());
+        let db28 = PDM[2][0] * g28.exp() * PD[2][0];
+        let mut d = self.diffusive(db28, 28.0, ALPHA[2]);
+        let zh28 = PDM[2][2] * zhf;
+        self.zhm28 = PDM[2][3] * PDL[1][5];
+        self.b28 = self
+            .thermal
+            .density(self.pt, zh28, db28, 28.0 - xmm(), ALPHA[2] - 1.0)
+            .0;
+        if self.alt <= ALTL[2] {
+            self.dm28 = self
+                .thermal
+                .density(self.pt, self.alt, self.b28, xmm(), ALPHA[2])
+                .0;
+            d = dnet(d, self.dm28, self.zhm28, xmm(), 28.0);
+        }
+        self.n[2] = d;
+    }
+
+    fn all_others(&mut self) {
+        let alt = self.alt;
+        // He
+        let g4 = self.expansion(&PD[0]);
+        let db04 = PDM[0][0] * g4.exp() * PD[0][0];
+        let mut d = self.diffusive(db04, 4.0, ALPHA[0]);
+        if alt <= ALTL[0] {
+            let (net, b04) = self.mixed(d, db04, PDM[0][2], 4.0, ALPHA[0]);
+            let rl = (self.b28 * PDM[0][1] / b04).ln();
+            d = net * ccor(alt, rl, PDM[0][5] * PDL[1][1], PDM[0][4] * PDL[1][0]);
+        }
+        self.n[0] = d;
+        // O
+        let g16 = self.expansion(&PD[1]);
+        let db16 = PDM[1][0] * g16.exp() * PD[1][0];
+        let mut d = self.diffusive(db16, 16.0, ALPHA[1]);
+        if alt <= ALTL[1] {
+            let (net, _) = self.mixed(d, db16, PDM[1][2], 16.0, ALPHA[1]);
+            // Departure from diffusive equilibrium near 150 km, with F10.7 dependence.
+            let rl = PDM[1][1] * PDL[1][16] * (1.0 + PDL[0][23] * (self.pt.f107a - 150.0));
+            d = net
+                * ccor2(alt, rl, PDM[1][5] * PDL[1][3], PDM[1][4] * PDL[1][2], PDM[1][5] * PDL[1][4]);
+            // Chemistry.
+            d *= ccor(alt, PDM[1][3] * PDL[1][14], PDM[1][7] * PDL[1][13], PDM[1][6] * PDL[1][12]);
+        }
+        self.n[1] = d;
+        // O2
+        let g32 = self.expansion(&PD[4]);
+        let db32 = PDM[3][0] * g32.exp() * PD[4][0];
+        let mut d = self.diffusive(db32, 32.0, ALPHA[3]);
+        if alt <= ALTL[3] {
+            let (net, b32) = self.mixed(d, db32, PDM[3][2], 32.0, ALPHA[3]);
+            let rl = (self.b28 * PDM[3][1] / b32).ln();
+            d = net * ccor(alt, rl, PDM[3][5] * PDL[1][7], PDM[3][4] * PDL[1][6]);
+        }
+        // General departure from diffusive equilibrium above the lower boundary.
+        let rc32 = PDM[3][3] * PDL[1][23] * (1.0 + PDL[0][23] * (self.pt.f107a - 150.0));
+        d *= ccor2(alt, rc32, PDM[3][7] * PDL[1][22], PDM[3][6] * PDL[1][21], PDM[3][7] * PDL[0][22]);
+        self.n[3] = d;
+        // Ar
+        let g40 = self.expansion(&PD[5]);
+        let db40 = PDM[4][0] * g40.exp() * PD[5][0];
+        let mut d = self.diffusive(db40, 40.0, ALPHA[4]);
+        if alt <= ALTL[4] {
+            let (net, b40) = self.mixed(d, db40, PDM[4][2], 40.0, ALPHA[4]);
+            let rl = (self.b28 * PDM[4][1] / b40).ln();
+            d = net * ccor(alt, rl, PDM[4][5] * PDL[1][9], PDM[4][4] * PDL[1][8]);
+        }
+        self.n[4] = d;
+        // H
+        let g1 = self.expansion(&PD[6]);
+        let db01 = PDM[5][0] * g1.exp() * PD[6][0];
+        let mut d = self.diffusive(db01, 1.0, ALPHA[6]);
+        if alt <= ALTL[6] {
+            let (net, b01) = self.mixed(d, db01, PDM[5][2], 1.0, ALPHA[6]);
+            let rl = (self.b28 * PDM[5][1] * PDL[1][17].abs() / b01).ln();
+            d = net * ccor(alt, rl, PDM[5][5] * PDL[1][11], PDM[5][4] * PDL[1][10]);
+            d *= ccor(alt, PDM[5][3] * PDL[1][20], PDM[5][7] * PDL[1][19], PDM[5][6] * PDL[1][18]);
+        }
+        self.n[5] = d;
+        // N
+        let g14 = self.expansion(&PD[7]);
+        let db14 = PDM[6][0] * g14.exp() * PD[7][0];
+        let mut d = self.diffusive(db14, 14.0, ALPHA[7]);
+        if alt <= ALTL[7] {
+            let (net, b14) = self.mixed(d, db14, PDM[6][2], 14.0, ALPHA[7]);
+            let rl = (self.b28 * PDM[6][1] * PDL[0][2].abs() / b14).ln();
+            d = net * ccor(alt, rl, PDM[6][5] * PDL[0][1], PDM[6][4] * PDL[0][0]);
+            d *= ccor(alt, PDM[6][3] * PDL[0][5], PDM[6][7] * PDL[0][4], PDM[6][6] * PDL[0][3]);
+        }
+        self.n[6] = d;
+        // Anomalous O: a hot component, isothermal at `tho`, decaying below `zmho`.
+        let g16h = self.expansion(&PD[8]);
+        let db16h = PDM[7][0] * g16h.exp() * PD[8][0];
+        let tho = PDM[7][9] * PDL[0][6];
+        let below = &self.thermal.below;
+        let tn1 = [below.tn[1], below.tn[2], below.tn[3], below.tn[4]];
+        let hot = Thermal::new(self.pt, tho, tho, self.thermal.s, tn1, below.tg[1]);
+        let dd = hot.density(self.pt, alt, db16h, 16.0, ALPHA[8]).0;
+        let (zsht, zmho) = (PDM[7][5], PDM[7][4]);
+        let zsho = self.pt.scale_height(zmho, 16.0, tho);
+        self.n[7] = dd * (-zsht / zsho * ((-(alt - zmho) / zsht).exp() - 1.0)).exp();
+    }
+}
+
+/// Below 72.5 km (its GTD7 lower branch): temperatures from splines through nodes in the
+/// mesosphere and troposphere, densities hydrostatic from the thermosphere's values at
+/// 72.5 km, fully mixed below 62.5 km. Returns (densities cm⁻³, T∞, T).
+fn lower_atmosphere(pt: &Point, alt: f64) -> ([f64; 8], f64, f64) {
+    let upper = thermosphere_for(pt, ZN2[0], alt >= ZMIX);
+    let m = upper.magnetic;
+    let th = &upper.thermal;
+    let mut tn2 = [0.0; 4];
+    tn2[0] = th.bottom_temperature();
+    tn2[1] = PMA[0][0] * PAVGM[0] / (1.0 - glob7s(&PMA[0], pt, &m));
+    tn2[2] = PMA[1][0] * PAVGM[1] / (1.0 - glob7s(&PMA[1], pt, &m));
+    tn2[3] = PMA[2][0] * PAVGM[2] / (1.0 - glob7s(&PMA[2], pt, &m));
+    let tgn2 = [
+        th.below.tg[1],
+        PAVGM[8] * PMA[9][0] * (1.0 + glob7s(&PMA[9], pt, &m)) * tn2[3] * tn2[3]
+            / (PMA[2][0] * PAVGM[2]).powi(2),
+    ];
+    let mut tn3 = [0.0; 5];
+    tn3[0] = tn2[3];
+    let mut tgn3 = [tgn2[1], 0.0];
+    if alt < ZN3[0] {
+        for k in 1..5 {
+            tn3[k] = PMA[k + 2][0] * PAVGM[k + 2] / (1.0 - glob7s(&PMA[k + 2], pt, &m));
+        }
+        tgn3[1] = PMA[7][0] * PAVGM[7] * (1.0 + glob7s(&PMA[7], pt, &m)) * tn3[4] * tn3[4]
+            / (PMA[6][0] * PAVGM[6]).powi(2);
+    }
+    // Linear transition to full mixing below 72.5 km.
+    let dmc = if alt > ZMIX {
+        1.0 - (ZN2[0] - alt) / (ZN2[0] - ZMIX)
+    } else {
+        0.0
+    };
+    let ds = upper.n;
+    let dz28 = ds[2];
+    let (n2_mixed, tz) = densm(pt, alt, upper.dm28, xmm(), (&tn2, tgn2), (&tn3, tgn3));
+    let dmr = ds[2] / upper.dm28 - 1.0;
+    let mut n = [0.0; 8];
+    n[2] = n2_mixed * (1.0 + dmr * dmc);
+    // He, O2, Ar follow N2 at the model's ground mixing ratios.
+    for (slot, col) in [(0usize, 0usize), (3, 3), (4, 4)] {
+        let dmr = ds[slot] / (dz28 * PDM[col][1]) - 1.0;
+        n[slot] = n[2] * PDM[col][1] * (1.0 + dmr * dmc);
+    }
+    (n, upper.tinf, tz)
+}
+
+/// Density (cm⁻³, from `d0` at 72.5 km) of a gas of mass `xm` and the temperature below
+/// 72.5 km (its DENSM).
+fn densm(
+    pt: &Point,
+    alt: f64,
+    d0: f64,
+    xm: f64,
+    meso: (&[f64; 4], [f64; 2]),
+    tropo: (&[f64; 5], [f64; 2]),
+) -> (f64, f64) {
+    let mut d = d0;
+    // Stratosphere/mesosphere.
+    let z = alt.max(ZN2[3]);
+    let profile = SplineProfile::new(pt, &ZN2, meso.0, meso.1);
+    let (mut tz, x) = profile.temperature(pt, z);
+    d *= (profile.t1 / tz) * profile.hydrostatic(pt, x, xm);
+    if alt > ZN3[0] {
+        return (d, tz);
+    }
+    // Troposphere/stratosphere.
+    let profile = SplineProfile::new(pt, &ZN3, tropo.0, tropo.1);
+    let (t, x) = profile.temperature(pt, alt);
+    tz = t;
+    d *= (profile.t1 / tz) * profile.hydrostatic(pt, x, xm);
+    (d, tz)
+}
