@@ -472,12 +472,17 @@ fn the_terminals_read_the_known_models_atmosphere_and_altitude() {
     ] {
         let text = format!("gravity: {{ zonal_degree: 2 }}\ndrag: {{ atmosphere: {atmosphere}, cd: 2.2, area_m2: 1.0, mass_kg: 100.0, altitude: {altitude} }}\n");
         let spec = ForcesFile::parse(&text, std::path::Path::new("f.yaml")).unwrap();
-        let c = Context::of_model(&spec, &epoch);
+        let c = Context::of_model(&spec, &epoch).unwrap();
         let drag = spec
             .drag
             .as_ref()
             .unwrap()
-            .build(&spec.central_body)
+            .build(
+                &spec.central_body,
+                std::path::Path::new("f.yaml"),
+                &epoch,
+                None,
+            )
             .unwrap();
         for (t, x) in states(60) {
             let r = nalgebra::Vector3::new(x[0], x[1], x[2]);
@@ -516,7 +521,7 @@ fn the_terminals_read_the_known_models_atmosphere_and_altitude() {
     )
     .unwrap();
     assert_eq!(
-        Context::of_model(&spec, &epoch).environment,
+        Context::of_model(&spec, &epoch).unwrap().environment,
         learned_forces::expr::HANDBOOK_ENV
     );
 }

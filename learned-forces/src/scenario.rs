@@ -82,12 +82,44 @@ pub enum TruthTerm {
     },
     /// A maneuver (`impulsive` or `finite`, as in forces.yaml).
     Maneuver(ManeuverSpec),
+    /// The truth's NRLMSISE-00 sees this space weather (constants or a table, as in
+    /// forces.yaml's `nrlmsise00`) instead of the known model's: a storm as an Ap series.
+    Thermosphere(propagator::config::Nrlmsise00Spec),
     /// Any extra force written in the formula text (km/s², ECI; `t` from the scenario
     /// epoch), e.g. `2e-9 * exp(-t / 21600) * T`.
     Formula {
         /// The formula.
         text: String,
     },
+}
+
+/// Makes the file paths a scenario's forces name (Earth orientation, gravity field,
+/// space weather) absolute from the scenario's folder `base`, so the forces.yaml that
+/// `simulate` writes elsewhere still finds them.
+fn anchor_paths(forces: &mut serde_yaml::Value, base: &Path) {
+    let absolute = |v: &mut serde_yaml::Value| {
+        if let Some(text) = v.as_str() {
+            let p = Path::new(text);
+            if p.is_relative() && text != "egm2008" {
+                let joined = base.join(p);
+                let joined = joined.canonicalize().unwrap_or(joined);
+                *v = serde_yaml::Value::String(joined.display().to_string());
+            }
+        }
+    };
+    for keys in [
+        &["earth_orientation", "file"][..],
+        &["gravity", "field"],
+        &["drag", "atmosphere", "nrlmsise00", "space_weather"],
+    ] {
+        let mut node = Some(&mut *forces);
+        for k in keys {
+            node = node.and_then(|n| n.get_mut(*k));
+        }
+        if let Some(v) = node {
+            absolute(v);
+        }
+    }
 }
 
 /// A truth term written as a formula.
@@ -347,7 +379,9 @@ impl ScenarioSpec {
             file: path.display().to_string(),
             message: m,
         };
-        let forces_yaml = serde_yaml::to_string(&self.forces).map_err(|e| err(e.to_string()))?;
+        let mut forces = self.forces.clone();
+        anchor_paths(&mut forces, path.parent().unwrap_or(Path::new(".")));
+        let forces_yaml = serde_yaml::to_string(&forces).map_err(|e| err(e.to_string()))?;
         let known =
             ForcesFile::parse(&forces_yaml, Path::new("forces")).map_err(|e| err(e.to_string()))?;
         let mut state_map = match &self.initial {
@@ -363,12 +397,28 @@ impl ScenarioSpec {
         // The truth: the known forces, their maneuvers plus the truth's, and the extras.
         let mut truth_spec = known.clone();
         for t in &self.truth {
-            if let TruthTerm::Maneuver(m) = t {
-                truth_spec.maneuvers.push(m.clone());
+            match t {
+                TruthTerm::Maneuver(m) => truth_spec.maneuvers.push(m.clone()),
+                TruthTerm::Thermosphere(weather) => {
+                    use propagator::config::AtmosphereSpec;
+                    weather
+                        .validate()
+                        .map_err(|e| err(format!("truth.thermosphere: {e}")))?;
+                    match truth_spec.drag.as_mut() {
+                        Some(d) if matches!(d.atmosphere, AtmosphereSpec::Nrlmsise00(_)) => {
+                            d.atmosphere = AtmosphereSpec::Nrlmsise00(weather.clone())
+                        }
+                        _ => return Err(err(
+                            "truth.thermosphere needs drag with atmosphere nrlmsise00 in forces"
+                                .into(),
+                        )),
+                    }
+                }
+                _ => {}
             }
         }
         let mut truth = truth_spec
-            .build(Path::new("forces"), initial.epoch)
+            .build(path, initial.epoch)
             .map_err(|e| err(e.to_string()))?
             .model;
         let parse_epoch =
@@ -400,7 +450,12 @@ impl ScenarioSpec {
                         .drag
                         .as_ref()
                         .ok_or_else(|| err("truth.density_bump needs drag in forces".into()))?
-                        .build(&known.central_body)
+                        .build(
+                            &known.central_body,
+                            path,
+                            &initial.epoch,
+                            known.earth_orientation.as_ref(),
+                        )
                         .map_err(err)?;
                     truth.push(Box::new(ExtraDrag {
                         drag,
@@ -414,7 +469,12 @@ impl ScenarioSpec {
                         .drag
                         .as_ref()
                         .ok_or_else(|| err("truth.drag_factor needs drag in forces".into()))?
-                        .build(&known.central_body)
+                        .build(
+                            &known.central_body,
+                            path,
+                            &initial.epoch,
+                            known.earth_orientation.as_ref(),
+                        )
                         .map_err(err)?;
                     truth.push(Box::new(ExtraDrag {
                         drag,
@@ -443,10 +503,11 @@ impl ScenarioSpec {
                     truth.push(Box::new(FormulaForce {
                         needs: program.needs(),
                         program,
-                        context: crate::expr::Context::of_model(&known, &initial.epoch),
+                        context: crate::expr::Context::of_model(&known, &initial.epoch)
+                            .map_err(|e| err(format!("truth.formula: {e}")))?,
                     }));
                 }
-                TruthTerm::Maneuver(_) => {}
+                TruthTerm::Maneuver(_) | TruthTerm::Thermosphere(_) => {}
             }
         }
         Ok(ScenarioModels {

@@ -423,9 +423,17 @@ pub struct DragSpec {
 }
 
 impl DragSpec {
-    /// The drag force this block describes, for central body `body`.
-    pub fn build(&self, body: &CentralBody) -> Result<Drag, String> {
-        let altitude = match self.altitude {
+    /// The drag force this block describes, for central body `body`, in the forces file
+    /// `path` (for relative paths), on a time axis starting at `reference`, with the
+    /// Earth orientation `orientation` names (the shipped table if none).
+    pub fn build(
+        &self,
+        body: &CentralBody,
+        path: &Path,
+        reference: &Epoch,
+        orientation: Option<&EarthOrientationSpec>,
+    ) -> Result<Drag, String> {
+        let mut altitude = match self.altitude {
             AltitudeKey::Spherical => AltitudeModel::Spherical,
             AltitudeKey::Geodetic => AltitudeModel::Geodetic,
         };
@@ -437,6 +445,19 @@ impl DragSpec {
             }),
             AtmosphereSpec::Table => Arc::new(PiecewiseExponential::handbook()),
             AtmosphereSpec::Ussa1976 => Arc::new(Ussa1976),
+            AtmosphereSpec::Nrlmsise00(n) => {
+                // The model's altitude is geodetic on WGS-84, whatever `altitude` says.
+                altitude = AltitudeModel::Geodetic;
+                let earth = match orientation {
+                    Some(o) => o.load(path)?,
+                    None => crate::earth::EarthOrientation::shipped()?,
+                };
+                Arc::new(crate::atmosphere::thermosphere::Thermosphere::new(
+                    n.weather(path)?,
+                    earth,
+                    *reference,
+                ))
+            }
         };
         if self.area_m2 / self.mass_kg > 10.0 {
             return Err(format!(
@@ -477,6 +498,69 @@ pub enum AtmosphereSpec {
     Table,
     /// U.S. Standard Atmosphere 1976.
     Ussa1976,
+    /// NRLMSISE-00 driven by space weather.
+    Nrlmsise00(Nrlmsise00Spec),
+}
+
+/// `nrlmsise00:` space weather: constants `{ f107, f107a, ap }` (daily-Ap mode), or
+/// `{ space_weather: PATH }`, a daily table (storm-time mode; the layout is in
+/// [`crate::atmosphere::space_weather`]), relative to this file's folder.
+#[derive(Clone, Debug, Deserialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct Nrlmsise00Spec {
+    /// F10.7 of the previous day, sfu.
+    pub f107: Option<f64>,
+    /// 81-day centred mean F10.7, sfu.
+    pub f107a: Option<f64>,
+    /// Daily Ap.
+    pub ap: Option<f64>,
+    /// A space-weather table.
+    pub space_weather: Option<String>,
+}
+
+impl Nrlmsise00Spec {
+    /// Checks the combination and the ranges of the keys.
+    pub fn validate(&self) -> Result<(), String> {
+        let key = "drag.atmosphere.nrlmsise00";
+        match (self.f107, self.f107a, self.ap, &self.space_weather) {
+            (Some(f), Some(fa), Some(ap), None) => {
+                for (name, v) in [("f107", f), ("f107a", fa)] {
+                    if !(v.is_finite() && v > 0.0 && v < 1000.0) {
+                        return Err(format!("{key}.{name} = {v} sfu: F10.7 is a positive flux of order 70–300"));
+                    }
+                }
+                if !(ap.is_finite() && (0.0..=400.0).contains(&ap)) {
+                    return Err(format!("{key}.ap = {ap} is outside the Ap scale 0–400"));
+                }
+                Ok(())
+            }
+            (None, None, None, Some(_)) => Ok(()),
+            _ => Err(format!(
+                "{key}: give either f107, f107a and ap (constants) or space_weather (a table file), not a mix"
+            )),
+        }
+    }
+
+    /// The space weather this block describes; a table path is relative to `forces_path`'s folder.
+    pub fn weather(
+        &self,
+        forces_path: &Path,
+    ) -> Result<crate::atmosphere::space_weather::SpaceWeather, String> {
+        use crate::atmosphere::space_weather::{Drivers, SpaceWeather, SpaceWeatherTable};
+        self.validate()?;
+        if let Some(file) = &self.space_weather {
+            let base = forces_path.parent().unwrap_or(Path::new("."));
+            let table = crate::input::parsed_once(&base.join(file), SpaceWeatherTable::read)?;
+            return Ok(SpaceWeather::Table(table));
+        }
+        Ok(SpaceWeather::Constant(Drivers {
+            f107: self.f107.unwrap_or_default(),
+            f107a: self.f107a.unwrap_or_default(),
+            geomagnetic: crate::atmosphere::nrlmsise00::Geomagnetic::Daily(
+                self.ap.unwrap_or_default(),
+            ),
+        }))
+    }
 }
 
 /// `exponential:` constants.
@@ -526,6 +610,13 @@ impl ForcesFile {
             .validate()
             .map_err(|m| config_error(path, m))?;
         spec.gravity.validate().map_err(|m| config_error(path, m))?;
+        if let Some(DragSpec {
+            atmosphere: AtmosphereSpec::Nrlmsise00(n),
+            ..
+        }) = &spec.drag
+        {
+            n.validate().map_err(|m| config_error(path, m))?;
+        }
         Ok(spec)
     }
 
@@ -568,7 +659,9 @@ impl ForcesFile {
         }
         let mut altitude = AltitudeModel::Spherical;
         if let Some(d) = &self.drag {
-            let drag = d.build(&body).map_err(|m| config_error(path, m))?;
+            let drag = d
+                .build(&body, path, &reference, self.earth_orientation.as_ref())
+                .map_err(|m| config_error(path, m))?;
             altitude = drag.altitude;
             model = model.with(drag);
         }

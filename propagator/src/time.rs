@@ -232,6 +232,13 @@ impl Epoch {
         }
     }
 
+    /// The UTC day as a modified Julian date and the seconds into it (to the
+    /// nanosecond; up to 86401 s on a day with a leap second).
+    pub fn utc_mjd_and_seconds(&self) -> (i64, f64) {
+        let (day, ns) = self.utc_day_and_ns(1);
+        (day + 15_020, ns as f64 / 1e9)
+    }
+
     /// Formats as ISO 8601 UTC with microseconds and a trailing `Z`,
     /// e.g. `2031-05-04T12:00:00.000000Z`. Round-trips through [`Epoch::parse_utc`]
     /// to the microsecond.

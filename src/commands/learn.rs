@@ -131,7 +131,8 @@ pub fn run(a: Args) -> Result<(), CliError> {
             .map(|l| l.model)
             .map_err(|e| e.to_string())
     };
-    let context = Context::of_model(&spec, &arc.start());
+    let context = Context::of_model(&spec, &arc.start())
+        .map_err(|e| CliError::input(format!("{}: {e}", a.forces.display())))?;
     let options = LearnOptions {
         fit: FitOptions {
             estimate,

@@ -488,8 +488,13 @@ pub use crate::codegen::runtime::{Altitude, Density, Env as Environment, HANDBOO
 impl Context {
     /// The terminals of the known model `forces` on a time axis starting at `epoch`: its
     /// Earth radius and rotation, and the atmosphere and altitude of its drag (the
-    /// handbook table and spherical altitude when it has no drag).
-    pub fn of_model(forces: &propagator::config::ForcesFile, epoch: &propagator::Epoch) -> Self {
+    /// handbook table and spherical altitude when it has no drag). An atmosphere the
+    /// plugin runtime cannot compute is an error: a formula's `rho` would silently
+    /// differ from the host's.
+    pub fn of_model(
+        forces: &propagator::config::ForcesFile,
+        epoch: &propagator::Epoch,
+    ) -> Result<Self, String> {
         use propagator::config::{AltitudeKey, AtmosphereSpec};
         let body = &forces.central_body;
         let environment = match &forces.drag {
@@ -503,6 +508,9 @@ impl Context {
                         h0_km: e.h0_km,
                         scale_height_km: e.scale_height_km,
                     },
+                    AtmosphereSpec::Nrlmsise00(_) => {
+                        return Err("the learned-force terminals rho and h do not follow an nrlmsise00 atmosphere yet: learn with table, ussa1976 or exponential drag in the known forces".into())
+                    }
                 },
                 altitude: match d.altitude {
                     AltitudeKey::Spherical => Altitude::Spherical,
@@ -512,12 +520,12 @@ impl Context {
                 },
             },
         };
-        Self {
+        Ok(Self {
             radius_km: body.radius_km,
             rotation_rad_s: body.rotation_rad_s,
             clock: CenturyClock::new(epoch),
             environment,
-        }
+        })
     }
 
     /// The switching functions of the `lit` terminal (the conical shadow's boundaries,

@@ -1,9 +1,12 @@
 //! Density models for drag, and how altitude is measured.
 //!
-//! Three models: a single exponential with explicit constants, the piecewise
-//! exponential table of a handbook, and the U.S. Standard Atmosphere 1976 as a
-//! log-interpolated table. All take altitude in km and return kg/m³.
+//! Three profiles of altitude alone — a single exponential with explicit constants, the
+//! piecewise exponential table of a handbook, and the U.S. Standard Atmosphere 1976 as a
+//! log-interpolated table — and NRLMSISE-00 ([`thermosphere::Thermosphere`]), which
+//! follows the position, the time and the space weather. All return kg/m³.
 
+pub mod space_weather;
+pub mod thermosphere;
 mod ussa1976_table;
 
 /// NRLMSISE-00 (Picone et al. 2002): density from position, time and space weather.
@@ -27,6 +30,13 @@ pub trait Atmosphere: Send + Sync {
 
     /// A short name for reports.
     fn name(&self) -> &str;
+
+    /// Density in kg/m³ at `t_s` (s on the force model's time axis), ECI position
+    /// `r_km` (km) and altitude `h_km` (km, by the drag's altitude model): what drag
+    /// reads. Profiles of altitude alone keep this default.
+    fn density_at(&self, _t_s: f64, _r_km: &Vector3<f64>, h_km: f64) -> Result<f64, String> {
+        self.density_kg_m3(h_km)
+    }
 }
 
 /// How altitude above the Earth is measured.

@@ -1,0 +1,93 @@
+//! NRLMSISE-00 as drag's atmosphere: the model's inputs from the propagator's state.
+//!
+//! Geodetic latitude, longitude and height on WGS-84 from the ITRF position (the Earth
+//! orientation the force model uses), UTC day of year and time of day, the local
+//! apparent solar time from the Sun's direction in the ITRF (the hour angle of the
+//! Sun from the series in [`crate::solar_system`]), and the space weather at that epoch.
+
+use nalgebra::Vector3;
+
+use super::nrlmsise00::{nrlmsise00, MsisInput};
+use super::space_weather::{day_of_year, SpaceWeather};
+use super::{ellipsoid_height, Atmosphere};
+use crate::earth::EarthOrientation;
+use crate::solar_system::{sun_position_km, CenturyClock};
+use crate::time::{Epoch, TimeAxis};
+
+/// WGS-84 equatorial radius, km, and flattening (NIMA TR8350.2): the model's geodetic
+/// coordinates are on this ellipsoid whatever the central body's constants.
+pub const WGS84_A_KM: f64 = 6378.137;
+/// WGS-84 flattening.
+pub const WGS84_F: f64 = 1.0 / 298.257_223_563;
+
+/// NRLMSISE-00 density along an orbit.
+#[derive(Clone)]
+pub struct Thermosphere {
+    /// F10.7 and Ap.
+    pub weather: SpaceWeather,
+    earth: EarthOrientation,
+    axis: TimeAxis,
+    tt0_s: f64,
+    clock: CenturyClock,
+}
+
+impl Thermosphere {
+    /// The model on a time axis starting at `reference`, oriented by `earth`.
+    pub fn new(weather: SpaceWeather, earth: EarthOrientation, reference: Epoch) -> Self {
+        Thermosphere {
+            weather,
+            earth,
+            axis: TimeAxis::new(reference),
+            tt0_s: reference.tt_seconds_since_j2000(),
+            clock: CenturyClock::new(&reference),
+        }
+    }
+
+    /// The model's input at `t_s` (s on the axis) and GCRF position `r_km`.
+    pub fn input(&self, t_s: f64, r_km: &Vector3<f64>) -> Result<MsisInput, String> {
+        let to_itrf = self.earth.at(self.tt0_s + t_s).gcrf_to_itrf();
+        let r = to_itrf * r_km;
+        let (h, normal) = ellipsoid_height([r[0], r[1], r[2]], WGS84_A_KM, WGS84_F);
+        let latitude_deg = normal[2].clamp(-1.0, 1.0).asin().to_degrees();
+        let longitude_deg = r[1].atan2(r[0]).to_degrees().rem_euclid(360.0);
+        let sun = to_itrf * sun_position_km(self.clock.centuries(t_s));
+        let sun_longitude_deg = sun[1].atan2(sun[0]).to_degrees();
+        // Apparent solar time: 12 h when the Sun is on the local meridian.
+        let local_solar_time_h =
+            (12.0 + (longitude_deg - sun_longitude_deg) / 15.0).rem_euclid(24.0);
+        let (mjd, ut_s) = self.axis.epoch(t_s).utc_mjd_and_seconds();
+        let drivers = self.weather.drivers(mjd, ut_s)?;
+        Ok(MsisInput {
+            day_of_year: day_of_year(mjd) as f64,
+            ut_s,
+            altitude_km: h,
+            latitude_deg,
+            longitude_deg,
+            local_solar_time_h,
+            f107: drivers.f107,
+            f107a: drivers.f107a,
+            geomagnetic: drivers.geomagnetic,
+        })
+    }
+}
+
+impl Atmosphere for Thermosphere {
+    fn density_kg_m3(&self, _h_km: f64) -> Result<f64, String> {
+        Err("NRLMSISE-00 needs the position and the time, not only an altitude".into())
+    }
+
+    fn density_at(&self, t_s: f64, r_km: &Vector3<f64>, _h_km: f64) -> Result<f64, String> {
+        let input = self.input(t_s, r_km)?;
+        if input.altitude_km.is_nan() || input.altitude_km <= -5.0 {
+            return Err(format!(
+                "NRLMSISE-00: geodetic altitude {:.3} km is below the ground",
+                input.altitude_km
+            ));
+        }
+        Ok(nrlmsise00(&input).mass_density_kg_m3)
+    }
+
+    fn name(&self) -> &str {
+        "nrlmsise00"
+    }
+}
