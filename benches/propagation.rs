@@ -171,6 +171,7 @@ fn thermosphere(c: &mut Criterion) {
     let storm = Geomagnetic::History([40.0, 80.0, 60.0, 30.0, 20.0, 15.0, 10.0]);
     // 400 km: above the 300 km where the lower-thermosphere terms drop out;
     // 200 km: with them; 400 km storm-time: the 3-hourly history's sums.
+    thermosphere_day(c);
     for (label, input) in [
         (
             "NRLMSISE-00 density, one evaluation, 400 km daily Ap",
@@ -189,6 +190,58 @@ fn thermosphere(c: &mut Criterion) {
             b.iter(|| nrlmsise00(black_box(&input)).mass_density_kg_m3)
         });
     }
+}
+
+/// A 1-day 400 km propagation with NRLMSISE-00 drag (constant space weather) and a
+/// 20×20 field.
+fn thermosphere_day(c: &mut Criterion) {
+    use propagator::atmosphere::nrlmsise00::Geomagnetic;
+    use propagator::atmosphere::space_weather::{Drivers, SpaceWeather};
+    use propagator::atmosphere::thermosphere::Thermosphere;
+    use propagator::earth::{EarthOrientation, GravityField, Harmonics};
+    use propagator::force::field::FieldGravity;
+    let epoch = propagator::Epoch::parse_utc("2026-03-11T00:00:00Z").unwrap();
+    let earth = EarthOrientation::shipped().unwrap();
+    let field = GravityField::egm2008().unwrap();
+    let weather = SpaceWeather::Constant(Drivers {
+        f107: 150.0,
+        f107a: 150.0,
+        geomagnetic: Geomagnetic::Daily(12.0),
+    });
+    let body = CentralBody::EARTH_EGM96;
+    let model = ForceModel::new()
+        .with(TwoBody {
+            mu_km3_s2: field.gm_km3_s2,
+        })
+        .with(FieldGravity::new(
+            Harmonics::new(field.clone(), 20, 20).unwrap(),
+            earth.clone(),
+            epoch.tt_seconds_since_j2000(),
+        ))
+        .with(Drag {
+            cd: 2.2,
+            area_m2: 0.1,
+            mass_kg: 4.0,
+            scale: 1.0,
+            atmosphere: Arc::new(Thermosphere::new(weather, earth, epoch)),
+            body,
+            altitude: propagator::atmosphere::AltitudeModel::Geodetic,
+        });
+    let mut g = c.benchmark_group("1-day 400 km propagation, 20x20 + NRLMSISE-00 drag");
+    g.sample_size(10);
+    g.bench_function("dp853 default tolerance", |b| {
+        b.iter(|| {
+            let req = Request {
+                x0: leo_state(),
+                t0_s: 0.0,
+                t_end_s: 86400.0,
+                output_times_s: &[86400.0],
+                stop_times_s: &[],
+            };
+            propagate(&model, &req, &Options::default(), &mut Silent).unwrap()
+        })
+    });
+    g.finish();
 }
 
 criterion_group!(benches, force_evaluation, one_day, real_earth, thermosphere);

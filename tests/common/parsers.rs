@@ -43,6 +43,8 @@ pub enum Input {
     Eop,
     /// An SP3 precise-orbit file, one satellite taken as an arc (`--object G05`).
     Sp3,
+    /// A space-weather table (`nrlmsise00: { space_weather: … }`).
+    SpaceWeather,
 }
 
 /// The epoch of the examples.
@@ -50,7 +52,7 @@ pub const EPOCH: &str = "2031-05-04T00:00:00Z";
 
 impl Input {
     /// Every kind.
-    pub const ALL: [Input; 12] = [
+    pub const ALL: [Input; 13] = [
         Input::ArcCsv,
         Input::ArcOem,
         Input::EphemerisCsv,
@@ -63,6 +65,7 @@ impl Input {
         Input::Hypotheses,
         Input::Eop,
         Input::Sp3,
+        Input::SpaceWeather,
     ];
 
     /// The file name errors must carry.
@@ -79,6 +82,7 @@ impl Input {
             Input::Hypotheses => "hyp.yaml",
             Input::Eop => "eop.txt",
             Input::Sp3 => "orbit.sp3",
+            Input::SpaceWeather => "space_weather.csv",
         }
     }
 
@@ -111,6 +115,9 @@ impl Input {
             }
             Input::Hypotheses => include_str!("../../examples/hypotheses/maneuver_day.yaml").into(),
             Input::Eop => include_str!("../data/eop/finals2000A_2021-04.txt").into(),
+            Input::SpaceWeather => {
+                include_str!("../../examples/space_weather/storm_ap200.csv").into()
+            }
             Input::Sp3 => include_str!("../data/real/grg21553_18h-22h30.sp3")
                 .lines()
                 .take(200)
@@ -158,6 +165,11 @@ impl Input {
                     .map(|_| ())
             }
             Input::Eop => propagator::earth::EopTable::parse(text, self.file_name()).map(|_| ()),
+            Input::SpaceWeather => propagator::atmosphere::space_weather::SpaceWeatherTable::parse(
+                text,
+                self.file_name(),
+            )
+            .map(|_| ()),
             Input::Sp3 => {
                 let defaults = ArcDefaults {
                     object: Some("G05".into()),
