@@ -519,6 +519,49 @@ fn bad_inputs(d: &Path, good: &Inputs) -> Vec<Bad> {
             "degree: 3".into(),
         ),
     ];
+    // Space-weather tables (NRLMSISE-00 drag): bad rows, and a good table that does not
+    // cover the arcs (2031): the message must name the table.
+    let sw_head = "date,f107,f107a,ap_00,ap_03,ap_06,ap_09,ap_12,ap_15,ap_18,ap_21\n";
+    let sw_rows = |days: std::ops::Range<u32>| -> Vec<String> {
+        days.map(|d| format!("2031-05-{d:02},150,150,12,12,12,12,12,12,12,12"))
+            .collect()
+    };
+    let rows = sw_rows(1..10);
+    let mut gap = rows.clone();
+    gap.remove(4);
+    let mut unsorted = rows.clone();
+    unsorted.swap(2, 3);
+    let mut nan = rows.clone();
+    nan[3] = nan[3].replacen(",150,", ",NaN,", 1);
+    let mut negative = rows.clone();
+    negative[3] = negative[3].replacen(",150,", ",-150,", 1);
+    let early: Vec<String> = (1..10)
+        .map(|d| format!("2026-03-{d:02},150,150,12,12,12,12,12,12,12,12"))
+        .collect();
+    for (what, name, table) in [
+        ("space-weather table with a gap", "sw-gap.csv", gap),
+        ("space-weather table unsorted", "sw-unsorted.csv", unsorted),
+        ("space-weather table with NaN", "sw-nan.csv", nan),
+        (
+            "space-weather table with a negative flux",
+            "sw-negative.csv",
+            negative,
+        ),
+        (
+            "space-weather table not covering the arc",
+            "sw-early.csv",
+            early,
+        ),
+    ] {
+        write(d, name, &format!("{sw_head}{}\n", table.join("\n")));
+        let forces = format!("gravity: {{ zonal_degree: 2 }}\ndrag:\n  atmosphere: {{ nrlmsise00: {{ space_weather: {name} }} }}\n  cd: 2.2\n  area_m2: 1.0\n  mass_kg: 100.0\n");
+        bad.push(Bad {
+            role: Forces,
+            what,
+            needle: name.to_string(),
+            path: write(d, &format!("forces-{name}.yaml"), &forces),
+        });
+    }
     for (what, name, content, degree) in field_cases {
         write(d, name, &content);
         let forces = if name.ends_with(".gfc") {

@@ -452,10 +452,12 @@ impl DragSpec {
                     Some(o) => o.load(path)?,
                     None => crate::earth::EarthOrientation::shipped()?,
                 };
+                let weather = n.weather(path)?;
+                // A table for another period fails here, before any propagation.
+                let (mjd, seconds) = reference.utc_mjd_and_seconds();
+                weather.drivers(mjd, seconds)?;
                 Arc::new(crate::atmosphere::thermosphere::Thermosphere::new(
-                    n.weather(path)?,
-                    earth,
-                    *reference,
+                    weather, earth, *reference,
                 ))
             }
         };

@@ -91,3 +91,95 @@ impl Atmosphere for Thermosphere {
         "nrlmsise00"
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::atmosphere::nrlmsise00::Geomagnetic;
+    use crate::atmosphere::space_weather::Drivers;
+
+    fn model(epoch: &str) -> (Thermosphere, Epoch) {
+        let epoch = Epoch::parse_utc(epoch).unwrap();
+        let weather = SpaceWeather::Constant(Drivers {
+            f107: 150.0,
+            f107a: 150.0,
+            geomagnetic: Geomagnetic::Daily(12.0),
+        });
+        let earth = EarthOrientation::shipped().unwrap();
+        (Thermosphere::new(weather, earth, epoch), epoch)
+    }
+
+    /// GCRF position (km) of geodetic (lat, lon, h) at `t_s`, by the closed-form
+    /// geodetic → Cartesian formula (independent of Bowring's inverse iteration).
+    fn gcrf_of(m: &Thermosphere, t_s: f64, lat: f64, lon: f64, h: f64) -> Vector3<f64> {
+        let (sl, cl) = lat.to_radians().sin_cos();
+        let (so, co) = lon.to_radians().sin_cos();
+        let e2 = WGS84_F * (2.0 - WGS84_F);
+        let n = WGS84_A_KM / (1.0 - e2 * sl * sl).sqrt();
+        let itrf = Vector3::new(
+            (n + h) * cl * co,
+            (n + h) * cl * so,
+            (n * (1.0 - e2) + h) * sl,
+        );
+        m.earth.at(m.tt0_s + t_s).gcrf_to_itrf().transpose() * itrf
+    }
+
+    #[test]
+    fn geodetic_inputs_come_back() {
+        let (m, _) = model("2026-03-11T06:30:00Z");
+        for (lat, lon, h) in [
+            (51.5, 359.9, 400.0),
+            (-33.9, 151.2, 250.0),
+            (89.0, 10.0, 800.0),
+            (0.0, 200.0, 120.0),
+        ] {
+            let input = m.input(1800.0, &gcrf_of(&m, 1800.0, lat, lon, h)).unwrap();
+            assert!((input.latitude_deg - lat).abs() < 1e-9, "{input:?}");
+            assert!((input.longitude_deg - lon).abs() < 1e-9, "{input:?}");
+            assert!((input.altitude_km - h).abs() < 1e-6, "{input:?}");
+            // 06:30 + 1800 s = 07:00 UTC on 11 March, day 70.
+            assert_eq!(input.day_of_year, 70.0);
+            assert!((input.ut_s - 25_200.0).abs() < 1e-6);
+        }
+    }
+
+    #[test]
+    fn local_solar_time_is_apparent_and_runs_east() {
+        // Apparent minus mean solar time is the equation of time: about −10 min on
+        // 11 March and +16 min on 3 November (almanac values, from memory).
+        for (epoch, eot_min) in [
+            ("2026-03-11T12:00:00Z", -10.1),
+            ("2026-11-03T12:00:00Z", 16.4),
+        ] {
+            let (m, _) = model(epoch);
+            for lon in [0.0, 90.0, 200.0] {
+                let input = m.input(0.0, &gcrf_of(&m, 0.0, 10.0, lon, 400.0)).unwrap();
+                let mean = (input.ut_s / 3600.0 + lon / 15.0).rem_euclid(24.0);
+                let mut diff_min = (input.local_solar_time_h - mean) * 60.0;
+                if diff_min > 720.0 {
+                    diff_min -= 1440.0;
+                }
+                if diff_min < -720.0 {
+                    diff_min += 1440.0;
+                }
+                assert!(
+                    (diff_min - eot_min).abs() < 0.5,
+                    "{epoch} lon {lon}: {diff_min} min"
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn density_needs_position_and_time() {
+        let (m, _) = model("2026-03-11T00:00:00Z");
+        assert!(m.density_kg_m3(400.0).is_err());
+        let rho = m
+            .density_at(0.0, &gcrf_of(&m, 0.0, 20.0, 30.0, 400.0), 400.0)
+            .unwrap();
+        // NRLMSISE-00 at 400 km, moderate activity: of order 1e-12 kg/m³ (common practice).
+        assert!(rho > 5e-13 && rho < 1e-11, "{rho}");
+        let inside = m.density_at(0.0, &Vector3::new(100.0, 0.0, 0.0), 0.0);
+        assert!(inside.is_err());
+    }
+}
