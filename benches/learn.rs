@@ -67,6 +67,7 @@ fn problem() -> Problem {
         rotation_rad_s: 7.292115e-5,
         clock: CenturyClock::new(&sim.train.start()),
         environment: learned_forces::expr::HANDBOOK_ENV,
+        host: None,
     };
     Problem::new(
         grid,

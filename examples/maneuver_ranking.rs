@@ -37,6 +37,7 @@ fn main() {
         rotation_rad_s: known.central_body.rotation_rad_s,
         clock: CenturyClock::new(&sim.train.start()),
         environment: learned_forces::expr::HANDBOOK_ENV,
+        host: None,
     };
     let (_, problem) = linearize(
         &sim.train,

@@ -31,7 +31,8 @@ fn run(args: &[String]) -> Result<bool, String> {
         max_rms_km: Some(max),
         ..GateRule::default()
     };
-    let checked = check(&file, &known_forces, &arc, &rule).map_err(|e| e.to_string())?;
+    let host = Some((&spec, Path::new(forces)));
+    let checked = check(&file, &known_forces, host, &arc, &rule).map_err(|e| e.to_string())?;
     let (rl, rb, gate) = (
         checked.learned.rms_km,
         checked.known.rms_km,

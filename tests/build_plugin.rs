@@ -23,6 +23,7 @@ fn ctx() -> Context {
         rotation_rad_s: 7.292115e-5,
         clock: CenturyClock::new(&Epoch::parse_utc(EPOCH).unwrap()),
         environment: learned_forces::expr::HANDBOOK_ENV,
+        host: None,
     }
 }
 
@@ -472,7 +473,7 @@ fn the_terminals_read_the_known_models_atmosphere_and_altitude() {
     ] {
         let text = format!("gravity: {{ zonal_degree: 2 }}\ndrag: {{ atmosphere: {atmosphere}, cd: 2.2, area_m2: 1.0, mass_kg: 100.0, altitude: {altitude} }}\n");
         let spec = ForcesFile::parse(&text, std::path::Path::new("f.yaml")).unwrap();
-        let c = Context::of_model(&spec, &epoch).unwrap();
+        let c = Context::of_model(&spec, std::path::Path::new("f.yaml"), &epoch).unwrap();
         let drag = spec
             .drag
             .as_ref()
@@ -521,7 +522,9 @@ fn the_terminals_read_the_known_models_atmosphere_and_altitude() {
     )
     .unwrap();
     assert_eq!(
-        Context::of_model(&spec, &epoch).unwrap().environment,
+        Context::of_model(&spec, std::path::Path::new("f.yaml"), &epoch)
+            .unwrap()
+            .environment,
         learned_forces::expr::HANDBOOK_ENV
     );
 }

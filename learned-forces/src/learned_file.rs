@@ -187,6 +187,9 @@ pub enum DensityEntry {
         /// km.
         scale_height_km: f64,
     },
+    /// The host's NRLMSISE-00 drag density: the forces file the learned force is used
+    /// with supplies it (its `drag` must be `nrlmsise00`).
+    Nrlmsise00,
 }
 
 /// `environment.altitude` values.
@@ -218,6 +221,7 @@ impl EnvironmentEntry {
                 h0_km,
                 scale_height_km,
             },
+            Density::Host => DensityEntry::Nrlmsise00,
         };
         let (altitude, flattening) = match env.altitude {
             Altitude::Spherical => (AltitudeEntry::Spherical, 0.0),
@@ -257,6 +261,7 @@ impl EnvironmentEntry {
                 },
                 scale_height_km: positive(scale_height_km, "scale_height_km")?,
             },
+            DensityEntry::Nrlmsise00 => Density::Host,
         };
         let altitude = match self.altitude {
             AltitudeEntry::Spherical => Altitude::Spherical,
@@ -632,8 +637,20 @@ impl LearnedFile {
             .map_or(Ok(HANDBOOK_ENV), EnvironmentEntry::environment)
     }
 
-    /// The force, on a time axis whose `t_s = 0` is `reference`.
+    /// The force, on a time axis whose `t_s = 0` is `reference`, for a file whose
+    /// terminals need no host model ([`Self::force_in`] otherwise).
     pub fn force(&self, reference: &Epoch) -> Result<LearnedForce, String> {
+        self.force_in(reference, None)
+    }
+
+    /// The force in the model of the forces file `host` (and its path): a file whose `rho`
+    /// is the host's NRLMSISE-00 density takes it from there, and refuses a host whose
+    /// drag is another atmosphere (its `rho` would silently mean something else).
+    pub fn force_in(
+        &self,
+        reference: &Epoch,
+        host: Option<(&propagator::config::ForcesFile, &Path)>,
+    ) -> Result<LearnedForce, String> {
         let (nodes, coefs, params) = self.compile()?;
         let epoch = Epoch::parse_utc(&self.epoch_utc).map_err(|e| e.to_string())?;
         let start = Epoch::parse_utc(&self.validity.start_utc)
@@ -642,6 +659,29 @@ impl LearnedFile {
             .map_err(|e| format!("validity.end_utc: {e}"))?;
         let program = Program::compile(&nodes, &coefs, &params);
         let needs = program.needs();
+        let environment = self.environment()?;
+        let host_density = if environment.density == Density::Host && needs.density {
+            let (forces, forces_path) = host.ok_or(
+                "this learned force reads rho, the NRLMSISE-00 density of the forces it is used with: give it a forces file (list it in that file's plugins:)",
+            )?;
+            let nrlmsise = matches!(
+                forces.drag.as_ref().map(|d| &d.atmosphere),
+                Some(propagator::config::AtmosphereSpec::Nrlmsise00(_))
+            );
+            if !nrlmsise {
+                return Err(format!(
+                    "this learned force reads rho of an nrlmsise00 atmosphere, but the drag of {} is not nrlmsise00: its rho would mean another density",
+                    forces_path.display()
+                ));
+            }
+            Some(crate::expr::HostDensity::of_model(
+                forces,
+                forces_path,
+                &epoch,
+            )?)
+        } else {
+            None
+        };
         Ok(LearnedForce {
             name: format!("learned:{}", self.name),
             program,
@@ -650,7 +690,8 @@ impl LearnedFile {
                 radius_km: self.earth.radius_km,
                 rotation_rad_s: self.earth.rotation_rad_s,
                 clock: CenturyClock::new(&epoch),
-                environment: self.environment()?,
+                environment,
+                host: host_density,
             },
             offset_s: reference.seconds_since(&epoch),
             window_s: (
@@ -809,6 +850,7 @@ impl propagator::config::PluginResolver for LearnedResolver {
         path: &Path,
         checksum: Option<&str>,
         reference: &Epoch,
+        host: (&propagator::config::ForcesFile, &Path),
     ) -> Option<Result<Box<dyn Force>, String>> {
         let ext = path
             .extension()
@@ -829,7 +871,7 @@ impl propagator::config::PluginResolver for LearnedResolver {
                 }
             }
             let force = f
-                .force(reference)
+                .force_in(reference, Some(host))
                 .map_err(|e| format!("{}: {e}", path.display()))?;
             Ok(Box::new(force) as Box<dyn Force>)
         })())

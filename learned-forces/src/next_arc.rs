@@ -245,6 +245,7 @@ pub struct NextArcCheck {
 pub fn check(
     file: &crate::learned_file::LearnedFile,
     known_forces: &dyn Fn(Epoch) -> Result<ForceModel, String>,
+    host: Option<(&propagator::config::ForcesFile, &std::path::Path)>,
     arc: &Arc,
     rule: &GateRule,
 ) -> Result<NextArcCheck, CheckError> {
@@ -275,7 +276,9 @@ pub fn check(
     }
     let known_model = known_forces(known_epoch).map_err(CheckError::Model)?;
     let mut learned_model = known_forces(epoch).map_err(CheckError::Model)?;
-    learned_model.push(Box::new(file.force(&epoch).map_err(CheckError::Learned)?));
+    learned_model.push(Box::new(
+        file.force_in(&epoch, host).map_err(CheckError::Learned)?,
+    ));
     let known = predict(&known_model, &known_epoch, known_x0, arc).map_err(CheckError::Arc)?;
     let learned = predict(&learned_model, &epoch, x0, arc).map_err(CheckError::Arc)?;
     let noise_km = noise_rms_km(arc);

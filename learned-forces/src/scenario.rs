@@ -503,7 +503,7 @@ impl ScenarioSpec {
                     truth.push(Box::new(FormulaForce {
                         needs: program.needs(),
                         program,
-                        context: crate::expr::Context::of_model(&known, &initial.epoch)
+                        context: crate::expr::Context::of_model(&known, path, &initial.epoch)
                             .map_err(|e| err(format!("truth.formula: {e}")))?,
                     }));
                 }

@@ -48,6 +48,7 @@ fn known_forces(
         rotation_rad_s: models.known.central_body.rotation_rad_s,
         clock: CenturyClock::new(start),
         environment: learned_forces::expr::HANDBOOK_ENV,
+        host: None,
     };
     (Box::new(make), context)
 }
@@ -58,7 +59,7 @@ fn run(spec: ScenarioSpec, path: PathBuf, options: &LearnOptions) -> Run {
     let learned = learn(
         &sim.train,
         &*make,
-        context,
+        context.clone(),
         options,
         &mut QuietFit,
         &QuietSearch,
@@ -84,9 +85,18 @@ fn next_arc(r: &Run) -> (f64, f64) {
             .model
     };
     let opts = FitOptions::default();
-    let base = prediction_rms(model(), &r.learned.base, &[], r.context, &r.next, &opts).unwrap();
+    let base = prediction_rms(
+        model(),
+        &r.learned.base,
+        &[],
+        r.context.clone(),
+        &r.next,
+        &opts,
+    )
+    .unwrap();
     let c = r.learned.chosen.as_ref().expect("a learned model");
-    let learned = prediction_rms(model(), &c.fit, &c.nodes, r.context, &r.next, &opts).unwrap();
+    let learned =
+        prediction_rms(model(), &c.fit, &c.nodes, r.context.clone(), &r.next, &opts).unwrap();
     (base, learned)
 }
 

@@ -64,6 +64,7 @@ fn ranked(spec: &ScenarioSpec, path: &Path) -> Vec<learned_forces::learn::rank::
         rotation_rad_s: 7.292115e-5,
         clock: CenturyClock::new(&sim.train.start()),
         environment: learned_forces::expr::HANDBOOK_ENV,
+        host: None,
     };
     let (_, problem) = linearize(
         &sim.train,

@@ -141,12 +141,14 @@ pub struct ForcesFile {
 /// Turns a `plugins:` entry into a force, for kinds other than native libraries.
 pub trait PluginResolver {
     /// `None` when the entry is not of this resolver's kind (it is then loaded as a
-    /// native plugin); otherwise the force or a sentence saying why not.
+    /// native plugin); otherwise the force or a sentence saying why not. `host` is the
+    /// forces file the entry is listed in, and its path, for forces that use its models.
     fn resolve(
         &self,
         path: &Path,
         checksum: Option<&str>,
         reference: &Epoch,
+        host: (&ForcesFile, &Path),
     ) -> Option<Result<Box<dyn crate::force::Force>, String>>;
 }
 
@@ -159,6 +161,7 @@ impl PluginResolver for NativeOnly {
         _p: &Path,
         _c: Option<&str>,
         _r: &Epoch,
+        _h: (&ForcesFile, &Path),
     ) -> Option<Result<Box<dyn crate::force::Force>, String>> {
         None
     }
@@ -771,7 +774,7 @@ impl ForcesFile {
             } else {
                 base.join(p)
             };
-            match resolver.resolve(&resolved, spec.checksum(), &reference) {
+            match resolver.resolve(&resolved, spec.checksum(), &reference, (self, path)) {
                 Some(Ok(force)) => model.push(force),
                 Some(Err(e)) => return Err(config_error(path, format!("plugins: {e}"))),
                 None => {

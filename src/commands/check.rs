@@ -83,7 +83,8 @@ pub fn run(a: Args) -> Result<(), CliError> {
             .map(|b| b.model)
             .map_err(|e| e.to_string())
     };
-    let checked = check(&file, &known_forces, &arc, &rule).map_err(|e| match e {
+    let host = Some((&spec, a.forces.as_path()));
+    let checked = check(&file, &known_forces, host, &arc, &rule).map_err(|e| match e {
         CheckError::Learned(m) => CliError::input(format!("{}: {m}", a.learned.display())),
         CheckError::Model(m) => CliError::input(m),
         CheckError::Arc(m) => CliError::input(format!("{}: {m}", a.arc.display())),

@@ -131,7 +131,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
             .map(|l| l.model)
             .map_err(|e| e.to_string())
     };
-    let context = Context::of_model(&spec, &arc.start())
+    let context = Context::of_model(&spec, &a.forces, &arc.start())
         .map_err(|e| CliError::input(format!("{}: {e}", a.forces.display())))?;
     let options = LearnOptions {
         fit: FitOptions {
@@ -163,7 +163,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
         learn(
             &arc,
             &make,
-            context,
+            context.clone(),
             &options,
             &mut fit_progress,
             &search_progress,
@@ -375,7 +375,7 @@ fn plots(
     )?;
     let times: Vec<f64> = c.fit.residuals.iter().map(|r| r.t_s).collect();
     let model = make(c.fit.epoch0).map_err(CliError::input)?;
-    let states = trajectory(model, &c.fit, &c.nodes, context, &times, fit)
+    let states = trajectory(model, &c.fit, &c.nodes, context.clone(), &times, fit)
         .map_err(|e| CliError::input(e.to_string()))?;
     let mut rtn: Vec<[f64; 3]> = Vec::new();
     for (t, x) in times.iter().zip(&states) {

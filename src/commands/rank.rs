@@ -73,7 +73,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
             .map(|l| l.model)
             .map_err(|e| e.to_string())
     };
-    let ctx = Context::of_model(&spec, &t0)
+    let ctx = Context::of_model(&spec, &a.forces, &t0)
         .map_err(|e| CliError::input(format!("{}: {e}", a.forces.display())))?;
     let options = LearnOptions {
         fit: FitOptions {

@@ -267,7 +267,7 @@ fn load_track(path: &Path, ctx: &Ctx) -> Result<(Track, String, Option<String>),
             .map_err(|e| format!("{}: {e}", path.display()))?;
         let mut model = model_for(ctx, epoch, path)?;
         model.push(Box::new(
-            f.force(&epoch)
+            f.force_in(&epoch, ctx.forces)
                 .map_err(|e| format!("{}: {e}", path.display()))?,
         ));
         return Ok((sampled(&model, epoch, x, ctx, path)?, f.name.clone(), None));

@@ -59,6 +59,7 @@ fn env_literal(env: &crate::expr::Environment) -> String {
             lit(h0_km),
             lit(scale_height_km)
         ),
+        Density::Host => "Density::Host".to_string(),
     };
     let altitude = match env.altitude {
         Altitude::Spherical => "Altitude::Spherical".to_string(),
@@ -160,6 +161,12 @@ pub fn generate(file: &LearnedFile, name: &str) -> Result<String, BuildError> {
     let (nodes, coefs, params) = file.compile().map_err(BuildError)?;
     let program = Program::compile(&nodes, &coefs, &params);
     let needs = program.needs();
+    let env = file.environment().map_err(BuildError)?;
+    if needs.density && env.density == crate::expr::Density::Host {
+        return Err(BuildError(
+            "this learned force reads rho, the host's NRLMSISE-00 density, which a native plugin cannot compute yet: use the learned file itself in `plugins:` (evaluated in process with the forces file's drag)".into(),
+        ));
+    }
     let epoch = Epoch::parse_utc(&file.epoch_utc).map_err(|e| BuildError(e.to_string()))?;
     let start =
         Epoch::parse_utc(&file.validity.start_utc).map_err(|e| BuildError(e.to_string()))?;
@@ -375,7 +382,7 @@ pub unsafe extern "C" fn arcwise_plugin_partials(t: f64, state: *const f64, out:
         need_rtn = needs.rtn,
         need_u = needs.arglat,
         need_rho = needs.density,
-        env = env_literal(&file.environment().map_err(BuildError)?),
+        env = env_literal(&env),
     );
     Ok(src)
 }

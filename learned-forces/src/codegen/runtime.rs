@@ -270,6 +270,9 @@ pub enum Density {
         h0_km: f64,
         scale_height_km: f64,
     },
+    /// The host's drag density (NRLMSISE-00: position, time and space weather), which
+    /// the host supplies at each evaluation; a plugin cannot compute it (NaN here).
+    Host,
 }
 
 /// What the `h` terminal means: the known model's altitude.
@@ -319,6 +322,7 @@ impl Env {
                 h0_km,
                 scale_height_km,
             } => N::cst(rho0_kg_m3) * (-(h - N::cst(h0_km)) / N::cst(scale_height_km)).exp(),
+            Density::Host => N::cst(f64::NAN),
         }
     }
 }

@@ -468,8 +468,68 @@ impl<N: Num> Value<N> {
     }
 }
 
+/// The host model's drag density, for a `Density::Host` environment: the learned
+/// formula's `rho` is then the very density the host's drag uses (NRLMSISE-00), on the
+/// formula's time axis.
+#[derive(Clone)]
+pub struct HostDensity(pub std::sync::Arc<propagator::force::drag::Drag>);
+
+impl HostDensity {
+    /// `rho` at formula time `t` and ECI position `r`, with exact first derivatives in
+    /// `r` as far as the host's gradient goes; NaN where the host has no density (the
+    /// host's own drag then fails with the reason).
+    fn rho<N: Num>(&self, t: f64, r: [N; 3]) -> N {
+        let rv = nalgebra::Vector3::new(r[0].val(), r[1].val(), r[2].val());
+        match self.0.density_and_gradient(t, &rv) {
+            Ok((rho, g)) => {
+                N::cst(rho - g.dot(&rv))
+                    + N::cst(g[0]) * r[0]
+                    + N::cst(g[1]) * r[1]
+                    + N::cst(g[2]) * r[2]
+            }
+            Err(_) => N::cst(f64::NAN),
+        }
+    }
+}
+
+impl HostDensity {
+    /// The drag density of `forces` (read from `forces_path`) on a time axis whose zero
+    /// is `epoch` (the formula's).
+    pub fn of_model(
+        forces: &propagator::config::ForcesFile,
+        forces_path: &std::path::Path,
+        epoch: &propagator::Epoch,
+    ) -> Result<Self, String> {
+        let drag = forces
+            .drag
+            .as_ref()
+            .ok_or(
+                "the learned force reads the host's drag density, but the forces file has no drag",
+            )?
+            .build(
+                &forces.central_body,
+                forces_path,
+                epoch,
+                forces.earth_orientation.as_ref(),
+            )?;
+        Ok(HostDensity(std::sync::Arc::new(drag)))
+    }
+}
+
+impl fmt::Debug for HostDensity {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "HostDensity({})", self.0.atmosphere.name())
+    }
+}
+
+impl PartialEq for HostDensity {
+    fn eq(&self, other: &Self) -> bool {
+        std::sync::Arc::ptr_eq(&self.0, &other.0)
+    }
+}
+
 /// Constants the terminals need.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct Context {
     /// Earth radius (altitude, shadow), km.
     pub radius_km: f64,
@@ -479,6 +539,8 @@ pub struct Context {
     pub clock: CenturyClock,
     /// What `rho` and `h` mean: the known model's atmosphere and altitude.
     pub environment: Environment,
+    /// The host's drag density when `environment.density` is `Density::Host`.
+    pub host: Option<HostDensity>,
 }
 
 /// The atmosphere and altitude the `rho` and `h` terminals read (the plugin runtime's
@@ -493,10 +555,12 @@ impl Context {
     /// differ from the host's.
     pub fn of_model(
         forces: &propagator::config::ForcesFile,
+        forces_path: &std::path::Path,
         epoch: &propagator::Epoch,
     ) -> Result<Self, String> {
         use propagator::config::{AltitudeKey, AtmosphereSpec};
         let body = &forces.central_body;
+        let mut host = None;
         let environment = match &forces.drag {
             None => HANDBOOK_ENV,
             Some(d) => Environment {
@@ -509,7 +573,8 @@ impl Context {
                         scale_height_km: e.scale_height_km,
                     },
                     AtmosphereSpec::Nrlmsise00(_) => {
-                        return Err("the learned-force terminals rho and h do not follow an nrlmsise00 atmosphere yet: learn with table, ussa1976 or exponential drag in the known forces".into())
+                        host = Some(HostDensity::of_model(forces, forces_path, epoch)?);
+                        Density::Host
                     }
                 },
                 altitude: match d.altitude {
@@ -525,6 +590,7 @@ impl Context {
             rotation_rad_s: body.rotation_rad_s,
             clock: CenturyClock::new(epoch),
             environment,
+            host,
         })
     }
 
@@ -585,7 +651,7 @@ impl<N: Num> Terminals<N> {
             sun: needs.sun,
             lit: needs.lit,
         };
-        crate::codegen::runtime::terminals_for(
+        let mut p = crate::codegen::runtime::terminals_for(
             t,
             r,
             v,
@@ -594,7 +660,14 @@ impl<N: Num> Terminals<N> {
             ctx.clock.t0_centuries,
             need,
             &ctx.environment,
-        )
+        );
+        if needs.density && ctx.environment.density == Density::Host {
+            p.rho = match &ctx.host {
+                Some(host) => host.rho(t, p.r),
+                None => N::cst(f64::NAN),
+            };
+        }
+        p
     }
 }
 

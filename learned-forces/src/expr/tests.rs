@@ -6,6 +6,7 @@ fn ctx() -> Context {
         rotation_rad_s: 7.292115e-5,
         clock: CenturyClock { t0_centuries: 0.31 },
         environment: crate::expr::HANDBOOK_ENV,
+        host: None,
     }
 }
 

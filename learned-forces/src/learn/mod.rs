@@ -277,7 +277,7 @@ impl Learner<'_> {
                 nodes: nodes.to_vec(),
                 coefficients: c0.to_vec(),
                 constants,
-                context: self.context,
+                context: self.context.clone(),
             }),
             ..self.options.fit.clone()
         };
@@ -295,7 +295,7 @@ impl Learner<'_> {
             self.model()?,
             fitted,
             nodes,
-            self.context,
+            self.context.clone(),
             held,
             &self.options.fit,
         )
@@ -370,7 +370,7 @@ impl Learner<'_> {
             rows,
             &base.jacobian,
             base.weighted_residual.clone(),
-            self.context,
+            self.context.clone(),
         )
         .ok_or_else(|| LearnError::Unfit("the transition matrix is singular along the arc".into()))
     }
@@ -549,6 +549,7 @@ mod tests {
             rotation_rad_s: 7.292115e-5,
             clock: CenturyClock { t0_centuries: 0.31 },
             environment: crate::expr::HANDBOOK_ENV,
+            host: None,
         };
         let states = [propagator::StateVector::new(
             6878.0, 0.0, 0.0, 0.0, 4.8, 5.9,

@@ -37,6 +37,27 @@ pub trait Atmosphere: Send + Sync {
     fn density_at(&self, _t_s: f64, _r_km: &Vector3<f64>, h_km: f64) -> Result<f64, String> {
         self.density_kg_m3(h_km)
     }
+
+    /// Density (kg/m³) and its gradient with respect to the ECI position (kg/m³ per km)
+    /// at `t_s` and `r_km`, with `altitude` measuring the altitude (km) of a position:
+    /// for Jacobians. The default takes forward differences of 1 m (relative error ~
+    /// step / scale height ≈ 2e-5, ample for a Jacobian).
+    fn density_and_gradient_at(
+        &self,
+        t_s: f64,
+        r_km: &Vector3<f64>,
+        altitude: &dyn Fn(&Vector3<f64>) -> f64,
+    ) -> Result<(f64, Vector3<f64>), String> {
+        const STEP_KM: f64 = 1e-3;
+        let rho = self.density_at(t_s, r_km, altitude(r_km))?;
+        let mut grad = Vector3::zeros();
+        for j in 0..3 {
+            let mut p = *r_km;
+            p[j] += STEP_KM;
+            grad[j] = (self.density_at(t_s, &p, altitude(&p))? - rho) / STEP_KM;
+        }
+        Ok((rho, grad))
+    }
 }
 
 /// How altitude above the Earth is measured.

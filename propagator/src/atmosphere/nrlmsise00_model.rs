@@ -104,10 +104,7 @@ const ZMIX: f64 = 62.5;
 /// Quantities of one evaluation point that every coefficient set shares.
 struct Point {
     day: f64,
-    sec: f64,
     lat: f64,
-    lon: f64,
-    tloc: f64,
     df: f64,
     dfa: f64,
     f107a: f64,
@@ -123,6 +120,15 @@ struct Point {
     s3tloc: f64,
     clong: f64,
     slong: f64,
+    /// The per-point angles of the expansions' cos(a − phase) terms: the annual and
+    /// semiannual day angles, the local-time hour angle, the UT second angle, that plus
+    /// twice the longitude, and the longitude.
+    day1: Rot,
+    day2: Rot,
+    hour: Rot,
+    second: Rot,
+    second_and_2lon: Rot,
+    longitude: Rot,
     /// Surface gravity (cm/s²) and effective Earth radius (km) at the latitude.
     gsurf: f64,
     re: f64,
@@ -166,12 +172,16 @@ impl Point {
         let c2lat = (2.0 * DGTR * input.latitude_deg).cos();
         let gsurf = 980.616 * (1.0 - 0.0026373 * c2lat);
         let re = 2.0 * gsurf / (3.085462e-6 + 2.27e-9 * c2lat) * 1e-5;
+        let day = input.day_of_year.floor();
         Point {
-            day: input.day_of_year.floor(),
-            sec: input.ut_s,
+            day1: Rot::of(DR * day),
+            day2: Rot::of(2.0 * DR * day),
+            hour: Rot { c: ctloc, s: stloc },
+            second: Rot::of(SR * input.ut_s),
+            second_and_2lon: Rot::of(SR * input.ut_s + 2.0 * DGTR * input.longitude_deg),
+            longitude: Rot { c: clong, s: slong },
+            day,
             lat: input.latitude_deg,
-            lon: input.longitude_deg,
-            tloc,
             df: input.f107 - input.f107a,
             dfa: input.f107a - 150.0,
             f107a: input.f107a,
@@ -213,6 +223,143 @@ struct Magnetic {
     apt: f64,
 }
 
+/// An angle as its cosine and sine, so that cos(a − b) of a per-point angle a and a
+/// per-coefficient-set phase b costs two products instead of a cosine.
+#[derive(Clone, Copy, Debug, Default)]
+struct Rot {
+    c: f64,
+    s: f64,
+}
+
+impl Rot {
+    fn of(angle: f64) -> Rot {
+        let (s, c) = angle.sin_cos();
+        Rot { c, s }
+    }
+
+    /// cos(self − b).
+    fn cos_minus(self, b: Rot) -> f64 {
+        self.c * b.c + self.s * b.s
+    }
+}
+
+/// The phases of an upper-atmosphere coefficient set, as the model scales them.
+#[derive(Clone, Copy, Debug, Default)]
+struct UpperPhases {
+    d31: Rot,
+    d17: Rot,
+    d13: Rot,
+    d38: Rot,
+    h131: Rot,
+    h124: Rot,
+    s71: Rot,
+    s79: Rot,
+    s58: Rot,
+    s75: Rot,
+    l97: Rot,
+    l136: Rot,
+    l63: Rot,
+    l118: Rot,
+}
+
+impl UpperPhases {
+    fn of(p: &[f64; 150]) -> Self {
+        UpperPhases {
+            d31: Rot::of(DR * p[31]),
+            d17: Rot::of(2.0 * DR * p[17]),
+            d13: Rot::of(DR * p[13]),
+            d38: Rot::of(2.0 * DR * p[38]),
+            h131: Rot::of(HR * p[131]),
+            h124: Rot::of(HR * p[124]),
+            s71: Rot::of(SR * p[71]),
+            s79: Rot::of(SR * p[79]),
+            s58: Rot::of(SR * p[58]),
+            s75: Rot::of(SR * p[75]),
+            l97: Rot::of(DGTR * p[97]),
+            l136: Rot::of(DGTR * p[136]),
+            l63: Rot::of(DGTR * p[63]),
+            l118: Rot::of(DGTR * p[118]),
+        }
+    }
+}
+
+/// The phases of a lower-atmosphere coefficient set.
+#[derive(Clone, Copy, Debug, Default)]
+struct LowerPhases {
+    d31: Rot,
+    d17: Rot,
+    d13: Rot,
+    d38: Rot,
+    d81: Rot,
+    d86: Rot,
+    d84: Rot,
+    d88: Rot,
+}
+
+impl LowerPhases {
+    fn of(p: &[f64; 100]) -> Self {
+        LowerPhases {
+            d31: Rot::of(DR * p[31]),
+            d17: Rot::of(2.0 * DR * p[17]),
+            d13: Rot::of(DR * p[13]),
+            d38: Rot::of(2.0 * DR * p[38]),
+            d81: Rot::of(DR * p[81]),
+            d86: Rot::of(2.0 * DR * p[86]),
+            d84: Rot::of(DR * p[84]),
+            d88: Rot::of(2.0 * DR * p[88]),
+        }
+    }
+}
+
+/// The phases of each coefficient table, computed once per process; a set is found by
+/// its address among the tables (any other set gets its phases computed on the spot).
+struct PhaseTables {
+    upper: Vec<(*const [f64; 150], UpperPhases)>,
+    lower: Vec<(*const [f64; 100], LowerPhases)>,
+}
+
+// SAFETY: the raw pointers are addresses of immutable statics, used only for comparison.
+unsafe impl Send for PhaseTables {}
+unsafe impl Sync for PhaseTables {}
+
+fn phase_tables() -> &'static PhaseTables {
+    static TABLES: std::sync::OnceLock<PhaseTables> = std::sync::OnceLock::new();
+    TABLES.get_or_init(|| {
+        let mut upper: Vec<&'static [f64; 150]> = vec![&PT, &PS];
+        upper.extend(PD.iter());
+        let mut lower: Vec<&'static [f64; 100]> = PTL.iter().collect();
+        lower.extend(PMA.iter());
+        PhaseTables {
+            upper: upper
+                .into_iter()
+                .map(|p| (p as *const _, UpperPhases::of(p)))
+                .collect(),
+            lower: lower
+                .into_iter()
+                .map(|p| (p as *const _, LowerPhases::of(p)))
+                .collect(),
+        }
+    })
+}
+
+fn upper_phases(p: &[f64; 150]) -> UpperPhases {
+    let key = p as *const [f64; 150];
+    phase_tables()
+        .upper
+        .iter()
+        .find(|(k, _)| std::ptr::eq(*k, key))
+        .map_or_else(|| UpperPhases::of(p), |(_, ph)| *ph)
+}
+
+fn lower_phases(p: &[f64; 100]) -> LowerPhases {
+    let key = p as *const [f64; 100];
+    phase_tables()
+        .lower
+        .iter()
+        .find(|(k, _)| std::ptr::eq(*k, key))
+        .map_or_else(|| LowerPhases::of(p), |(_, ph)| *ph)
+}
+
 /// The storm-time function's g0 of one ap value (its G0).
 fn g0(a: f64, p: &[f64; 150], p25: f64) -> f64 {
     a - 4.0 + (p[25] - 1.0) * (a - 4.0 + ((-p25.abs() * (a - 4.0)).exp() - 1.0) / p25.abs())
@@ -235,11 +382,12 @@ fn sg0(ex: f64, p: &[f64; 150], p25: f64, ap: &[f64; 7]) -> f64 {
 /// solar-flux, seasonal, tidal, magnetic and longitudinal terms.
 fn globe7(p: &[f64; 150], pt: &Point, m: &mut Magnetic) -> f64 {
     let plg = &pt.plg;
-    let (df, dfa, day) = (pt.df, pt.dfa, pt.day);
-    let cd32 = (DR * (day - p[31])).cos();
-    let cd18 = (2.0 * DR * (day - p[17])).cos();
-    let cd14 = (DR * (day - p[13])).cos();
-    let cd39 = (2.0 * DR * (day - p[38])).cos();
+    let (df, dfa) = (pt.df, pt.dfa);
+    let ph = upper_phases(p);
+    let cd32 = pt.day1.cos_minus(ph.d31);
+    let cd18 = pt.day2.cos_minus(ph.d17);
+    let cd14 = pt.day1.cos_minus(ph.d13);
+    let cd39 = pt.day2.cos_minus(ph.d38);
     let mut t = [0.0; 14];
     // F10.7
     t[0] = p[19] * df * (1.0 + p[59] * dfa) + p[20] * df * df + p[21] * dfa + p[29] * dfa * dfa;
@@ -281,7 +429,7 @@ fn globe7(p: &[f64; 150], pt: &Point, m: &mut Magnetic) -> f64 {
                         + p[54] * plg[0][4]
                         + (p[125] * plg[0][1] + p[126] * plg[0][3] + p[127] * plg[0][5]) * cd14
                         + (p[128] * plg[1][1] + p[129] * plg[1][3] + p[130] * plg[1][5])
-                            * (HR * (pt.tloc - p[131])).cos());
+                            * pt.hour.cos_minus(ph.h131));
             }
             true
         }
@@ -295,7 +443,7 @@ fn globe7(p: &[f64; 150], pt: &Point, m: &mut Magnetic) -> f64 {
                     + p[34] * plg[0][4]
                     + (p[100] * plg[0][1] + p[101] * plg[0][3] + p[102] * plg[0][5]) * cd14
                     + (p[121] * plg[1][1] + p[122] * plg[1][3] + p[123] * plg[1][5])
-                        * (HR * (pt.tloc - p[124])).cos());
+                        * pt.hour.cos_minus(ph.h124));
             false
         }
     };
@@ -322,9 +470,9 @@ fn globe7(p: &[f64; 150], pt: &Point, m: &mut Magnetic) -> f64 {
         * (1.0 + p[81] * dfa)
         * (1.0 + p[119] * plg[0][1] * cd14)
         * ((p[68] * plg[0][1] + p[69] * plg[0][3] + p[70] * plg[0][5])
-            * (SR * (pt.sec - p[71])).cos());
+            * pt.second.cos_minus(ph.s71));
     t[11] += (p[76] * plg[2][3] + p[77] * plg[2][5] + p[78] * plg[2][7])
-        * (SR * (pt.sec - p[79]) + 2.0 * DGTR * pt.lon).cos()
+        * pt.second_and_2lon.cos_minus(ph.s79)
         * (1.0 + p[137] * dfa);
     // UT/longitude magnetic activity.
     if storm {
@@ -332,27 +480,27 @@ fn globe7(p: &[f64; 150], pt: &Point, m: &mut Magnetic) -> f64 {
             t[12] = m.apt
                 * (1.0 + p[132] * plg[0][1])
                 * ((p[52] * plg[1][2] + p[98] * plg[1][4] + p[67] * plg[1][6])
-                    * (DGTR * (pt.lon - p[97])).cos())
+                    * pt.longitude.cos_minus(ph.l97))
                 + m.apt
                     * (p[133] * plg[1][1] + p[134] * plg[1][3] + p[135] * plg[1][5])
                     * cd14
-                    * (DGTR * (pt.lon - p[136])).cos()
+                    * pt.longitude.cos_minus(ph.l136)
                 + m.apt
                     * (p[55] * plg[0][1] + p[56] * plg[0][3] + p[57] * plg[0][5])
-                    * (SR * (pt.sec - p[58])).cos();
+                    * pt.second.cos_minus(ph.s58);
         }
     } else {
         t[12] = m.apdf
             * (1.0 + p[120] * plg[0][1])
             * ((p[60] * plg[1][2] + p[61] * plg[1][4] + p[62] * plg[1][6])
-                * (DGTR * (pt.lon - p[63])).cos())
+                * pt.longitude.cos_minus(ph.l63))
             + m.apdf
                 * (p[115] * plg[1][1] + p[116] * plg[1][3] + p[117] * plg[1][5])
                 * cd14
-                * (DGTR * (pt.lon - p[118])).cos()
+                * pt.longitude.cos_minus(ph.l118)
             + m.apdf
                 * (p[83] * plg[0][1] + p[84] * plg[0][3] + p[85] * plg[0][5])
-                * (SR * (pt.sec - p[75])).cos();
+                * pt.second.cos_minus(ph.s75);
     }
     let mut g = p[30];
     for term in t {
@@ -365,11 +513,11 @@ fn globe7(p: &[f64; 150], pt: &Point, m: &mut Magnetic) -> f64 {
 /// magnetic terms of the last upper-atmosphere expansion.
 fn glob7s(p: &[f64; 100], pt: &Point, m: &Magnetic) -> f64 {
     let plg = &pt.plg;
-    let day = pt.day;
-    let cd32 = (DR * (day - p[31])).cos();
-    let cd18 = (2.0 * DR * (day - p[17])).cos();
-    let cd14 = (DR * (day - p[13])).cos();
-    let cd39 = (2.0 * DR * (day - p[38])).cos();
+    let ph = lower_phases(p);
+    let cd32 = pt.day1.cos_minus(ph.d31);
+    let cd18 = pt.day2.cos_minus(ph.d17);
+    let cd14 = pt.day1.cos_minus(ph.d13);
+    let cd39 = pt.day2.cos_minus(ph.d38);
     let mut t = [0.0; 14];
     t[0] = p[21] * pt.dfa;
     t[1] = p[1] * plg[0][2]
@@ -397,9 +545,9 @@ fn glob7s(p: &[f64; 100], pt: &Point, m: &Magnetic) -> f64 {
     };
     t[10] = (1.0
         + plg[0][1]
-            * (p[80] * (DR * (day - p[81])).cos() + p[85] * (2.0 * DR * (day - p[86])).cos())
-        + p[83] * (DR * (day - p[84])).cos()
-        + p[87] * (2.0 * DR * (day - p[88])).cos())
+            * (p[80] * pt.day1.cos_minus(ph.d81) + p[85] * pt.day2.cos_minus(ph.d86))
+        + p[83] * pt.day1.cos_minus(ph.d84)
+        + p[87] * pt.day2.cos_minus(ph.d88))
         * ((p[64] * plg[1][2]
             + p[65] * plg[1][4]
             + p[66] * plg[1][6]

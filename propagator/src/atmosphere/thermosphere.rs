@@ -9,7 +9,7 @@ use nalgebra::Vector3;
 
 use super::nrlmsise00::{nrlmsise00, MsisInput};
 use super::space_weather::{day_of_year, SpaceWeather};
-use super::{ellipsoid_height, Atmosphere};
+use super::{ellipsoid_height_in, Atmosphere};
 use crate::earth::EarthOrientation;
 use crate::solar_system::{sun_position_km, CenturyClock};
 use crate::time::{Epoch, TimeAxis};
@@ -45,9 +45,20 @@ impl Thermosphere {
 
     /// The model's input at `t_s` (s on the axis) and GCRF position `r_km`.
     pub fn input(&self, t_s: f64, r_km: &Vector3<f64>) -> Result<MsisInput, String> {
+        self.input_and_vertical(t_s, r_km).map(|(input, _)| input)
+    }
+
+    /// The model's input, and the local vertical (the ellipsoid normal) in GCRF.
+    fn input_and_vertical(
+        &self,
+        t_s: f64,
+        r_km: &Vector3<f64>,
+    ) -> Result<(MsisInput, Vector3<f64>), String> {
         let to_itrf = self.earth.at(self.tt0_s + t_s).gcrf_to_itrf();
         let r = to_itrf * r_km;
-        let (h, normal) = ellipsoid_height([r[0], r[1], r[2]], WGS84_A_KM, WGS84_F);
+        // Two of Bowring's steps: < 1e-12 rad and µm below 1000 km.
+        let (h, normal) = ellipsoid_height_in([r[0], r[1], r[2]], WGS84_A_KM, WGS84_F, 2);
+        let vertical = to_itrf.transpose() * Vector3::from(normal);
         let latitude_deg = normal[2].clamp(-1.0, 1.0).asin().to_degrees();
         let longitude_deg = r[1].atan2(r[0]).to_degrees().rem_euclid(360.0);
         let sun = to_itrf * sun_position_km(self.clock.centuries(t_s));
@@ -57,7 +68,7 @@ impl Thermosphere {
             (12.0 + (longitude_deg - sun_longitude_deg) / 15.0).rem_euclid(24.0);
         let (mjd, ut_s) = self.axis.epoch(t_s).utc_mjd_and_seconds();
         let drivers = self.weather.drivers(mjd, ut_s)?;
-        Ok(MsisInput {
+        let input = MsisInput {
             day_of_year: day_of_year(mjd) as f64,
             ut_s,
             altitude_km: h,
@@ -67,8 +78,20 @@ impl Thermosphere {
             f107: drivers.f107,
             f107a: drivers.f107a,
             geomagnetic: drivers.geomagnetic,
-        })
+        };
+        Ok((input, vertical))
     }
+}
+
+/// NaN or below the ground: no density.
+fn checked(input: &MsisInput) -> Result<(), String> {
+    if input.altitude_km.is_nan() || input.altitude_km <= -5.0 {
+        return Err(format!(
+            "NRLMSISE-00: geodetic altitude {:.3} km is below the ground",
+            input.altitude_km
+        ));
+    }
+    Ok(())
 }
 
 impl Atmosphere for Thermosphere {
@@ -78,13 +101,30 @@ impl Atmosphere for Thermosphere {
 
     fn density_at(&self, t_s: f64, r_km: &Vector3<f64>, _h_km: f64) -> Result<f64, String> {
         let input = self.input(t_s, r_km)?;
-        if input.altitude_km.is_nan() || input.altitude_km <= -5.0 {
-            return Err(format!(
-                "NRLMSISE-00: geodetic altitude {:.3} km is below the ground",
-                input.altitude_km
-            ));
-        }
+        checked(&input)?;
         Ok(nrlmsise00(&input).mass_density_kg_m3)
+    }
+
+    /// The vertical gradient only, by a forward difference of 1 m in altitude at the same
+    /// place and time: the horizontal gradients (scales of thousands of km against a
+    /// scale height of tens) are below the Jacobian's needs, and the inputs are computed
+    /// once (two model calls instead of four full evaluations).
+    fn density_and_gradient_at(
+        &self,
+        t_s: f64,
+        r_km: &Vector3<f64>,
+        _altitude: &dyn Fn(&Vector3<f64>) -> f64,
+    ) -> Result<(f64, Vector3<f64>), String> {
+        const STEP_KM: f64 = 1e-3;
+        let (input, vertical) = self.input_and_vertical(t_s, r_km)?;
+        checked(&input)?;
+        let rho = nrlmsise00(&input).mass_density_kg_m3;
+        let above = MsisInput {
+            altitude_km: input.altitude_km + STEP_KM,
+            ..input
+        };
+        let slope = (nrlmsise00(&above).mass_density_kg_m3 - rho) / STEP_KM;
+        Ok((rho, vertical * slope))
     }
 
     fn name(&self) -> &str {
@@ -168,6 +208,27 @@ mod tests {
                 );
             }
         }
+    }
+
+    #[test]
+    fn the_vertical_gradient_is_the_gradient_to_the_jacobian_s_needs() {
+        // Against full forward differences in the three ECI directions (the trait's
+        // default): the horizontal parts it leaves out are small.
+        let (m, _) = model("2026-03-11T00:00:00Z");
+        let r = gcrf_of(&m, 600.0, 35.0, 120.0, 420.0);
+        let (rho, g) = m.density_and_gradient_at(600.0, &r, &|_| 0.0).unwrap();
+        let mut full = Vector3::zeros();
+        for j in 0..3 {
+            let mut p = r;
+            p[j] += 1e-3;
+            full[j] = (m.density_at(600.0, &p, 0.0).unwrap() - rho) / 1e-3;
+        }
+        // Here the horizontal part is 0.5 % of the vertical.
+        assert!((g - full).norm() < 1e-2 * full.norm(), "{g} vs {full}");
+        // Density decreases upwards: the gradient points down, |∇ρ| ≈ ρ / H, H 40–80 km.
+        assert!(g.dot(&r) < 0.0);
+        let h = rho / g.norm();
+        assert!(h > 30.0 && h < 90.0, "scale height {h} km");
     }
 
     #[test]

@@ -41,10 +41,27 @@ impl Drag {
     }
 
     /// Density (kg/m³) at `t_s` and ECI position `r` (km).
-    fn density(&self, t_s: f64, r: &Vector3<f64>) -> Result<f64, ForceError> {
+    pub fn density(&self, t_s: f64, r: &Vector3<f64>) -> Result<f64, ForceError> {
         let h = self.altitude.altitude_km(r, &self.body);
         self.atmosphere
             .density_at(t_s, r, h)
+            .map_err(|reason| ForceError {
+                force: "drag".into(),
+                t_s,
+                reason,
+            })
+    }
+
+    /// Density (kg/m³) and its gradient with respect to the ECI position (kg/m³ per
+    /// km), as the atmosphere gives them ([`Atmosphere::density_and_gradient_at`]).
+    pub fn density_and_gradient(
+        &self,
+        t_s: f64,
+        r: &Vector3<f64>,
+    ) -> Result<(f64, Vector3<f64>), ForceError> {
+        let altitude = |p: &Vector3<f64>| self.altitude.altitude_km(p, &self.body);
+        self.atmosphere
+            .density_and_gradient_at(t_s, r, &altitude)
             .map_err(|reason| ForceError {
                 force: "drag".into(),
                 t_s,
@@ -74,22 +91,13 @@ impl Force for Drag {
         Ok(vr * (-self.half_ballistic() * rho * vr.norm() * DRAG_UNIT_FACTOR))
     }
 
-    /// Analytic in velocity; in position the density's gradient by forward differences
-    /// (1 m steps, relative error ~ step / scale height ≈ 2e-5, ample for a Jacobian:
-    /// three density calls instead of the twelve force calls of the default), plus the
-    /// co-rotation term. With a = −k ρ |v_r| v_r and v_r = v − W r:
+    /// Analytic in velocity; in position the density's gradient
+    /// ([`Drag::density_and_gradient`], a few density calls instead of the twelve force
+    /// calls of the default), plus the co-rotation term. With a = −k ρ |v_r| v_r and v_r = v − W r:
     /// ∂a/∂v = −k ρ M, M = |v_r| I + v_r v_rᵀ/|v_r|; ∂a/∂r = −k |v_r| v_r ∇ρᵀ + k ρ M W.
     fn partials(&self, t_s: f64, x: &StateVector) -> Result<Matrix3x6<f64>, ForceError> {
         let r = Vector3::new(x[0], x[1], x[2]);
-        let rho = self.density(t_s, &r)?;
-        const STEP_KM: f64 = 1e-3;
-        let mut grad = Vector3::zeros();
-        for j in 0..3 {
-            let mut e = Vector3::zeros();
-            e[j] = STEP_KM;
-            grad[j] =
-                (self.density(t_s, &(r + e))? - self.density(t_s, &(r - e))?) / (2.0 * STEP_KM);
-        }
+        let (rho, grad) = self.density_and_gradient(t_s, &r)?;
         let vr = self.relative_velocity(x);
         let speed = vr.norm();
         let k = self.half_ballistic() * DRAG_UNIT_FACTOR;
