@@ -14,6 +14,8 @@ pub mod nrlmsise00 {
     // Both files are self-contained so the plugin runtime can include them verbatim.
     include!("nrlmsise00_tables.rs");
     include!("nrlmsise00_model.rs");
+    include!("nrlmsise00_expansions.rs");
+    include!("nrlmsise00_profiles.rs");
 }
 
 // Self-contained sources shared verbatim with the learned-force plugin runtime.
