@@ -69,16 +69,7 @@ fn one_day(c: &mut Criterion) {
             ..Options::default()
         };
         g.bench_function(BenchmarkId::from_parameter(label), |b| {
-            b.iter(|| {
-                let req = Request {
-                    x0: leo_state(),
-                    t0_s: 0.0,
-                    t_end_s: 86400.0,
-                    output_times_s: &[86400.0],
-                    stop_times_s: &[],
-                };
-                propagate(&model, &req, &options, &mut Silent).unwrap()
-            })
+            b.iter(|| leo_day(&model, &options))
         });
     }
     g.finish();
@@ -141,16 +132,7 @@ fn real_earth(c: &mut Criterion) {
     let mut g = c.benchmark_group("1-day LEO propagation, 70x70 + Sun + Moon");
     g.sample_size(10);
     g.bench_function("dp853 default tolerance", |b| {
-        b.iter(|| {
-            let req = Request {
-                x0: leo_state(),
-                t0_s: 0.0,
-                t_end_s: 86400.0,
-                output_times_s: &[86400.0],
-                stop_times_s: &[],
-            };
-            propagate(&model, &req, &Options::default(), &mut Silent).unwrap()
-        })
+        b.iter(|| one_day_default_tolerance(&model))
     });
     g.finish();
 }
@@ -230,18 +212,26 @@ fn thermosphere_day(c: &mut Criterion) {
     let mut g = c.benchmark_group("1-day 400 km propagation, 20x20 + NRLMSISE-00 drag");
     g.sample_size(10);
     g.bench_function("dp853 default tolerance", |b| {
-        b.iter(|| {
-            let req = Request {
-                x0: leo_state(),
-                t0_s: 0.0,
-                t_end_s: 86400.0,
-                output_times_s: &[86400.0],
-                stop_times_s: &[],
-            };
-            propagate(&model, &req, &Options::default(), &mut Silent).unwrap()
-        })
+        b.iter(|| one_day_default_tolerance(&model))
     });
     g.finish();
+}
+
+/// One day from [`leo_state`] at the default tolerance.
+fn one_day_default_tolerance(model: &ForceModel) -> propagator::propagation::Propagated {
+    leo_day(model, &Options::default())
+}
+
+/// One day from [`leo_state`] with `options`.
+fn leo_day(model: &ForceModel, options: &Options) -> propagator::propagation::Propagated {
+    let req = Request {
+        x0: leo_state(),
+        t0_s: 0.0,
+        t_end_s: 86400.0,
+        output_times_s: &[86400.0],
+        stop_times_s: &[],
+    };
+    propagate(model, &req, options, &mut Silent).unwrap()
 }
 
 criterion_group!(benches, force_evaluation, one_day, real_earth, thermosphere);

@@ -339,8 +339,8 @@ fn tai_minus_utc_on_day(day: i64) -> i128 {
 }
 
 /// Days from 1900-01-01 to the civil date (proleptic Gregorian; H. Hinnant's
-/// `days_from_civil`, shifted to our origin).
-fn days_from_civil(y: i32, m: u32, d: u32) -> i64 {
+/// `days_from_civil`, shifted to our origin). MJD = this + 15020.
+pub fn days_from_civil(y: i32, m: u32, d: u32) -> i64 {
     let y = i64::from(if m <= 2 { y - 1 } else { y });
     let era = y.div_euclid(400);
     let yoe = y - era * 400;
@@ -351,7 +351,7 @@ fn days_from_civil(y: i32, m: u32, d: u32) -> i64 {
 }
 
 /// The civil date of a day count from 1900-01-01 (inverse of [`days_from_civil`]).
-fn civil_from_days(days: i64) -> (i32, u32, u32) {
+pub fn civil_from_days(days: i64) -> (i32, u32, u32) {
     let z = days - 25_567 + 719_468;
     let era = z.div_euclid(146_097);
     let doe = z - era * 146_097;

@@ -384,6 +384,19 @@ const ALPHA: [f64; 9] = [-0.38, 0.0, 0.0, 0.0, 0.17, 0.0, -0.38, 0.0, 0.0];
 /// Altitudes (km) above which a species is purely diffusive.
 const ALTL: [f64; 8] = [200.0, 300.0, 160.0, 250.0, 240.0, 450.0, 320.0, 450.0];
 
+/// A species of [`Species::mixing_species`]: its expansion set `PD[pd]`, PDM column `k`,
+/// mass `xm` (amu), slot in `ALPHA`/`ALTL`, the extra factor of its ground mixing ratio,
+/// and the PDL factors of its correction's scale height and height.
+struct Mixing {
+    pd: usize,
+    k: usize,
+    xm: f64,
+    slot: usize,
+    ratio: f64,
+    h: f64,
+    z: f64,
+}
+
 impl Species<'_> {
     fn expansion(&mut self, p: &[f64; 150]) -> f64 {
         globe7(p, self.pt, &mut self.m)
@@ -426,77 +439,66 @@ impl Species<'_> {
         self.n[2] = d;
     }
 
+    /// A species that mixes below the turbopause, corrected there to its ground mixing
+    /// ratio relative to N2.
+    fn mixing_species(&mut self, s: Mixing) -> f64 {
+        let g = self.expansion(&PD[s.pd]);
+        let db = PDM[s.k][0] * g.exp() * PD[s.pd][0];
+        let mut d = self.diffusive(db, s.xm, ALPHA[s.slot]);
+        if self.alt <= ALTL[s.slot] {
+            let (net, b) = self.mixed(d, db, PDM[s.k][2], s.xm, ALPHA[s.slot]);
+            let rl = (self.b28 * PDM[s.k][1] * s.ratio / b).ln();
+            d = net * ccor(self.alt, rl, PDM[s.k][5] * s.h, PDM[s.k][4] * s.z);
+        }
+        d
+    }
+
+    /// The chemistry correction of PDM column `k` with PDL factors (r, h, z), where the
+    /// species of slot `slot` mixes.
+    fn chemistry(&self, k: usize, slot: usize, (r, h, z): (f64, f64, f64)) -> f64 {
+        if self.alt <= ALTL[slot] {
+            ccor(self.alt, PDM[k][3] * r, PDM[k][7] * h, PDM[k][6] * z)
+        } else {
+            1.0
+        }
+    }
+
     fn all_others(&mut self) {
         let alt = self.alt;
-        // He
-        let g4 = self.expansion(&PD[0]);
-        let db04 = PDM[0][0] * g4.exp() * PD[0][0];
-        let mut d = self.diffusive(db04, 4.0, ALPHA[0]);
-        if alt <= ALTL[0] {
-            let (net, b04) = self.mixed(d, db04, PDM[0][2], 4.0, ALPHA[0]);
-            let rl = (self.b28 * PDM[0][1] / b04).ln();
-            d = net * ccor(alt, rl, PDM[0][5] * PDL[1][1], PDM[0][4] * PDL[1][0]);
-        }
-        self.n[0] = d;
-        // O
+        let f107a = self.pt.f107a;
+        let mix = |pd, k, xm, slot, ratio, (h, z)| Mixing {
+            pd,
+            k,
+            xm,
+            slot,
+            ratio,
+            h,
+            z,
+        };
+        self.n[0] = self.mixing_species(mix(0, 0, 4.0, 0, 1.0, (PDL[1][1], PDL[1][0])));
+        // O: a departure from diffusive equilibrium near 150 km with F10.7, and chemistry.
         let g16 = self.expansion(&PD[1]);
         let db16 = PDM[1][0] * g16.exp() * PD[1][0];
         let mut d = self.diffusive(db16, 16.0, ALPHA[1]);
         if alt <= ALTL[1] {
             let (net, _) = self.mixed(d, db16, PDM[1][2], 16.0, ALPHA[1]);
-            // Departure from diffusive equilibrium near 150 km, with F10.7 dependence.
-            let rl = PDM[1][1] * PDL[1][16] * (1.0 + PDL[0][23] * (self.pt.f107a - 150.0));
+            let rl = PDM[1][1] * PDL[1][16] * (1.0 + PDL[0][23] * (f107a - 150.0));
             d = net
                 * ccor2(alt, rl, PDM[1][5] * PDL[1][3], PDM[1][4] * PDL[1][2], PDM[1][5] * PDL[1][4]);
-            // Chemistry.
-            d *= ccor(alt, PDM[1][3] * PDL[1][14], PDM[1][7] * PDL[1][13], PDM[1][6] * PDL[1][12]);
+            d *= self.chemistry(1, 1, (PDL[1][14], PDL[1][13], PDL[1][12]));
         }
         self.n[1] = d;
-        // O2
-        let g32 = self.expansion(&PD[4]);
-        let db32 = PDM[3][0] * g32.exp() * PD[4][0];
-        let mut d = self.diffusive(db32, 32.0, ALPHA[3]);
-        if alt <= ALTL[3] {
-            let (net, b32) = self.mixed(d, db32, PDM[3][2], 32.0, ALPHA[3]);
-            let rl = (self.b28 * PDM[3][1] / b32).ln();
-            d = net * ccor(alt, rl, PDM[3][5] * PDL[1][7], PDM[3][4] * PDL[1][6]);
-        }
-        // General departure from diffusive equilibrium above the lower boundary.
-        let rc32 = PDM[3][3] * PDL[1][23] * (1.0 + PDL[0][23] * (self.pt.f107a - 150.0));
-        d *= ccor2(alt, rc32, PDM[3][7] * PDL[1][22], PDM[3][6] * PDL[1][21], PDM[3][7] * PDL[0][22]);
-        self.n[3] = d;
-        // Ar
-        let g40 = self.expansion(&PD[5]);
-        let db40 = PDM[4][0] * g40.exp() * PD[5][0];
-        let mut d = self.diffusive(db40, 40.0, ALPHA[4]);
-        if alt <= ALTL[4] {
-            let (net, b40) = self.mixed(d, db40, PDM[4][2], 40.0, ALPHA[4]);
-            let rl = (self.b28 * PDM[4][1] / b40).ln();
-            d = net * ccor(alt, rl, PDM[4][5] * PDL[1][9], PDM[4][4] * PDL[1][8]);
-        }
-        self.n[4] = d;
-        // H
-        let g1 = self.expansion(&PD[6]);
-        let db01 = PDM[5][0] * g1.exp() * PD[6][0];
-        let mut d = self.diffusive(db01, 1.0, ALPHA[6]);
-        if alt <= ALTL[6] {
-            let (net, b01) = self.mixed(d, db01, PDM[5][2], 1.0, ALPHA[6]);
-            let rl = (self.b28 * PDM[5][1] * PDL[1][17].abs() / b01).ln();
-            d = net * ccor(alt, rl, PDM[5][5] * PDL[1][11], PDM[5][4] * PDL[1][10]);
-            d *= ccor(alt, PDM[5][3] * PDL[1][20], PDM[5][7] * PDL[1][19], PDM[5][6] * PDL[1][18]);
-        }
-        self.n[5] = d;
-        // N
-        let g14 = self.expansion(&PD[7]);
-        let db14 = PDM[6][0] * g14.exp() * PD[7][0];
-        let mut d = self.diffusive(db14, 14.0, ALPHA[7]);
-        if alt <= ALTL[7] {
-            let (net, b14) = self.mixed(d, db14, PDM[6][2], 14.0, ALPHA[7]);
-            let rl = (self.b28 * PDM[6][1] * PDL[0][2].abs() / b14).ln();
-            d = net * ccor(alt, rl, PDM[6][5] * PDL[0][1], PDM[6][4] * PDL[0][0]);
-            d *= ccor(alt, PDM[6][3] * PDL[0][5], PDM[6][7] * PDL[0][4], PDM[6][6] * PDL[0][3]);
-        }
-        self.n[6] = d;
+        // O2, with a general departure from diffusive equilibrium above the lower boundary.
+        let d = self.mixing_species(mix(4, 3, 32.0, 3, 1.0, (PDL[1][7], PDL[1][6])));
+        let rc32 = PDM[3][3] * PDL[1][23] * (1.0 + PDL[0][23] * (f107a - 150.0));
+        self.n[3] =
+            d * ccor2(alt, rc32, PDM[3][7] * PDL[1][22], PDM[3][6] * PDL[1][21], PDM[3][7] * PDL[0][22]);
+        self.n[4] = self.mixing_species(mix(5, 4, 40.0, 4, 1.0, (PDL[1][9], PDL[1][8])));
+        // H and N, with chemistry.
+        let d = self.mixing_species(mix(6, 5, 1.0, 6, PDL[1][17].abs(), (PDL[1][11], PDL[1][10])));
+        self.n[5] = d * self.chemistry(5, 6, (PDL[1][20], PDL[1][19], PDL[1][18]));
+        let d = self.mixing_species(mix(7, 6, 14.0, 7, PDL[0][2].abs(), (PDL[0][1], PDL[0][0])));
+        self.n[6] = d * self.chemistry(6, 7, (PDL[0][5], PDL[0][4], PDL[0][3]));
         // Anomalous O: a hot component, isothermal at `tho`, decaying below `zmho`.
         let g16h = self.expansion(&PD[8]);
         let db16h = PDM[7][0] * g16h.exp() * PD[8][0];

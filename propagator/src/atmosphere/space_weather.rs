@@ -20,6 +20,7 @@
 use std::path::Path;
 
 use super::nrlmsise00::Geomagnetic;
+use crate::time::{civil_from_days, days_from_civil};
 
 /// Solar flux and geomagnetic activity for NRLMSISE-00 at one epoch.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -226,9 +227,9 @@ pub fn mjd_of_date(text: &str) -> Result<i64, String> {
     if parts.len() != 3 || parts[0].len() != 4 || parts[1].len() != 2 || parts[2].len() != 2 {
         return Err(bad());
     }
-    let y: i64 = parts[0].parse().map_err(|_| bad())?;
-    let m: i64 = parts[1].parse().map_err(|_| bad())?;
-    let d: i64 = parts[2].parse().map_err(|_| bad())?;
+    let y: i32 = parts[0].parse().map_err(|_| bad())?;
+    let m: u32 = parts[1].parse().map_err(|_| bad())?;
+    let d: u32 = parts[2].parse().map_err(|_| bad())?;
     let leap = (y % 4 == 0 && y % 100 != 0) || y % 400 == 0;
     let month_days = [
         31,
@@ -247,27 +248,16 @@ pub fn mjd_of_date(text: &str) -> Result<i64, String> {
     if !(1..=12).contains(&m) || d < 1 || d > month_days[(m - 1) as usize] {
         return Err(bad());
     }
-    // Days from 1970-01-01 (Hinnant's days_from_civil), then MJD 40587 = 1970-01-01.
-    let y2 = if m <= 2 { y - 1 } else { y };
-    let era = y2.div_euclid(400);
-    let yoe = y2 - era * 400;
-    let mp = (m + 9) % 12;
-    let doy = (153 * mp + 2) / 5 + d - 1;
-    let doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
-    Ok(era * 146_097 + doe - 719_468 + 40_587)
+    Ok(days_from_civil(y, m, d) + MJD_OF_1900)
 }
 
-/// (year, month, day) of an MJD (Hinnant's civil_from_days).
+/// MJD of 1900-01-01, the origin of [`days_from_civil`].
+const MJD_OF_1900: i64 = 15_020;
+
+/// (year, month, day) of an MJD.
 pub fn ymd_of_mjd(mjd: i64) -> (i64, i64, i64) {
-    let z = mjd - 40_587 + 719_468;
-    let era = z.div_euclid(146_097);
-    let doe = z - era * 146_097;
-    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
-    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
-    let mp = (5 * doy + 2) / 153;
-    let d = doy - (153 * mp + 2) / 5 + 1;
-    let m = if mp < 10 { mp + 3 } else { mp - 9 };
-    (yoe + era * 400 + i64::from(m <= 2), m, d)
+    let (y, m, d) = civil_from_days(mjd - MJD_OF_1900);
+    (i64::from(y), i64::from(m), i64::from(d))
 }
 
 /// ISO date of an MJD.
@@ -278,17 +268,8 @@ pub fn date_of_mjd(mjd: i64) -> String {
 
 /// Day of the year (1–366) of an MJD.
 pub fn day_of_year(mjd: i64) -> i64 {
-    let (y, _, _) = ymd_of_mjd(mjd);
-    mjd - mjd_of_january_first(y) + 1
-}
-
-/// MJD of 1 January of year `y` (proleptic Gregorian).
-fn mjd_of_january_first(y: i64) -> i64 {
-    // Hinnant's days_from_civil for March-based years: 1 January is day 306 of year y − 1.
-    let y2 = y - 1;
-    let era = y2.div_euclid(400);
-    let yoe = y2 - era * 400;
-    era * 146_097 + yoe * 365 + yoe / 4 - yoe / 100 + 306 - 719_468 + 40_587
+    let (y, _, _) = civil_from_days(mjd - MJD_OF_1900);
+    mjd - MJD_OF_1900 - days_from_civil(y, 1, 1) + 1
 }
 
 #[cfg(test)]
