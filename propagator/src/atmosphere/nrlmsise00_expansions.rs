@@ -205,6 +205,26 @@ fn globe7(p: &[f64; 150], pt: &Point, m: &mut Magnetic) -> f64 {
     t[13] = f2
         * ((p[39] * plg[3][3] + (p[93] * plg[3][4] + p[46] * plg[3][6]) * cd14) * pt.s3tloc
             + (p[40] * plg[3][3] + (p[94] * plg[3][4] + p[48] * plg[3][6]) * cd14) * pt.c3tloc);
+    (t[8], t[12]) = magnetic_terms(p, pt, &ph, cd14, m);
+    (t[10], t[11]) = longitude_terms(p, pt, &ph, cd14);
+    let mut g = p[30];
+    for term in t {
+        g += term;
+    }
+    g
+}
+
+/// The magnetic-activity terms of [`globe7`]: the daily-Ap or storm-time term, and its
+/// UT/longitude part; records the activity function in `m` for the lower atmosphere.
+fn magnetic_terms(
+    p: &[f64; 150],
+    pt: &Point,
+    ph: &UpperPhases,
+    cd14: f64,
+    m: &mut Magnetic,
+) -> (f64, f64) {
+    let plg = &pt.plg;
+    let (mut t8, mut t12) = (0.0, 0.0);
     // Magnetic activity.
     let storm = match pt.geomagnetic {
         Geomagnetic::History(ap) => {
@@ -213,7 +233,7 @@ fn globe7(p: &[f64; 150], pt: &Point, m: &mut Magnetic) -> f64 {
                 let ex = ex.min(0.99999);
                 let p25 = if p[24] < 1e-4 { 1e-4 } else { p[24] };
                 m.apt = sg0(ex, p, p25, &ap);
-                t[8] = m.apt
+                t8 = m.apt
                     * (p[50]
                         + p[96] * plg[0][2]
                         + p[54] * plg[0][4]
@@ -227,7 +247,7 @@ fn globe7(p: &[f64; 150], pt: &Point, m: &mut Magnetic) -> f64 {
             let apd = ap - 4.0;
             let p44 = if p[43] < 0.0 { 1e-5 } else { p[43] };
             m.apdf = apd + (p[44] - 1.0) * (apd + ((-p44 * apd).exp() - 1.0) / p44);
-            t[8] = m.apdf
+            t8 = m.apdf
                 * (p[32]
                     + p[45] * plg[0][2]
                     + p[34] * plg[0][4]
@@ -237,8 +257,43 @@ fn globe7(p: &[f64; 150], pt: &Point, m: &mut Magnetic) -> f64 {
             false
         }
     };
+    // UT/longitude magnetic activity.
+    if storm {
+        if p[51] != 0.0 {
+            t12 = m.apt
+                * (1.0 + p[132] * plg[0][1])
+                * ((p[52] * plg[1][2] + p[98] * plg[1][4] + p[67] * plg[1][6])
+                    * pt.longitude.cos_minus(ph.l97))
+                + m.apt
+                    * (p[133] * plg[1][1] + p[134] * plg[1][3] + p[135] * plg[1][5])
+                    * cd14
+                    * pt.longitude.cos_minus(ph.l136)
+                + m.apt
+                    * (p[55] * plg[0][1] + p[56] * plg[0][3] + p[57] * plg[0][5])
+                    * pt.second.cos_minus(ph.s58);
+        }
+    } else {
+        t12 = m.apdf
+            * (1.0 + p[120] * plg[0][1])
+            * ((p[60] * plg[1][2] + p[61] * plg[1][4] + p[62] * plg[1][6])
+                * pt.longitude.cos_minus(ph.l63))
+            + m.apdf
+                * (p[115] * plg[1][1] + p[116] * plg[1][3] + p[117] * plg[1][5])
+                * cd14
+                * pt.longitude.cos_minus(ph.l118)
+            + m.apdf
+                * (p[83] * plg[0][1] + p[84] * plg[0][3] + p[85] * plg[0][5])
+                * pt.second.cos_minus(ph.s75);
+    }
+    (t8, t12)
+}
+
+/// The longitudinal and the UT (and mixed UT/longitude) terms of [`globe7`].
+fn longitude_terms(p: &[f64; 150], pt: &Point, ph: &UpperPhases, cd14: f64) -> (f64, f64) {
+    let plg = &pt.plg;
+    let dfa = pt.dfa;
     // Longitudinal.
-    t[10] = (1.0 + p[80] * dfa)
+    let t10 = (1.0 + p[80] * dfa)
         * ((p[64] * plg[1][2]
             + p[65] * plg[1][4]
             + p[66] * plg[1][6]
@@ -256,47 +311,15 @@ fn globe7(p: &[f64; 150], pt: &Point, m: &mut Magnetic) -> f64 {
                 + (p[112] * plg[1][1] + p[113] * plg[1][3] + p[114] * plg[1][5]) * cd14)
                 * pt.slong);
     // UT and mixed UT/longitude.
-    t[11] = (1.0 + p[95] * plg[0][1])
+    let mut t11 = (1.0 + p[95] * plg[0][1])
         * (1.0 + p[81] * dfa)
         * (1.0 + p[119] * plg[0][1] * cd14)
         * ((p[68] * plg[0][1] + p[69] * plg[0][3] + p[70] * plg[0][5])
             * pt.second.cos_minus(ph.s71));
-    t[11] += (p[76] * plg[2][3] + p[77] * plg[2][5] + p[78] * plg[2][7])
+    t11 += (p[76] * plg[2][3] + p[77] * plg[2][5] + p[78] * plg[2][7])
         * pt.second_and_2lon.cos_minus(ph.s79)
         * (1.0 + p[137] * dfa);
-    // UT/longitude magnetic activity.
-    if storm {
-        if p[51] != 0.0 {
-            t[12] = m.apt
-                * (1.0 + p[132] * plg[0][1])
-                * ((p[52] * plg[1][2] + p[98] * plg[1][4] + p[67] * plg[1][6])
-                    * pt.longitude.cos_minus(ph.l97))
-                + m.apt
-                    * (p[133] * plg[1][1] + p[134] * plg[1][3] + p[135] * plg[1][5])
-                    * cd14
-                    * pt.longitude.cos_minus(ph.l136)
-                + m.apt
-                    * (p[55] * plg[0][1] + p[56] * plg[0][3] + p[57] * plg[0][5])
-                    * pt.second.cos_minus(ph.s58);
-        }
-    } else {
-        t[12] = m.apdf
-            * (1.0 + p[120] * plg[0][1])
-            * ((p[60] * plg[1][2] + p[61] * plg[1][4] + p[62] * plg[1][6])
-                * pt.longitude.cos_minus(ph.l63))
-            + m.apdf
-                * (p[115] * plg[1][1] + p[116] * plg[1][3] + p[117] * plg[1][5])
-                * cd14
-                * pt.longitude.cos_minus(ph.l118)
-            + m.apdf
-                * (p[83] * plg[0][1] + p[84] * plg[0][3] + p[85] * plg[0][5])
-                * pt.second.cos_minus(ph.s75);
-    }
-    let mut g = p[30];
-    for term in t {
-        g += term;
-    }
-    g
+    (t10, t11)
 }
 
 /// The lower-atmosphere expansion of one coefficient set (its GLOB7S), with the
