@@ -373,6 +373,49 @@ impl ScenarioSpec {
         Ok(s)
     }
 
+    /// The initial state: `initial` with the scenario's epoch and object name.
+    fn initial_state(
+        &self,
+        body: &propagator::CentralBody,
+    ) -> Result<propagator::config::InitialState, String> {
+        let mut state_map = match &self.initial {
+            serde_yaml::Value::Mapping(m) => m.clone(),
+            _ => return Err("initial: expected r_km + v_km_s or elements".into()),
+        };
+        state_map.insert("epoch_utc".into(), self.epoch_utc.clone().into());
+        state_map.insert("object_name".into(), self.object_name.clone().into());
+        let state_text = serde_yaml::to_string(&state_map).map_err(|e| e.to_string())?;
+        StateFile::parse(&state_text, Path::new("initial"), body).map_err(|e| e.to_string())
+    }
+
+    /// The truth's forces file: the known one with the truth's maneuvers added and its
+    /// thermosphere's space weather replaced.
+    fn truth_spec(&self, known: &ForcesFile) -> Result<ForcesFile, String> {
+        use propagator::config::AtmosphereSpec;
+        let mut truth_spec = known.clone();
+        for t in &self.truth {
+            match t {
+                TruthTerm::Maneuver(m) => truth_spec.maneuvers.push(m.clone()),
+                TruthTerm::Thermosphere(weather) => {
+                    weather
+                        .validate()
+                        .map_err(|e| format!("truth.thermosphere: {e}"))?;
+                    match truth_spec.drag.as_mut() {
+                        Some(d) if matches!(d.atmosphere, AtmosphereSpec::Nrlmsise00(_)) => {
+                            d.atmosphere = AtmosphereSpec::Nrlmsise00(weather.clone())
+                        }
+                        _ => return Err(
+                            "truth.thermosphere needs drag with atmosphere nrlmsise00 in forces"
+                                .into(),
+                        ),
+                    }
+                }
+                _ => {}
+            }
+        }
+        Ok(truth_spec)
+    }
+
     /// Builds the initial state and the known and true models.
     pub fn models(&self, path: &Path) -> Result<ScenarioModels, ScenarioError> {
         let err = |m: String| ScenarioError {
@@ -384,39 +427,10 @@ impl ScenarioSpec {
         let forces_yaml = serde_yaml::to_string(&forces).map_err(|e| err(e.to_string()))?;
         let known =
             ForcesFile::parse(&forces_yaml, Path::new("forces")).map_err(|e| err(e.to_string()))?;
-        let mut state_map = match &self.initial {
-            serde_yaml::Value::Mapping(m) => m.clone(),
-            _ => return Err(err("initial: expected r_km + v_km_s or elements".into())),
-        };
-        state_map.insert("epoch_utc".into(), self.epoch_utc.clone().into());
-        state_map.insert("object_name".into(), self.object_name.clone().into());
-        let state_text = serde_yaml::to_string(&state_map).map_err(|e| err(e.to_string()))?;
-        let initial = StateFile::parse(&state_text, Path::new("initial"), &known.central_body)
-            .map_err(|e| err(e.to_string()))?;
+        let initial = self.initial_state(&known.central_body).map_err(err)?;
         let axis = TimeAxis::new(initial.epoch);
         // The truth: the known forces, their maneuvers plus the truth's, and the extras.
-        let mut truth_spec = known.clone();
-        for t in &self.truth {
-            match t {
-                TruthTerm::Maneuver(m) => truth_spec.maneuvers.push(m.clone()),
-                TruthTerm::Thermosphere(weather) => {
-                    use propagator::config::AtmosphereSpec;
-                    weather
-                        .validate()
-                        .map_err(|e| err(format!("truth.thermosphere: {e}")))?;
-                    match truth_spec.drag.as_mut() {
-                        Some(d) if matches!(d.atmosphere, AtmosphereSpec::Nrlmsise00(_)) => {
-                            d.atmosphere = AtmosphereSpec::Nrlmsise00(weather.clone())
-                        }
-                        _ => return Err(err(
-                            "truth.thermosphere needs drag with atmosphere nrlmsise00 in forces"
-                                .into(),
-                        )),
-                    }
-                }
-                _ => {}
-            }
-        }
+        let truth_spec = self.truth_spec(&known).map_err(err)?;
         let mut truth = truth_spec
             .build(path, initial.epoch)
             .map_err(|e| err(e.to_string()))?

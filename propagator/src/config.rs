@@ -645,6 +645,72 @@ impl ForcesFile {
         self.build_with(path, reference, &NativeOnly)
     }
 
+    /// `model` with this file's maneuvers: impulses on the model, finite burns as forces
+    /// (epochs on `axis`; `path` for messages).
+    fn add_maneuvers(
+        &self,
+        mut model: ForceModel,
+        path: &Path,
+        axis: &TimeAxis,
+    ) -> Result<ForceModel, ConfigError> {
+        for (k, m) in self.maneuvers.iter().enumerate() {
+            let epoch = |key: &str, text: &str| {
+                Epoch::parse_utc(text)
+                    .map_err(|e| config_error(path, format!("maneuvers[{k}].{key}: {e}")))
+            };
+            match m {
+                ManeuverSpec::Impulsive(i) => {
+                    let t = axis.seconds(&epoch("epoch_utc", &i.epoch_utc)?);
+                    let (dv, frame) = match (i.dv_rtn_km_s, i.dv_eci_km_s) {
+                        (Some(v), None) => (v, ManeuverFrame::Rtn),
+                        (None, Some(v)) => (v, ManeuverFrame::Eci),
+                        _ => {
+                            return Err(config_error(
+                                path,
+                                format!("maneuvers[{k}].impulsive: give exactly one of dv_rtn_km_s and dv_eci_km_s"),
+                            ))
+                        }
+                    };
+                    let dv = nalgebra::Vector3::from(dv);
+                    if dv.norm() > 5.0 {
+                        return Err(config_error(
+                            path,
+                            format!("maneuvers[{k}].impulsive: |Δv| = {} km/s is implausible: the unit is km/s, not m/s", dv.norm()),
+                        ));
+                    }
+                    model.push_impulse(Impulse {
+                        t_s: t,
+                        dv_km_s: dv,
+                        frame,
+                    });
+                }
+                ManeuverSpec::Finite(f) => {
+                    let start = axis.seconds(&epoch("start_utc", &f.start_utc)?);
+                    let end = axis.seconds(&epoch("end_utc", &f.end_utc)?);
+                    if end <= start {
+                        return Err(config_error(
+                            path,
+                            format!("maneuvers[{k}].finite: end_utc is not after start_utc"),
+                        ));
+                    }
+                    let a = nalgebra::Vector3::from(f.accel_rtn_km_s2);
+                    if a.norm() > 0.1 {
+                        return Err(config_error(
+                            path,
+                            format!("maneuvers[{k}].finite: |a| = {} km/s² is implausible: the unit is km/s², not m/s²", a.norm()),
+                        ));
+                    }
+                    model = model.with(FiniteBurn {
+                        start_s: start,
+                        end_s: end,
+                        accel_rtn_km_s2: a,
+                    });
+                }
+            }
+        }
+        Ok(model)
+    }
+
     /// As [`ForcesFile::build`], asking `resolver` first about each plugin entry (the
     /// learner registers learned-force files this way, keeping this crate unaware of it).
     pub fn build_with(
@@ -711,61 +777,7 @@ impl ForcesFile {
             };
             model = model.with(ThirdBody::new(body, clock));
         }
-        for (k, m) in self.maneuvers.iter().enumerate() {
-            let epoch = |key: &str, text: &str| {
-                Epoch::parse_utc(text)
-                    .map_err(|e| config_error(path, format!("maneuvers[{k}].{key}: {e}")))
-            };
-            match m {
-                ManeuverSpec::Impulsive(i) => {
-                    let t = axis.seconds(&epoch("epoch_utc", &i.epoch_utc)?);
-                    let (dv, frame) = match (i.dv_rtn_km_s, i.dv_eci_km_s) {
-                        (Some(v), None) => (v, ManeuverFrame::Rtn),
-                        (None, Some(v)) => (v, ManeuverFrame::Eci),
-                        _ => {
-                            return Err(config_error(
-                                path,
-                                format!("maneuvers[{k}].impulsive: give exactly one of dv_rtn_km_s and dv_eci_km_s"),
-                            ))
-                        }
-                    };
-                    let dv = nalgebra::Vector3::from(dv);
-                    if dv.norm() > 5.0 {
-                        return Err(config_error(
-                            path,
-                            format!("maneuvers[{k}].impulsive: |Δv| = {} km/s is implausible: the unit is km/s, not m/s", dv.norm()),
-                        ));
-                    }
-                    model.push_impulse(Impulse {
-                        t_s: t,
-                        dv_km_s: dv,
-                        frame,
-                    });
-                }
-                ManeuverSpec::Finite(f) => {
-                    let start = axis.seconds(&epoch("start_utc", &f.start_utc)?);
-                    let end = axis.seconds(&epoch("end_utc", &f.end_utc)?);
-                    if end <= start {
-                        return Err(config_error(
-                            path,
-                            format!("maneuvers[{k}].finite: end_utc is not after start_utc"),
-                        ));
-                    }
-                    let a = nalgebra::Vector3::from(f.accel_rtn_km_s2);
-                    if a.norm() > 0.1 {
-                        return Err(config_error(
-                            path,
-                            format!("maneuvers[{k}].finite: |a| = {} km/s² is implausible: the unit is km/s², not m/s²", a.norm()),
-                        ));
-                    }
-                    model = model.with(FiniteBurn {
-                        start_s: start,
-                        end_s: end,
-                        accel_rtn_km_s2: a,
-                    });
-                }
-            }
-        }
+        model = self.add_maneuvers(model, path, &axis)?;
         let base = path.parent().unwrap_or(Path::new("."));
         for spec in &self.plugins {
             let p = Path::new(spec.path());
