@@ -25,6 +25,8 @@ pub const WGS84_F: f64 = 1.0 / 298.257_223_563;
 pub struct Thermosphere {
     /// F10.7 and Ap.
     pub weather: SpaceWeather,
+    /// Identifies this model (and its clones, which compute the same) in the cache.
+    id: u64,
     earth: EarthOrientation,
     axis: TimeAxis,
     tt0_s: f64,
@@ -34,8 +36,10 @@ pub struct Thermosphere {
 impl Thermosphere {
     /// The model on a time axis starting at `reference`, oriented by `earth`.
     pub fn new(weather: SpaceWeather, earth: EarthOrientation, reference: Epoch) -> Self {
+        static NEXT_ID: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
         Thermosphere {
             weather,
+            id: NEXT_ID.fetch_add(1, std::sync::atomic::Ordering::Relaxed),
             earth,
             axis: TimeAxis::new(reference),
             tt0_s: reference.tt_seconds_since_j2000(),
@@ -83,6 +87,52 @@ impl Thermosphere {
     }
 }
 
+/// The last point a thread evaluated: a fit asks for the density at the same (t, r) for
+/// the acceleration, its Jacobian and the drag scale's partial; the answer is a pure
+/// function of the point, so reusing it changes no bit.
+#[derive(Clone, Copy)]
+struct LastPoint {
+    id: u64,
+    t_s: u64,
+    r: [u64; 3],
+    input: MsisInput,
+    vertical: Vector3<f64>,
+    rho: f64,
+}
+
+thread_local! {
+    static LAST: std::cell::Cell<Option<LastPoint>> = const { std::cell::Cell::new(None) };
+}
+
+impl Thermosphere {
+    /// The input, local vertical and density at (t_s, r_km), from this thread's last
+    /// point when it is the same.
+    fn evaluate(&self, t_s: f64, r_km: &Vector3<f64>) -> Result<LastPoint, String> {
+        let key = (
+            self.id,
+            t_s.to_bits(),
+            [r_km[0].to_bits(), r_km[1].to_bits(), r_km[2].to_bits()],
+        );
+        if let Some(last) = LAST.with(|c| c.get()) {
+            if (last.id, last.t_s, last.r) == key {
+                return Ok(last);
+            }
+        }
+        let (input, vertical) = self.input_and_vertical(t_s, r_km)?;
+        checked(&input)?;
+        let point = LastPoint {
+            id: key.0,
+            t_s: key.1,
+            r: key.2,
+            input,
+            vertical,
+            rho: nrlmsise00(&input).mass_density_kg_m3,
+        };
+        LAST.with(|c| c.set(Some(point)));
+        Ok(point)
+    }
+}
+
 /// NaN or below the ground: no density.
 fn checked(input: &MsisInput) -> Result<(), String> {
     if input.altitude_km.is_nan() || input.altitude_km <= -5.0 {
@@ -100,9 +150,7 @@ impl Atmosphere for Thermosphere {
     }
 
     fn density_at(&self, t_s: f64, r_km: &Vector3<f64>, _h_km: f64) -> Result<f64, String> {
-        let input = self.input(t_s, r_km)?;
-        checked(&input)?;
-        Ok(nrlmsise00(&input).mass_density_kg_m3)
+        self.evaluate(t_s, r_km).map(|p| p.rho)
     }
 
     /// The vertical gradient only, by a forward difference of 1 m in altitude at the same
@@ -116,15 +164,13 @@ impl Atmosphere for Thermosphere {
         _altitude: &dyn Fn(&Vector3<f64>) -> f64,
     ) -> Result<(f64, Vector3<f64>), String> {
         const STEP_KM: f64 = 1e-3;
-        let (input, vertical) = self.input_and_vertical(t_s, r_km)?;
-        checked(&input)?;
-        let rho = nrlmsise00(&input).mass_density_kg_m3;
+        let p = self.evaluate(t_s, r_km)?;
         let above = MsisInput {
-            altitude_km: input.altitude_km + STEP_KM,
-            ..input
+            altitude_km: p.input.altitude_km + STEP_KM,
+            ..p.input
         };
-        let slope = (nrlmsise00(&above).mass_density_kg_m3 - rho) / STEP_KM;
-        Ok((rho, vertical * slope))
+        let slope = (nrlmsise00(&above).mass_density_kg_m3 - p.rho) / STEP_KM;
+        Ok((p.rho, p.vertical * slope))
     }
 
     fn name(&self) -> &str {
