@@ -314,6 +314,18 @@ pub struct EarthOrientationSpec {
     pub file: String,
 }
 
+/// The Earth orientation `orientation` names (relative to `forces_path`'s folder), or the
+/// shipped table.
+fn orientation_or_shipped(
+    orientation: Option<&EarthOrientationSpec>,
+    forces_path: &Path,
+) -> Result<crate::earth::EarthOrientation, String> {
+    match orientation {
+        Some(o) => o.load(forces_path),
+        None => crate::earth::EarthOrientation::shipped(),
+    }
+}
+
 impl EarthOrientationSpec {
     /// The Earth orientation from this file (relative to `forces_path`'s folder).
     pub fn load(&self, forces_path: &Path) -> Result<crate::earth::EarthOrientation, String> {
@@ -384,10 +396,7 @@ impl GravitySpec {
             false => None,
         };
         let harmonics = crate::earth::Harmonics::new(field, degree, self.order.unwrap_or(degree))?;
-        let earth = match orientation {
-            Some(o) => o.load(path)?,
-            None => crate::earth::EarthOrientation::shipped()?,
-        };
+        let earth = orientation_or_shipped(orientation, path)?;
         let mut force = crate::force::field::FieldGravity::new(
             harmonics,
             earth,
@@ -451,10 +460,7 @@ impl DragSpec {
             AtmosphereSpec::Nrlmsise00(n) => {
                 // The model's altitude is geodetic on WGS-84, whatever `altitude` says.
                 altitude = AltitudeModel::Geodetic;
-                let earth = match orientation {
-                    Some(o) => o.load(path)?,
-                    None => crate::earth::EarthOrientation::shipped()?,
-                };
+                let earth = orientation_or_shipped(orientation, path)?;
                 let weather = n.weather(path)?;
                 // A table for another period fails here, before any propagation.
                 let (mjd, seconds) = reference.utc_mjd_and_seconds();

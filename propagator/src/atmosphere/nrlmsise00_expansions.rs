@@ -104,13 +104,9 @@ impl LowerPhases {
 /// The phases of each coefficient table, computed once per process; a set is found by
 /// its address among the tables (any other set gets its phases computed on the spot).
 struct PhaseTables {
-    upper: Vec<(*const [f64; 150], UpperPhases)>,
-    lower: Vec<(*const [f64; 100], LowerPhases)>,
+    upper: Vec<(usize, UpperPhases)>,
+    lower: Vec<(usize, LowerPhases)>,
 }
-
-// SAFETY: the raw pointers are addresses of immutable statics, used only for comparison.
-unsafe impl Send for PhaseTables {}
-unsafe impl Sync for PhaseTables {}
 
 fn phase_tables() -> &'static PhaseTables {
     static TABLES: std::sync::OnceLock<PhaseTables> = std::sync::OnceLock::new();
@@ -122,31 +118,31 @@ fn phase_tables() -> &'static PhaseTables {
         PhaseTables {
             upper: upper
                 .into_iter()
-                .map(|p| (p as *const _, UpperPhases::of(p)))
+                .map(|p| (p.as_ptr() as usize, UpperPhases::of(p)))
                 .collect(),
             lower: lower
                 .into_iter()
-                .map(|p| (p as *const _, LowerPhases::of(p)))
+                .map(|p| (p.as_ptr() as usize, LowerPhases::of(p)))
                 .collect(),
         }
     })
 }
 
 fn upper_phases(p: &[f64; 150]) -> UpperPhases {
-    let key = p as *const [f64; 150];
+    let key = p.as_ptr() as usize;
     phase_tables()
         .upper
         .iter()
-        .find(|(k, _)| std::ptr::eq(*k, key))
+        .find(|(k, _)| *k == key)
         .map_or_else(|| UpperPhases::of(p), |(_, ph)| *ph)
 }
 
 fn lower_phases(p: &[f64; 100]) -> LowerPhases {
-    let key = p as *const [f64; 100];
+    let key = p.as_ptr() as usize;
     phase_tables()
         .lower
         .iter()
-        .find(|(k, _)| std::ptr::eq(*k, key))
+        .find(|(k, _)| *k == key)
         .map_or_else(|| LowerPhases::of(p), |(_, ph)| *ph)
 }
 

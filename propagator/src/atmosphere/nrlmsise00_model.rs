@@ -75,7 +75,7 @@ pub struct MsisOutput {
 pub fn nrlmsise00(input: &MsisInput) -> MsisOutput {
     let point = Point::new(input);
     let (n, tinf, tz) = if input.altitude_km >= ZN2[0] {
-        let upper = thermosphere(&point, input.altitude_km);
+        let upper = thermosphere_for(&point, input.altitude_km, true);
         (upper.n, upper.tinf, upper.tz)
     } else {
         lower_atmosphere(&point, input.altitude_km)
@@ -300,11 +300,7 @@ struct Upper {
     magnetic: Magnetic,
 }
 
-/// Which species the thermosphere computes: all, or N2 alone (below `ZMIX`).
-fn thermosphere(pt: &Point, alt: f64) -> Upper {
-    thermosphere_for(pt, alt, true)
-}
-
+/// The thermosphere at `alt`: all species, or N2 alone (`all` false, below `ZMIX`).
 fn thermosphere_for(pt: &Point, alt: f64, all: bool) -> Upper {
     let mut m = Magnetic::default();
     let za = PDL[1][15];

@@ -220,49 +220,23 @@ fn parse_row(line: &str) -> Result<(i64, Day), String> {
     Ok((mjd, day))
 }
 
-/// MJD of an ISO date `YYYY-MM-DD` (proleptic Gregorian).
+/// MJD of an ISO date `YYYY-MM-DD`, read by the project's strict epoch parser.
 pub fn mjd_of_date(text: &str) -> Result<i64, String> {
     let bad = || format!("date {text:?} is not YYYY-MM-DD");
-    let parts: Vec<&str> = text.split('-').collect();
-    if parts.len() != 3 || parts[0].len() != 4 || parts[1].len() != 2 || parts[2].len() != 2 {
+    if text.len() != 10 || text.contains(['T', 'Z', ' ']) {
         return Err(bad());
     }
-    let y: i32 = parts[0].parse().map_err(|_| bad())?;
-    let m: u32 = parts[1].parse().map_err(|_| bad())?;
-    let d: u32 = parts[2].parse().map_err(|_| bad())?;
-    let leap = (y % 4 == 0 && y % 100 != 0) || y % 400 == 0;
-    let month_days = [
-        31,
-        if leap { 29 } else { 28 },
-        31,
-        30,
-        31,
-        30,
-        31,
-        31,
-        30,
-        31,
-        30,
-        31,
-    ];
-    if !(1..=12).contains(&m) || d < 1 || d > month_days[(m - 1) as usize] {
-        return Err(bad());
-    }
-    Ok(days_from_civil(y, m, d) + MJD_OF_1900)
+    crate::time::Epoch::parse_utc(&format!("{text}T00:00:00Z"))
+        .map(|e| e.utc_mjd_and_seconds().0)
+        .map_err(|_| bad())
 }
 
 /// MJD of 1900-01-01, the origin of [`days_from_civil`].
 const MJD_OF_1900: i64 = 15_020;
 
-/// (year, month, day) of an MJD.
-pub fn ymd_of_mjd(mjd: i64) -> (i64, i64, i64) {
-    let (y, m, d) = civil_from_days(mjd - MJD_OF_1900);
-    (i64::from(y), i64::from(m), i64::from(d))
-}
-
 /// ISO date of an MJD.
 pub fn date_of_mjd(mjd: i64) -> String {
-    let (y, m, d) = ymd_of_mjd(mjd);
+    let (y, m, d) = civil_from_days(mjd - MJD_OF_1900);
     format!("{y:04}-{m:02}-{d:02}")
 }
 
