@@ -246,3 +246,76 @@ fn forces_yaml_loads_plugins_relative_to_the_file() {
         "{e}"
     );
 }
+
+/// The drag of a forces file with `atmosphere`, as the host hands it to plugins.
+fn host_drag(atmosphere: &str) -> std::sync::Arc<propagator::force::drag::Drag> {
+    let path = Path::new("forces.yaml");
+    let text = format!(
+        "gravity: {{ zonal_degree: 2 }}\ndrag: {{ atmosphere: {atmosphere}, cd: 2.2, area_m2: 1.0, mass_kg: 100.0 }}\n"
+    );
+    let spec = propagator::config::ForcesFile::parse(&text, path).unwrap();
+    let drag = spec.drag.as_ref().unwrap();
+    std::sync::Arc::new(
+        drag.build(&spec.central_body, path, &reference(), None)
+            .unwrap(),
+    )
+}
+
+#[test]
+fn a_plugin_reading_the_host_density_gets_it_through_the_c_header_layout() {
+    // A hand-written C plugin compiled against the shipped header: its `_in` entry point
+    // returns the density and gradient it was handed, so the struct layout of
+    // `arcwise_environment` is checked against the host's `plugin::Environment`.
+    let dir = tempfile::tempdir().unwrap();
+    let header =
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("propagator/include/arcwise_force_plugin.h");
+    let meta = common::C_PLUGIN_META.replace(
+        r#"\"validity\":null"#,
+        r#"\"validity\":null,\"host_density\":\"nrlmsise00\""#,
+    );
+    let head = format!(
+        "#include \"{}\"\n\
+         uint32_t arcwise_plugin_abi_version(void) {{ return 1; }}\n\
+         const char *arcwise_plugin_metadata(void) {{ return \"{meta}\"; }}\n\
+         int32_t arcwise_plugin_acceleration(double t, const double s[6], double out[3]) {{ return ARCWISE_ERR_NEEDS_HOST_INPUT; }}\n",
+        header.display()
+    );
+    let with_in = format!(
+        "{head}int32_t arcwise_plugin_acceleration_in(double t, const double s[6], const arcwise_environment *e, double out[3]) {{\n\
+         out[0] = e->density_kg_m3 * 1e3; out[1] = e->density_gradient[0] * 1e3; out[2] = e->density_gradient[2] * 1e3; return 0; }}\n"
+    );
+    let so = common::c_plugin(dir.path(), "hostrho", &with_in);
+    let msis = host_drag("{ nrlmsise00: { f107: 150, f107a: 150, ap: 12 } }");
+    let plugin = PluginForce::load_in(&so, &reference(), None, Some(msis.clone())).unwrap();
+    let x = leo();
+    let r = nalgebra::Vector3::new(x[0], x[1], x[2]);
+    let (rho, g) = msis.density_and_gradient(100.0, &r).unwrap();
+    let a = plugin.acceleration(100.0, &x).unwrap();
+    assert!(rho > 1e-14 && g.norm() > 0.0);
+    assert_eq!([a[0], a[1], a[2]], [rho * 1e3, g[0] * 1e3, g[2] * 1e3]);
+    // Without a drag, or beside another atmosphere: refused, naming why.
+    let e = PluginForce::load(&so, &reference(), None)
+        .unwrap_err()
+        .to_string();
+    assert!(
+        e.contains("libhostrho.so") && e.contains("nrlmsise00"),
+        "{e}"
+    );
+    let e = PluginForce::load_in(&so, &reference(), None, Some(host_drag("ussa1976")))
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("uses `ussa1976`"), "{e}");
+    // Metadata asking for the density without the `_in` entry point: refused.
+    let without = common::c_plugin(dir.path(), "noin", &head);
+    let e = PluginForce::load_in(&without, &reference(), None, Some(msis.clone()))
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("no `arcwise_plugin_acceleration_in`"), "{e}");
+    // A control character in the key never reaches a message.
+    let odd = head.replace("nrlmsise00", "nrl\\\\nmsise00");
+    let odd = common::c_plugin(dir.path(), "odd", &odd);
+    let e = PluginForce::load_in(&odd, &reference(), None, Some(msis))
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("host_density") && !e.contains('\n'), "{e}");
+}

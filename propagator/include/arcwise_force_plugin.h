@@ -38,6 +38,17 @@ extern "C" {
 #define ARCWISE_ERR_NON_FINITE 2      /* the computed acceleration is NaN or infinite */
 #define ARCWISE_ERR_PANIC 3           /* the implementation failed internally */
 #define ARCWISE_ERR_BAD_ARGUMENT 4    /* a null pointer, or a non-finite input the answer depends on */
+#define ARCWISE_ERR_NEEDS_HOST_INPUT 5 /* reads the host's environment; call the _in entry point */
+
+/*
+ * What a host passes to a plugin whose metadata names a "host_density": the drag
+ * density at the call's time and position, and its gradient with respect to the ECI
+ * position (for the partials).
+ */
+typedef struct arcwise_environment {
+    double density_kg_m3;            /* kg/m^3 */
+    double density_gradient[3];      /* kg/m^3 per km, ECI */
+} arcwise_environment;
 
 /* The ABI version the plugin implements; hosts refuse anything but the one they know. */
 uint32_t arcwise_plugin_abi_version(void);
@@ -58,6 +69,12 @@ uint32_t arcwise_plugin_abi_version(void);
  *                          With "warn" the host checks the window itself and warns
  *                          its user once when the plugin is used outside it.
  *   "units"                { "time": "s", "state": "km, km/s", "acceleration": "km/s^2" }
+ *   "host_density"         optional: the drag atmosphere (e.g. "nrlmsise00") whose
+ *                          density the plugin reads from the host. Such a plugin exports
+ *                          the _in entry points below; a host must call them, and must
+ *                          refuse the plugin when its own drag is another atmosphere or
+ *                          absent. Its plain entry points return
+ *                          ARCWISE_ERR_NEEDS_HOST_INPUT.
  */
 const char *arcwise_plugin_metadata(void);
 
@@ -77,6 +94,16 @@ int32_t arcwise_plugin_acceleration_batch(size_t n, const double *t_s, const dou
  * that integrate variational equations use it instead of finite differences.
  */
 int32_t arcwise_plugin_partials(double t_s, const double state[6], double out[18]);
+
+/*
+ * For plugins with "host_density": as arcwise_plugin_acceleration and
+ * arcwise_plugin_partials, with the host's environment at (t_s, state). A null or
+ * non-finite environment is ARCWISE_ERR_BAD_ARGUMENT. The partials one is optional.
+ */
+int32_t arcwise_plugin_acceleration_in(double t_s, const double state[6],
+                                       const arcwise_environment *env, double out[3]);
+int32_t arcwise_plugin_partials_in(double t_s, const double state[6],
+                                   const arcwise_environment *env, double out[18]);
 
 #ifdef __cplusplus
 }

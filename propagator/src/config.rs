@@ -735,11 +735,15 @@ impl ForcesFile {
             model.push(g);
         }
         let mut altitude = AltitudeModel::Spherical;
+        // The drag, shared (its atmosphere is behind an `Arc`) with plugins that read its
+        // density.
+        let mut host_drag = None;
         if let Some(d) = &self.drag {
             let drag = d
                 .build(&body, path, &reference, self.earth_orientation.as_ref())
                 .map_err(|m| config_error(path, m))?;
             altitude = drag.altitude;
+            host_drag = Some(std::sync::Arc::new(drag.clone()));
             model = model.with(drag);
         }
         let clock = CenturyClock::new(&reference);
@@ -796,8 +800,13 @@ impl ForcesFile {
                 Some(Ok(force)) => model.push(force),
                 Some(Err(e)) => return Err(config_error(path, format!("plugins: {e}"))),
                 None => {
-                    let force = PluginForce::load(&resolved, &reference, spec.checksum())
-                        .map_err(|e| config_error(path, format!("plugins: {e}")))?;
+                    let force = PluginForce::load_in(
+                        &resolved,
+                        &reference,
+                        spec.checksum(),
+                        host_drag.clone(),
+                    )
+                    .map_err(|e| config_error(path, format!("plugins: {e}")))?;
                     model.push(Box::new(force));
                 }
             }

@@ -99,6 +99,7 @@ pub fn metadata() -> Metadata {
         source_checksum: None,
         validity: None,
         units: Units::default(),
+        host_density: None,
     }
 }
 

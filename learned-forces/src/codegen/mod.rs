@@ -129,9 +129,11 @@ pub fn straight_line(program: &Program) -> String {
     s
 }
 
-/// The plugin metadata for a learned file.
-pub fn metadata(file: &LearnedFile, name: &str) -> Metadata {
+/// The plugin metadata for a learned file; `host_density` when its `rho` is the host's
+/// NRLMSISE-00 density.
+fn metadata(file: &LearnedFile, name: &str, host_density: bool) -> Metadata {
     Metadata {
+        host_density: host_density.then(|| "nrlmsise00".to_string()),
         abi_version: ABI_VERSION,
         name: name.to_string(),
         frame: "ECI".into(),
@@ -162,11 +164,9 @@ pub fn generate(file: &LearnedFile, name: &str) -> Result<String, BuildError> {
     let program = Program::compile(&nodes, &coefs, &params);
     let needs = program.needs();
     let env = file.environment().map_err(BuildError)?;
-    if needs.density && env.density == crate::expr::Density::Host {
-        return Err(BuildError(
-            "this learned force reads rho, the host's NRLMSISE-00 density, which a native plugin cannot compute yet: use the learned file itself in `plugins:` (evaluated in process with the forces file's drag)".into(),
-        ));
-    }
+    // The host passes its density through the `_in` entry points (a plugin cannot
+    // compute NRLMSISE-00 without the run's Earth orientation and space weather).
+    let host = needs.density && env.density == crate::expr::Density::Host;
     let epoch = Epoch::parse_utc(&file.epoch_utc).map_err(|e| BuildError(e.to_string()))?;
     let start =
         Epoch::parse_utc(&file.validity.start_utc).map_err(|e| BuildError(e.to_string()))?;
@@ -184,8 +184,8 @@ pub fn generate(file: &LearnedFile, name: &str) -> Result<String, BuildError> {
         OutsidePolicy::Zero => 1,
         OutsidePolicy::Refuse => 2,
     };
-    let meta =
-        serde_json::to_string(&metadata(file, name)).map_err(|e| BuildError(e.to_string()))?;
+    let meta = serde_json::to_string(&metadata(file, name, host))
+        .map_err(|e| BuildError(e.to_string()))?;
     // Everything from the file reaches the source only as a checked value, a printed
     // (parsed) formula or an escaped literal: a newline in a name or a formula's text
     // must never become a line of code.
@@ -203,7 +203,7 @@ pub fn generate(file: &LearnedFile, name: &str) -> Result<String, BuildError> {
 //!
 //! The force, km/s² in ECI, t in s from {epoch}:
 {formulas}
-#![allow(clippy::all, unused_parens, unused_variables, non_upper_case_globals)]
+#![allow(clippy::all, unused_parens, unused_variables, unused_mut, non_upper_case_globals)]
 
 #[path = "runtime.rs"]
 mod runtime;
@@ -223,6 +223,26 @@ const POLICY: u8 = {policy};
 const NEED: Need = Need {{ rtn: {need_rtn}, u: {need_u}, rho: {need_rho}, sun: {need_sun}, lit: {need_lit} }};
 // What `rho` and `h` mean: the known model's atmosphere and altitude.
 const ENV: Env = {env};
+// Whether `rho` is the host's density, passed through the `_in` entry points.
+const HOST: bool = {host};
+
+/// What the host passes to the `_in` entry points (`arcwise_environment`).
+#[repr(C)]
+pub struct Environment {{
+    /// kg/m³.
+    pub density_kg_m3: f64,
+    /// ∂ρ/∂r, kg/m³ per km, ECI.
+    pub density_gradient: [f64; 3],
+}}
+
+/// The terminals, with the host's density when it passes one.
+fn terminals_at<N: Num>(t: f64, r: [N; 3], v: [N; 3], env: Option<&Environment>) -> P<N> {{
+    let mut p = terminals_for::<N>(t, r, v, RE, W, T0C, NEED, &ENV);
+    if let (true, Some(e)) = (NEED.rho, env) {{
+        p.rho = host_rho(e.density_kg_m3, e.density_gradient, p.r);
+    }}
+    p
+}}
 
 fn eval<N: Num>(p: &P<N>) -> [N; 3] {{
 {body}}}
@@ -258,7 +278,10 @@ fn inputs_finite(t: f64, s: &[f64]) -> bool {{
     all_finite(s) && (t * 0.0) == 0.0
 }}
 
-fn accel(t: f64, s: &[f64], out: &mut [f64]) -> i32 {{
+fn accel(t: f64, s: &[f64], env: Option<&Environment>, out: &mut [f64]) -> i32 {{
+    if HOST && env.is_none() {{
+        return 5;
+    }}
     // Inputs are checked off the fast path only: a non-finite t or position fails the
     // validity gate (NaN compares false), and any non-finite input the force depends on
     // makes the result non-finite, which is checked. What is left is an input the
@@ -278,7 +301,7 @@ fn accel(t: f64, s: &[f64], out: &mut [f64]) -> i32 {{
             return 0;
         }}
     }}
-    let p = terminals_for::<f64>(t, [s[0], s[1], s[2]], [s[3], s[4], s[5]], RE, W, T0C, NEED, &ENV);
+    let p = terminals_at::<f64>(t, [s[0], s[1], s[2]], [s[3], s[4], s[5]], env);
     let a = eval(&p);
     // Stored before the check (the ABI leaves `out` unspecified on error), so the
     // stores need not wait for the test.
@@ -303,7 +326,34 @@ pub unsafe extern "C" fn arcwise_plugin_acceleration(t: f64, state: *const f64, 
     }}
     let s = unsafe {{ std::slice::from_raw_parts(state, 6) }};
     let o = unsafe {{ std::slice::from_raw_parts_mut(out, 3) }};
-    catch_unwind(AssertUnwindSafe(|| accel(t, s, o))).unwrap_or(3)
+    catch_unwind(AssertUnwindSafe(|| accel(t, s, None, o))).unwrap_or(3)
+}}
+
+/// The host's environment, when `env` points to a finite one.
+///
+/// # Safety
+/// `env` is null or points to an `Environment`.
+unsafe fn environment<'a>(env: *const Environment) -> Option<&'a Environment> {{
+    let e = unsafe {{ env.as_ref() }}?;
+    let g = e.density_gradient;
+    all_finite(&[e.density_kg_m3, g[0], g[1], g[2]]).then_some(e)
+}}
+
+/// As `arcwise_plugin_acceleration`, with the host's environment.
+///
+/// # Safety
+/// `state` points to 6 doubles, `env` to an `Environment`, `out` to 3 writable doubles.
+#[no_mangle]
+pub unsafe extern "C" fn arcwise_plugin_acceleration_in(t: f64, state: *const f64, env: *const Environment, out: *mut f64) -> i32 {{
+    if state.is_null() || out.is_null() {{
+        return 4;
+    }}
+    let Some(e) = (unsafe {{ environment(env) }}) else {{
+        return 4;
+    }};
+    let s = unsafe {{ std::slice::from_raw_parts(state, 6) }};
+    let o = unsafe {{ std::slice::from_raw_parts_mut(out, 3) }};
+    catch_unwind(AssertUnwindSafe(|| accel(t, s, Some(e), o))).unwrap_or(3)
 }}
 
 /// # Safety
@@ -323,7 +373,32 @@ pub unsafe extern "C" fn arcwise_plugin_acceleration_batch(n: usize, t: *const f
 }}
 
 /// ∂a/∂(r, v), 3×6 row-major, by dual numbers.
-///
+fn partials(t: f64, s: &[f64], env: Option<&Environment>, o: &mut [f64]) -> i32 {{
+    if HOST && env.is_none() {{
+        return 5;
+    }}
+    if !inputs_finite(t, s) {{
+        return 4;
+    }}
+    match gate(t, s) {{
+        1 => {{
+            o.iter_mut().for_each(|x| *x = 0.0);
+            return 0;
+        }}
+        2 => return 1,
+        _ => {{}}
+    }}
+    let d = |k: usize| Dual::var(s[k], k);
+    let p = terminals_at::<Dual>(t, [d(0), d(1), d(2)], [d(3), d(4), d(5)], env);
+    let a = eval(&p);
+    for i in 0..3 {{
+        for j in 0..6 {{
+            o[i * 6 + j] = a[i].d[j];
+        }}
+    }}
+    if all_finite(o) {{ 0 }} else {{ 2 }}
+}}
+
 /// # Safety
 /// `state` points to 6 doubles, `out` to 18 writable doubles.
 #[no_mangle]
@@ -333,29 +408,24 @@ pub unsafe extern "C" fn arcwise_plugin_partials(t: f64, state: *const f64, out:
     }}
     let s = unsafe {{ std::slice::from_raw_parts(state, 6) }};
     let o = unsafe {{ std::slice::from_raw_parts_mut(out, 18) }};
-    catch_unwind(AssertUnwindSafe(|| {{
-        if !inputs_finite(t, s) {{
-            return 4;
-        }}
-        match gate(t, s) {{
-            1 => {{
-                o.iter_mut().for_each(|x| *x = 0.0);
-                return 0;
-            }}
-            2 => return 1,
-            _ => {{}}
-        }}
-        let d = |k: usize| Dual::var(s[k], k);
-        let p = terminals_for::<Dual>(t, [d(0), d(1), d(2)], [d(3), d(4), d(5)], RE, W, T0C, NEED, &ENV);
-        let a = eval(&p);
-        for i in 0..3 {{
-            for j in 0..6 {{
-                o[i * 6 + j] = a[i].d[j];
-            }}
-        }}
-        if all_finite(o) {{ 0 }} else {{ 2 }}
-    }}))
-    .unwrap_or(3)
+    catch_unwind(AssertUnwindSafe(|| partials(t, s, None, o))).unwrap_or(3)
+}}
+
+/// As `arcwise_plugin_partials`, with the host's environment.
+///
+/// # Safety
+/// `state` points to 6 doubles, `env` to an `Environment`, `out` to 18 writable doubles.
+#[no_mangle]
+pub unsafe extern "C" fn arcwise_plugin_partials_in(t: f64, state: *const f64, env: *const Environment, out: *mut f64) -> i32 {{
+    if state.is_null() || out.is_null() {{
+        return 4;
+    }}
+    let Some(e) = (unsafe {{ environment(env) }}) else {{
+        return 4;
+    }};
+    let s = unsafe {{ std::slice::from_raw_parts(state, 6) }};
+    let o = unsafe {{ std::slice::from_raw_parts_mut(out, 18) }};
+    catch_unwind(AssertUnwindSafe(|| partials(t, s, Some(e), o))).unwrap_or(3)
 }}
 "#,
         name = name,
@@ -383,6 +453,7 @@ pub unsafe extern "C" fn arcwise_plugin_partials(t: f64, state: *const f64, out:
         need_u = needs.arglat,
         need_rho = needs.density,
         env = env_literal(&env),
+        host = host,
     );
     Ok(src)
 }

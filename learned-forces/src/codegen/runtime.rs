@@ -271,7 +271,7 @@ pub enum Density {
         scale_height_km: f64,
     },
     /// The host's drag density (NRLMSISE-00: position, time and space weather), which
-    /// the host supplies at each evaluation; a plugin cannot compute it (NaN here).
+    /// the host supplies at each evaluation (NaN here; see [`host_rho`]).
     Host,
 }
 
@@ -325,6 +325,18 @@ impl Env {
             Density::Host => N::cst(f64::NAN),
         }
     }
+}
+
+/// The host's density `rho` (kg/m³), with its ECI gradient `g` (kg/m³ per km), as a
+/// function of the position `r`: the value exactly `rho`, the first derivatives `g`.
+pub fn host_rho<N: Num>(rho: f64, g: [f64; 3], r: [N; 3]) -> N {
+    // r − r.val() is exactly zero in value and carries r's derivatives.
+    let dr = [
+        r[0] - N::cst(r[0].val()),
+        r[1] - N::cst(r[1].val()),
+        r[2] - N::cst(r[2].val()),
+    ];
+    N::cst(rho) + dot3([N::cst(g[0]), N::cst(g[1]), N::cst(g[2])], dr)
 }
 
 const AU_KM: f64 = 149_597_870.7;

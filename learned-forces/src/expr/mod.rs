@@ -481,12 +481,7 @@ impl HostDensity {
     fn rho<N: Num>(&self, t: f64, r: [N; 3]) -> N {
         let rv = nalgebra::Vector3::new(r[0].val(), r[1].val(), r[2].val());
         match self.0.density_and_gradient(t, &rv) {
-            Ok((rho, g)) => {
-                N::cst(rho - g.dot(&rv))
-                    + N::cst(g[0]) * r[0]
-                    + N::cst(g[1]) * r[1]
-                    + N::cst(g[2]) * r[2]
-            }
+            Ok((rho, g)) => crate::codegen::runtime::host_rho(rho, [g[0], g[1], g[2]], r),
             Err(_) => N::cst(f64::NAN),
         }
     }

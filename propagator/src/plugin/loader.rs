@@ -8,7 +8,8 @@
 //!
 //! A plugin is native code and runs with the rights of the user who loads it.
 
-use super::{status_text, Metadata, Validity, ABI_VERSION};
+use super::{status_text, Environment, Metadata, Validity, ABI_VERSION};
+use crate::force::drag::Drag;
 use crate::force::{Force, ForceError};
 use crate::state::StateVector;
 use crate::time::Epoch;
@@ -24,6 +25,8 @@ type MetadataFn = unsafe extern "C" fn() -> *const c_char;
 type AccelerationFn = unsafe extern "C" fn(f64, *const f64, *mut f64) -> i32;
 type BatchFn = unsafe extern "C" fn(usize, *const f64, *const f64, *mut f64) -> i32;
 type PartialsFn = unsafe extern "C" fn(f64, *const f64, *mut f64) -> i32;
+type AccelerationInFn = unsafe extern "C" fn(f64, *const f64, *const Environment, *mut f64) -> i32;
+type PartialsInFn = unsafe extern "C" fn(f64, *const f64, *const Environment, *mut f64) -> i32;
 
 /// Why a plugin was refused.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -54,6 +57,9 @@ pub struct PluginForce {
     offset_s: f64,
     /// For an `outside: warn` plugin: the window the host watches.
     watch: Option<Watch>,
+    /// For a plugin that reads the host's density: the host's drag and the entry points
+    /// that take it.
+    host: Option<HostInput>,
     // Declared last: dropped after the function pointers above are no longer usable.
     _library: Arc<Library>,
 }
@@ -127,6 +133,77 @@ impl Watch {
         if !inside && !self.seen.swap(true, Ordering::Relaxed) {
             crate::notice::warn_once(self.warning.clone());
         }
+    }
+}
+
+/// The `_in` entry points of a plugin that reads the host's density, and the drag whose
+/// density (on the host's time axis) it is given.
+struct HostInput {
+    drag: Arc<Drag>,
+    acceleration: AccelerationInFn,
+    partials: Option<PartialsInFn>,
+}
+
+impl HostInput {
+    /// The plugin's symbols, checked against what its metadata says it reads and what the
+    /// host offers.
+    fn bind(
+        library: &Library,
+        metadata: &Metadata,
+        host_drag: Option<Arc<Drag>>,
+        path: &Path,
+    ) -> Result<Option<HostInput>, PluginError> {
+        let Some(model) = &metadata.host_density else {
+            return Ok(None);
+        };
+        // Text from the plugin reaches messages: a plain name only.
+        crate::text::check_name("metadata host_density", model).map_err(|m| refuse(path, m))?;
+        let drag = host_drag.ok_or_else(|| {
+            refuse(
+                path,
+                format!("it reads the host's `{model}` drag density: list it in the plugins: of a forces file whose drag uses atmosphere {model}"),
+            )
+        })?;
+        let have = drag.atmosphere.name();
+        if have != model {
+            return Err(refuse(
+                path,
+                format!("it reads the host's `{model}` drag density, but the forces file's drag uses `{have}`: its density would mean another atmosphere"),
+            ));
+        }
+        // SAFETY: the symbol types are those of arcwise_force_plugin.h.
+        let acceleration: AccelerationInFn = unsafe {
+            *library
+                .get::<AccelerationInFn>(b"arcwise_plugin_acceleration_in")
+                .map_err(|_| {
+                    refuse(
+                        path,
+                        "its metadata says it reads the host's density, but it has no `arcwise_plugin_acceleration_in`",
+                    )
+                })?
+        };
+        // SAFETY: as above.
+        let partials: Option<PartialsInFn> = unsafe {
+            library
+                .get::<PartialsInFn>(b"arcwise_plugin_partials_in")
+                .ok()
+                .map(|s| *s)
+        };
+        Ok(Some(HostInput {
+            drag,
+            acceleration,
+            partials,
+        }))
+    }
+
+    /// The environment at host time `t_s` and state `x`.
+    fn at(&self, t_s: f64, x: &StateVector) -> Result<Environment, ForceError> {
+        let r = Vector3::new(x[0], x[1], x[2]);
+        let (rho, g) = self.drag.density_and_gradient(t_s, &r)?;
+        Ok(Environment {
+            density_kg_m3: rho,
+            density_gradient: [g[0], g[1], g[2]],
+        })
     }
 }
 
@@ -223,11 +300,25 @@ fn check_magic(path: &Path) -> Result<(), PluginError> {
 impl PluginForce {
     /// Loads and checks the plugin at `path` (explicit; never searched for), for a force
     /// model whose time axis starts at `reference`. `expected_checksum`, when given, must
-    /// equal the plugin's `source_checksum`.
+    /// equal the plugin's `source_checksum`. A plugin that reads the host's density is
+    /// refused here ([`Self::load_in`] gives it one).
     pub fn load(
         path: &Path,
         reference: &Epoch,
         expected_checksum: Option<&str>,
+    ) -> Result<Self, PluginError> {
+        Self::load_in(path, reference, expected_checksum, None)
+    }
+
+    /// As [`Self::load`], in a force model whose drag is `host_drag` (on the same time
+    /// axis): a plugin whose metadata names a `host_density` is given that drag's density
+    /// and gradient at each call, and refused when the drag is missing or another
+    /// atmosphere.
+    pub fn load_in(
+        path: &Path,
+        reference: &Epoch,
+        expected_checksum: Option<&str>,
+        host_drag: Option<Arc<Drag>>,
     ) -> Result<Self, PluginError> {
         let abs = std::fs::canonicalize(path)
             .map_err(|e| refuse(path, format!("cannot find the file: {e}")))?;
@@ -317,6 +408,7 @@ impl PluginForce {
                 None => return Err(refuse(path, format!("has no source checksum, expected {want}"))),
             }
         }
+        let host = HostInput::bind(&library, &metadata, host_drag, path)?;
         let watch = match &metadata.validity {
             Some(v) if v.outside == "warn" => {
                 Some(Watch::new(v, &plugin_ref, &metadata.name, path)?)
@@ -330,7 +422,9 @@ impl PluginForce {
             watch,
             metadata,
             acceleration,
-            batch,
+            // The batch entry point passes no environment.
+            batch: if host.is_some() { None } else { batch },
+            host,
             partials,
             _library: Arc::new(library),
         })
@@ -341,9 +435,13 @@ impl PluginForce {
         &self.metadata
     }
 
-    /// Whether the plugin exports analytic partials.
+    /// Whether the plugin exports analytic partials (with the host's density, when it
+    /// reads it).
     pub fn has_partials(&self) -> bool {
-        self.partials.is_some()
+        match &self.host {
+            Some(h) => h.partials.is_some(),
+            None => self.partials.is_some(),
+        }
     }
 
     /// Whether the plugin exports the batch entry point.
@@ -446,10 +544,16 @@ impl Force for PluginForce {
             w.observe(t_s + self.offset_s, x);
         }
         let mut out = [0.0f64; 3];
-        // SAFETY: 6 readable and 3 writable doubles, as the ABI requires; the library
-        // stays loaded while `self` lives.
-        let code =
-            unsafe { (self.acceleration)(t_s + self.offset_s, x.as_ptr(), out.as_mut_ptr()) };
+        let t = t_s + self.offset_s;
+        // SAFETY: 6 readable and 3 writable doubles (and one environment), as the ABI
+        // requires; the library stays loaded while `self` lives.
+        let code = match &self.host {
+            None => unsafe { (self.acceleration)(t, x.as_ptr(), out.as_mut_ptr()) },
+            Some(h) => {
+                let env = h.at(t_s, x)?;
+                unsafe { (h.acceleration)(t, x.as_ptr(), &env, out.as_mut_ptr()) }
+            }
+        };
         if code != 0 {
             return Err(self.status_error(t_s, code));
         }
@@ -462,12 +566,20 @@ impl Force for PluginForce {
 
     /// The plugin's analytic partials when it exports them; central differences otherwise.
     fn partials(&self, t_s: f64, x: &StateVector) -> Result<nalgebra::Matrix3x6<f64>, ForceError> {
-        let Some(p) = self.partials else {
-            return crate::force::central_difference_partials(self, t_s, x);
-        };
+        let t = t_s + self.offset_s;
         let mut out = [0.0f64; 18];
-        // SAFETY: 6 readable and 18 writable doubles.
-        let code = unsafe { p(t_s + self.offset_s, x.as_ptr(), out.as_mut_ptr()) };
+        // SAFETY: 6 readable and 18 writable doubles (and one environment).
+        let code = match (&self.host, self.partials) {
+            (Some(h), _) => match h.partials {
+                Some(p) => {
+                    let env = h.at(t_s, x)?;
+                    unsafe { p(t, x.as_ptr(), &env, out.as_mut_ptr()) }
+                }
+                None => return crate::force::central_difference_partials(self, t_s, x),
+            },
+            (None, Some(p)) => unsafe { p(t, x.as_ptr(), out.as_mut_ptr()) },
+            (None, None) => return crate::force::central_difference_partials(self, t_s, x),
+        };
         if code != 0 {
             return Err(self.status_error(t_s, code));
         }

@@ -26,6 +26,21 @@ pub mod status {
     pub const FAILED: i32 = 3;
     /// A null pointer or a non-finite input.
     pub const BAD_ARGUMENT: i32 = 4;
+    /// The plugin reads the host's environment (its metadata's `host_density`) and was
+    /// called through an entry point that does not pass it.
+    pub const NEEDS_HOST_INPUT: i32 = 5;
+}
+
+/// What the host passes to a plugin that reads its environment
+/// (`arcwise_environment` in the header): the drag density at the call's time and
+/// position, and its gradient with respect to the ECI position.
+#[repr(C)]
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct Environment {
+    /// Density, kg/m³.
+    pub density_kg_m3: f64,
+    /// ∂ρ/∂r, kg/m³ per km, ECI.
+    pub density_gradient: [f64; 3],
 }
 
 /// True when every value is finite. x·0 is ±0 for finite x and NaN for NaN or ±∞, so one
@@ -44,6 +59,7 @@ pub fn status_text(code: i32) -> &'static str {
         status::NON_FINITE => "non-finite acceleration",
         status::FAILED => "the plugin failed internally",
         status::BAD_ARGUMENT => "bad argument (null pointer or non-finite input)",
+        status::NEEDS_HOST_INPUT => "the plugin reads the host's density and was called without it",
         _ => "unknown status code",
     }
 }
@@ -66,6 +82,11 @@ pub struct Metadata {
     pub validity: Option<Validity>,
     /// Units, for the reader.
     pub units: Units,
+    /// The atmosphere (by its drag `atmosphere:` key, e.g. `nrlmsise00`) whose density
+    /// the host must pass through the `_in` entry points; `None` for a plugin that
+    /// computes everything itself.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub host_density: Option<String>,
 }
 
 /// A plugin's validity window.
