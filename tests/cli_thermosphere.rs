@@ -1,8 +1,8 @@
 //! A geomagnetic storm seen through NRLMSISE-00 (examples/scenarios/thermosphere_storm.yaml:
 //! ap 200 for 9 h, 12 h into a 1.5-day 400 km arc, σ 10 m). The known model on the quiet
 //! space-weather table must call the arc an anomaly; the same arc fitted with the storm
-//! table must not (the gate's must-fail and must-stay-quiet cases). Both fits estimate
-//! the drag scale on top.
+//! table must not (the gate's must-fail and must-stay-quiet cases), and `learn` on it
+//! learns nothing. Both fits estimate the drag scale on top.
 
 mod common;
 use common::{arcwise, s, write};
@@ -71,6 +71,26 @@ fn a_storm_is_an_anomaly_on_the_quiet_table_and_not_on_the_storm_table() {
         (value - 1.0).abs() < 4.0 * sigma,
         "drag_scale {value} ± {sigma}"
     );
+
+    // And `learn` on the storm table must learn nothing: a quiet arc on an NRLMSISE-00
+    // known model stays quiet.
+    let report = out.join("learn.json");
+    let (code, stdout, stderr) = arcwise(&[
+        "learn",
+        "--arc",
+        s(&out.join("train.csv")),
+        "--forces",
+        s(&forces),
+        "--out",
+        s(&out.join("learned.yaml")),
+        "--report",
+        s(&report),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    let r: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&report).unwrap()).unwrap();
+    assert_eq!(r["outcome"], "no_anomaly", "{stdout}");
+    assert_eq!(r["terms"].as_array().map(Vec::len), Some(0), "{stdout}");
 }
 
 #[test]
