@@ -222,14 +222,20 @@ impl Node {
     /// orbits some of these are indistinguishable over an arc (a once-per-revolution
     /// radial term and the along-track one in quadrature change the orbit alike; `vrel`
     /// is nearly along `T`), so the learner tries them.
+    ///
+    /// Each variant is simplified: a swap can make a factor trivial (`norm(vrel)` →
+    /// `norm(R)`, which is 1), and the report must show the simpler form it amounts to.
     pub fn direction_variants(&self) -> Vec<Node> {
         let mut out = Vec::new();
         for k in 0..self.size() {
             for pick in 0..SWAPPABLE.len() - 1 {
                 let mut t = self.clone();
                 let mut seen = 0;
-                if t.swap_direction_at(k, pick, &mut seen) && !out.contains(&t) && t != *self {
-                    out.push(t);
+                if t.swap_direction_at(k, pick, &mut seen) {
+                    let t = t.simplify();
+                    if !out.contains(&t) && t != *self && t.ty() == Ok(Ty::Vector) {
+                        out.push(t);
+                    }
                 }
             }
         }
