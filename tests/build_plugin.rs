@@ -539,6 +539,8 @@ fn a_plugin_reads_the_same_atmosphere_and_altitude_as_in_process() {
     let terms = vec![
         ("rho * norm(vrel) * vrel".to_string(), -1e3),
         ("exp(-h / 100) * T".to_string(), 1e-9),
+        // The smooth step through the plugin's own code for it.
+        ("step((h - 500) / 50) * N".to_string(), 1e-9),
     ];
     for (k, env) in environments().into_iter().enumerate() {
         let mut f = file(terms.clone(), OutsidePolicy::Warn);

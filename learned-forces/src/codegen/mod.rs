@@ -85,43 +85,18 @@ fn lit(v: f64) -> String {
     }
 }
 
-/// The body of `fn eval<N: Num>(p: &P<N>) -> [N; 3]`: one `let` per instruction.
+/// The body of `fn eval<N: Num>(p: &P<N>) -> [N; 3]`: one `let` per instruction, each
+/// the formula table's own code for it ([`crate::expr::ops`]).
 pub fn straight_line(program: &Program) -> String {
+    let types = program.types();
     let mut s = String::new();
     for (i, ins) in program.instrs.iter().enumerate() {
-        use Instr::*;
-        let e = match ins {
-            Time => "N::cst(p.t)".to_string(),
-            Alt => "p.h".into(),
-            Rho => "p.rho".into(),
-            ArgLat => "p.u".into(),
-            Lit => "N::cst(p.lit)".into(),
-            Const(c) => format!("N::cst({})", lit(*c)),
-            Pos => "p.r".into(),
-            Vel => "p.v".into(),
-            VelRel => "p.vrel".into(),
-            UnitR => "p.rh".into(),
-            UnitT => "p.th".into(),
-            UnitN => "p.nh".into(),
-            Sun => "[N::cst(p.sun[0]), N::cst(p.sun[1]), N::cst(p.sun[2])]".into(),
-            AddS(a, b) => format!("x{a} + x{b}"),
-            SubS(a, b) => format!("x{a} - x{b}"),
-            MulS(a, b) => format!("x{a} * x{b}"),
-            DivS(a, b) => format!("x{a} / x{b}"),
-            NegS(a) => format!("-x{a}"),
-            Sin(a) => format!("x{a}.sin()"),
-            Cos(a) => format!("x{a}.cos()"),
-            Exp(a) => format!("x{a}.exp()"),
-            Sqrt(a) => format!("x{a}.sqrt()"),
-            Pow(a, k) => format!("x{a}.powi({k})"),
-            Norm(a) => format!("norm3(x{a})"),
-            Dot(a, b) => format!("dot3(x{a}, x{b})"),
-            AddV(a, b) => format!("add3(x{a}, x{b})"),
-            SubV(a, b) => format!("sub3(x{a}, x{b})"),
-            Scale(a, b) => format!("scale3(x{a}, x{b})"),
-            DivV(a, b) => format!("scale3(N::cst(1.0) / x{b}, x{a})"),
-            NegV(a) => format!("neg3(x{a})"),
-            Cross(a, b) => format!("cross3(x{a}, x{b})"),
+        let x = |k: usize| format!("x{k}");
+        let e = match *ins {
+            Instr::Term(t) => t.code().to_string(),
+            Instr::Const(c) => format!("N::cst({})", lit(c)),
+            Instr::Unary(op, a) => op.code(types[a], &x(a)),
+            Instr::Binary(op, a, b) => op.code(types[a], types[b], &x(a), &x(b)),
         };
         let _ = writeln!(s, "    let x{i} = {e};");
     }

@@ -4,7 +4,7 @@
 //! `unary := '-' unary | power`, `power := atom ('^' int | '^(' int ')')?`,
 //! `atom := number | name | function '(' args ')' | '(' sum ')'`.
 
-use super::{Node, Ty};
+use super::{Node, Op1, Op2, Terminal, Ty};
 
 /// A formula that does not parse or type-check, with the character position.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -116,14 +116,9 @@ impl Parser<'_> {
     fn sum(&mut self) -> Result<Node, ParseError> {
         self.enter()?;
         let mut a = self.product()?;
-        while let Some(c @ ('+' | '-')) = self.peek() {
+        while let Some(op) = self.peek().and_then(|c| Op2::infix(c, 1)) {
             self.pos += 1;
-            let rhs = self.product()?;
-            a = if c == '+' {
-                Node::Add(Box::new(a), Box::new(rhs))
-            } else {
-                Node::Sub(Box::new(a), Box::new(rhs))
-            };
+            a = Node::binary(op, a, self.product()?);
         }
         self.depth -= 1;
         Ok(a)
@@ -131,14 +126,9 @@ impl Parser<'_> {
 
     fn product(&mut self) -> Result<Node, ParseError> {
         let mut a = self.unary()?;
-        while let Some(c @ ('*' | '/')) = self.peek() {
+        while let Some(op) = self.peek().and_then(|c| Op2::infix(c, 2)) {
             self.pos += 1;
-            let rhs = self.unary()?;
-            a = if c == '*' {
-                Node::Mul(Box::new(a), Box::new(rhs))
-            } else {
-                Node::Div(Box::new(a), Box::new(rhs))
-            };
+            a = Node::binary(op, a, self.unary()?);
         }
         Ok(a)
     }
@@ -152,7 +142,7 @@ impl Parser<'_> {
             // A negative literal is one constant, so printing and parsing round-trip.
             return Ok(match inner {
                 Node::Const(c) => Node::Const(-c),
-                other => Node::Neg(Box::new(other)),
+                other => Node::unary(Op1::Neg, other),
             });
         }
         self.power()
@@ -188,7 +178,7 @@ impl Parser<'_> {
             if paren {
                 self.expect(')')?;
             }
-            return Ok(Node::Pow(Box::new(base), n));
+            return Ok(Node::unary(Op1::Pow(n), base));
         }
         Ok(base)
     }
@@ -239,23 +229,8 @@ impl Parser<'_> {
             self.pos += 1;
         }
         let name: String = self.chars[start..self.pos].iter().collect();
-        let terminal = match name.as_str() {
-            "t" => Some(Node::Time),
-            "h" => Some(Node::Altitude),
-            "rho" => Some(Node::Density),
-            "u" => Some(Node::ArgLat),
-            "lit" => Some(Node::Lit),
-            "r" => Some(Node::Pos),
-            "v" => Some(Node::Vel),
-            "vrel" => Some(Node::VelRel),
-            "R" => Some(Node::UnitR),
-            "T" => Some(Node::UnitT),
-            "N" => Some(Node::UnitN),
-            "sun" => Some(Node::SunDir),
-            _ => None,
-        };
-        if let Some(t) = terminal {
-            return Ok(t);
+        if let Some(t) = Terminal::from_name(&name) {
+            return Ok(Node::Term(t));
         }
         if let Some(d) = name.strip_prefix('k') {
             if let Ok(i) = d.parse::<usize>() {
@@ -264,36 +239,42 @@ impl Parser<'_> {
                 }
             }
         }
-        let arity = match name.as_str() {
-            "sin" | "cos" | "exp" | "sqrt" | "norm" => 1,
-            "dot" | "cross" => 2,
-            _ => {
-                return Err(self.err_at(
-                    start,
-                    format!("unknown name `{name}` (terminals: t h rho u lit r v vrel R T N sun k0…k9; functions: sin cos exp sqrt norm dot cross)"),
-                ))
-            }
-        };
+        let unary = Op1::CALLS
+            .into_iter()
+            .find(|op| op.call_name() == Some(&name));
+        let binary = Op2::call(&name);
+        if unary.is_none() && binary.is_none() {
+            return Err(self.err_at(start, unknown_name(&name)));
+        }
         self.expect('(')?;
         let a = self.sum()?;
-        let node = if arity == 2 {
-            self.expect(',')?;
-            let c = self.sum()?;
-            match name.as_str() {
-                "dot" => Node::Dot(Box::new(a), Box::new(c)),
-                _ => Node::Cross(Box::new(a), Box::new(c)),
+        let node = match (unary, binary) {
+            (Some(op), _) => Node::unary(op, a),
+            (None, Some(op)) => {
+                self.expect(',')?;
+                Node::binary(op, a, self.sum()?)
             }
-        } else {
-            let a = Box::new(a);
-            match name.as_str() {
-                "sin" => Node::Sin(a),
-                "cos" => Node::Cos(a),
-                "exp" => Node::Exp(a),
-                "sqrt" => Node::Sqrt(a),
-                _ => Node::Norm(a),
-            }
+            (None, None) => return Err(self.err_at(start, unknown_name(&name))),
         };
         self.expect(')')?;
         Ok(node)
     }
+}
+
+/// The error for a name that is no terminal, constant or function, listing them all.
+fn unknown_name(name: &str) -> String {
+    let terminals: Vec<&str> = Terminal::ALL.iter().map(|t| t.name()).collect();
+    let functions: Vec<&str> = Op1::CALLS
+        .iter()
+        .filter_map(|op| op.call_name())
+        .chain(Op2::ALL.iter().filter_map(|op| match op.spelling() {
+            super::Spelling::Call(name) => Some(name),
+            super::Spelling::Infix(..) => None,
+        }))
+        .collect();
+    format!(
+        "unknown name `{name}` (terminals: {} k0…k9; functions: {})",
+        terminals.join(" "),
+        functions.join(" ")
+    )
 }

@@ -64,5 +64,5 @@ fn vector(rng: &mut ChaCha8Rng, depth: usize) -> String {
 /// A random vector-valued tree of depth at most `depth`.
 pub fn vector_tree(rng: &mut ChaCha8Rng, depth: usize) -> Node {
     let text = vector(rng, depth);
-    parse_any(&text).unwrap_or(Node::UnitT)
+    parse_any(&text).unwrap_or(Node::Term(super::Terminal::UnitT))
 }

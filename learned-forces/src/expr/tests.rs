@@ -1,4 +1,7 @@
+use super::num::{cross3, dot3, norm3};
 use super::*;
+use propagator::solar_system::CenturyClock;
+use propagator::StateVector;
 
 fn ctx() -> Context {
     Context {
@@ -22,6 +25,7 @@ fn parses_prints_and_round_trips() {
         "(h - 400)^2 * exp(-h / 58.5) * T",
         "-(cos(u) * R)",
         "t^(-2) * R",
+        "step((t - k0) / k1) * T",
     ] {
         let n = parse(text).unwrap().simplify();
         let printed = n.to_string();
@@ -44,6 +48,7 @@ fn type_and_syntax_errors_are_named() {
         ("t^9 * T", "small non-zero"),
         ("", "end of the formula"),
         ("T $", "unexpected `$`"),
+        ("step(T) * R", "needs a scalar"),
     ] {
         let e = parse(bad).unwrap_err().to_string();
         assert!(e.contains(needle), "{bad}: {e}");
@@ -98,6 +103,7 @@ fn dual_partials_match_central_differences() {
         "cos(u) * R + sin(u) * N",
         "rho * norm(vrel) * vrel",
         "cross(R, sun) * lit / h",
+        "step((norm(r) - 6700) / 10) * T",
     ] {
         let n = parse(text).unwrap();
         let params = [21600.0];
@@ -211,4 +217,34 @@ fn a_long_text_of_multibyte_characters_reports_a_position_inside_it() {
     let text = "Δ".repeat(3000);
     let e = crate::expr::parse(&text).unwrap_err();
     assert!(e.position <= text.chars().count(), "{e}");
+}
+
+#[test]
+fn the_smooth_step_switches_on_with_exact_partials() {
+    // step(x) = 1 / (1 + e^(−x)) (the logistic function, from memory): 1/2 at 0, its
+    // slope 1/4 there, e^x / (1 + e^x)² in general; symmetric: step(−x) = 1 − step(x).
+    let c = ctx();
+    let n = parse("step((t - 40000) / 600) * T").unwrap();
+    let x = StateVector::new(6878.0, 10.0, -20.0, 0.01, 4.8, 5.9);
+    let along = |t: f64| {
+        let p = Terminals::of_state(t, &x, &c);
+        let a = n.eval(&p, &[]).vector();
+        dot3(a, p.th)
+    };
+    assert!((along(40000.0) - 0.5).abs() < 1e-15);
+    assert!(along(30000.0) < 1e-7 && along(50000.0) > 1.0 - 1e-7);
+    assert!((along(40600.0) + along(39400.0) - 1.0).abs() < 1e-15);
+    // The steepest slope, 1/4 per unit of x = 1/(4·600) per second, by central
+    // differences in t.
+    let slope = (along(40001.0) - along(39999.0)) / 2.0;
+    assert!((slope * 2400.0 - 1.0).abs() < 1e-6, "{slope}");
+    // Folded when constant, kept when not; and the plugin's code is its formula.
+    assert_eq!(
+        parse("step(0) * T").unwrap().simplify().to_string(),
+        "0.5 * T"
+    );
+    assert_eq!(
+        Op1::Step.code(Ty::Scalar, "x0"),
+        "N::cst(1.0) / (N::cst(1.0) + (-x0).exp())"
+    );
 }

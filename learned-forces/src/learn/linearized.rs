@@ -435,9 +435,11 @@ impl Problem {
 
 /// Whether the argument of latitude appears other than as the argument of sin or cos.
 fn bare_angle(n: &Node, inside_trig: bool) -> bool {
+    use crate::expr::{Op1, Terminal};
+    let u = Node::Term(Terminal::ArgLat);
     match n {
-        Node::ArgLat => !inside_trig,
-        Node::Sin(a) | Node::Cos(a) => bare_angle(a, matches!(**a, Node::ArgLat)),
+        Node::Term(Terminal::ArgLat) => !inside_trig,
+        Node::Unary(Op1::Sin | Op1::Cos, a) => bare_angle(a, **a == u),
         other => other.children().into_iter().any(|c| bare_angle(c, false)),
     }
 }

@@ -219,22 +219,22 @@ fn random_path(g: &mut Gen, n: &Node, ty: Option<crate::expr::Ty>) -> Option<Vec
     }
 }
 
-/// A same-type, same-arity replacement for a node (point mutation).
+/// A same-type, same-arity replacement for a node (point mutation): a terminal from its
+/// group, a jittered number, or an operator's sibling (the tables in `expr::ops`).
 fn point_mutate(g: &mut Gen, n: &Node) -> Node {
-    use Node::*;
-    let pick = |g: &mut Gen, opts: &[Node]| opts[g.below(opts.len())].clone();
     match n {
-        UnitR | UnitT | UnitN | VelRel | SunDir => pick(g, &[UnitR, UnitT, UnitN, SunDir]),
-        Time | ArgLat | Lit | Altitude | Density => {
-            pick(g, &[Time, ArgLat, Lit, Altitude, Density])
+        Node::Term(t) => {
+            let group = t.mutation_group();
+            if group.is_empty() {
+                n.clone()
+            } else {
+                Node::Term(group[g.below(group.len())])
+            }
         }
-        Const(c) => Const(c * (0.5 * g.normal()).exp()),
-        Sin(a) => Cos(a.clone()),
-        Cos(a) => Sin(a.clone()),
-        Add(a, b) => Sub(a.clone(), b.clone()),
-        Sub(a, b) => Add(a.clone(), b.clone()),
-        Pow(a, k) => Pow(a.clone(), if *k == 2 { 3 } else { 2 }),
-        other => other.clone(),
+        Node::Const(c) => Node::Const(c * (0.5 * g.normal()).exp()),
+        Node::Param(_) => n.clone(),
+        Node::Unary(op, a) => Node::Unary(op.sibling().unwrap_or(*op), a.clone()),
+        Node::Binary(op, a, b) => Node::Binary(op.sibling().unwrap_or(*op), a.clone(), b.clone()),
     }
 }
 
@@ -292,7 +292,7 @@ fn breed(g: &mut Gen, parents: &[Individual], opts: &SearchOptions) -> Individua
                     random_path(g, &child.trees[ti], Some(crate::expr::Ty::Vector)),
                 ) {
                     let slot = at_mut(&mut child.trees[ti], &p);
-                    *slot = Node::Mul(Box::new(mnode), Box::new(slot.clone()));
+                    *slot = Node::binary(crate::expr::Op2::Mul, mnode, slot.clone());
                     if child.k.len() < 2 {
                         child.k.resize(2, 0.3 * opts.span_s);
                     }
