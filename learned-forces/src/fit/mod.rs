@@ -493,101 +493,27 @@ pub fn fit(
         Some(x) => x,
         None => initial_guess(arc, &t)?,
     };
-    let span = t[n_obs - 1];
-    // Stages over a growing part of the arc, so a rough start converges; parameters
-    // join in the last stage only.
-    let mut stage_ends: Vec<usize> = Vec::new();
-    if options.initial_state.is_none() {
-        for frac in [1.0 / 16.0, 0.25] {
-            let last = t.iter().rposition(|&ti| ti <= frac * span).unwrap_or(0);
-            if last + 1 >= 8 && last + 1 < n_obs && stage_ends.last() != Some(&last) {
-                stage_ends.push(last);
-            }
-        }
-    }
-    stage_ends.push(n_obs - 1);
-    let stages = stage_ends.len();
-    let mut used = vec![true; n_obs];
-    let mut reasons: Vec<Option<String>> = vec![None; n_obs];
-    let mut iterations = 0;
-    let mut termination = Termination::IterationLimit;
-    let mut lin = None;
-    for (si, &last) in stage_ends.iter().enumerate() {
-        let final_stage = si + 1 == stages;
-        let n_here = if final_stage { n_est } else { 6 };
-        if !final_stage {
-            fm.parameters.clear();
-            fm.values.clear();
-        } else {
-            fm.parameters = options.estimate.clone();
-            if fm.values.len() != fm.parameters.len() {
-                fm.values = start_values.clone();
-            }
-        }
-        let mut edit_passes = 0;
-        loop {
-            let (l, it, conv) = solve_stage(
-                &problem,
-                &mut fm,
-                &mut x0,
-                last,
-                &used,
-                n_here,
-                si + 1,
-                stages,
-                observer,
-            )?;
-            iterations += it;
-            termination = conv;
-            if !final_stage {
-                break;
-            }
-            // Robust editing on the final stage; the last pass only solves, so the
-            // solution always matches the final set of used observations.
-            if edit_passes >= 8 {
-                lin = Some(l);
-                break;
-            }
-            let new_edits = edit(&problem, &l, &mut used, &mut reasons, options.edit_sigma);
-            lin = Some(l);
-            edit_passes += 1;
-            if new_edits == 0 {
-                break;
-            }
-        }
-    }
-    let lin = lin.ok_or_else(|| FitError::Unfit("internal: the final stage did not run".into()))?;
+    let stage_ends = stage_ends(&t, options.initial_state.is_none());
+    let mut editing = Editing {
+        used: vec![true; n_obs],
+        reasons: vec![None; n_obs],
+    };
+    let (lin, iterations, termination) = run_stages(
+        &problem,
+        &mut fm,
+        &mut x0,
+        (&stage_ends, &start_values),
+        &mut editing,
+        observer,
+    )?;
+    let Editing { used, reasons } = editing;
     let (rank, cov) = covariance(&lin.jac);
     if rank < n_est {
         return Err(FitError::Unfit(format!(
             "the arc does not determine the orbit: rank {rank} of {n_est} (arc too short, too few observations, or a parameter with no effect)"
         )));
     }
-    // Residuals of every observation (edited ones too) from the final solution.
-    let samples = &lin.samples;
-    let mut residuals = Vec::with_capacity(n_obs);
-    let (mut sum_sq, mut n_used) = (0.0, 0usize);
-    for (i, s) in samples.iter().enumerate() {
-        let o = &arc.observations[i];
-        let r = Vector3::new(s.state[0], s.state[1], s.state[2]);
-        let v = Vector3::new(s.state[3], s.state[4], s.state[5]);
-        let d = o.r_km - r;
-        let rtn = eci_to_rtn(&r, &v).map(|m| m * d).unwrap_or(d);
-        if used[i] {
-            sum_sq += d.norm_squared();
-            n_used += 1;
-        }
-        residuals.push(Residual {
-            epoch: o.epoch,
-            t_s: t[i],
-            rtn_km: rtn,
-            velocity_km_s: o.v_km_s.map(|ov| ov - v),
-            sigma_km: o.sigma_km,
-            used: used[i],
-            edit_reason: reasons[i].clone(),
-        });
-    }
-    let rms_km = (sum_sq / n_used.max(1) as f64).sqrt();
+    let (residuals, rms_km) = residuals(arc, &t, &lin.samples, &used, &reasons);
     let dof = lin.z.len().saturating_sub(n_est);
     let mut verdict = verdict(&lin.z, dof, &residuals, options);
     if !termination.converged() {
@@ -615,7 +541,7 @@ pub fn fit(
     for (i, s) in x0_sigma.iter_mut().enumerate() {
         *s = cov[(i, i)].sqrt();
     }
-    let last = samples.last().map(|s| s.state).unwrap_or(x0);
+    let last = lin.samples.last().map(|s| s.state).unwrap_or(x0);
     Ok(FitResult {
         epoch0,
         x0,
@@ -634,6 +560,134 @@ pub fn fit(
         weighted_residual: lin.z.clone(),
         values: fm.values.clone(),
     })
+}
+
+/// The last observation of each stage: the first sixteenth and quarter of the arc when
+/// the fit starts from the data (so a rough start converges), then the whole arc.
+fn stage_ends(t: &[f64], from_data: bool) -> Vec<usize> {
+    let n_obs = t.len();
+    let span = t[n_obs - 1];
+    let mut ends: Vec<usize> = Vec::new();
+    if from_data {
+        for frac in [1.0 / 16.0, 0.25] {
+            let last = t.iter().rposition(|&ti| ti <= frac * span).unwrap_or(0);
+            if last + 1 >= 8 && last + 1 < n_obs && ends.last() != Some(&last) {
+                ends.push(last);
+            }
+        }
+    }
+    ends.push(n_obs - 1);
+    ends
+}
+
+/// Which observations the fit uses, and why each edited one was edited.
+struct Editing {
+    used: Vec<bool>,
+    reasons: Vec<Option<String>>,
+}
+
+/// The stages of the fit: the state alone over the early stages, then the state and the
+/// parameters (from `start_values`) over the whole arc, with robust editing; returns the
+/// final linearization, the iterations and why the last stage stopped.
+fn run_stages(
+    problem: &Problem,
+    fm: &mut FitModel,
+    x0: &mut StateVector,
+    (stage_ends, start_values): (&[usize], &[f64]),
+    editing: &mut Editing,
+    observer: &mut dyn FitObserver,
+) -> Result<(Linearized, usize, Termination), FitError> {
+    let estimate = &problem.options.estimate;
+    let stages = stage_ends.len();
+    let mut iterations = 0;
+    let mut termination = Termination::IterationLimit;
+    let mut lin = None;
+    for (si, &last) in stage_ends.iter().enumerate() {
+        let final_stage = si + 1 == stages;
+        let n_here = if final_stage { 6 + estimate.len() } else { 6 };
+        if !final_stage {
+            fm.parameters.clear();
+            fm.values.clear();
+        } else {
+            fm.parameters = estimate.clone();
+            if fm.values.len() != fm.parameters.len() {
+                fm.values = start_values.to_vec();
+            }
+        }
+        let mut edit_passes = 0;
+        loop {
+            let (l, it, conv) = solve_stage(
+                problem,
+                fm,
+                x0,
+                last,
+                &editing.used,
+                n_here,
+                si + 1,
+                stages,
+                observer,
+            )?;
+            iterations += it;
+            termination = conv;
+            if !final_stage {
+                break;
+            }
+            // Robust editing on the final stage; the last pass only solves, so the
+            // solution always matches the final set of used observations.
+            if edit_passes >= 8 {
+                lin = Some(l);
+                break;
+            }
+            let new_edits = edit(
+                problem,
+                &l,
+                &mut editing.used,
+                &mut editing.reasons,
+                problem.options.edit_sigma,
+            );
+            lin = Some(l);
+            edit_passes += 1;
+            if new_edits == 0 {
+                break;
+            }
+        }
+    }
+    let lin = lin.ok_or_else(|| FitError::Unfit("internal: the final stage did not run".into()))?;
+    Ok((lin, iterations, termination))
+}
+
+/// Residuals of every observation (edited ones too) from the final solution's samples,
+/// and the position RMS of the used ones, km.
+fn residuals(
+    arc: &Arc,
+    t: &[f64],
+    samples: &[VariationalSample],
+    used: &[bool],
+    reasons: &[Option<String>],
+) -> (Vec<Residual>, f64) {
+    let mut residuals = Vec::with_capacity(samples.len());
+    let (mut sum_sq, mut n_used) = (0.0, 0usize);
+    for (i, s) in samples.iter().enumerate() {
+        let o = &arc.observations[i];
+        let r = Vector3::new(s.state[0], s.state[1], s.state[2]);
+        let v = Vector3::new(s.state[3], s.state[4], s.state[5]);
+        let d = o.r_km - r;
+        let rtn = eci_to_rtn(&r, &v).map(|m| m * d).unwrap_or(d);
+        if used[i] {
+            sum_sq += d.norm_squared();
+            n_used += 1;
+        }
+        residuals.push(Residual {
+            epoch: o.epoch,
+            t_s: t[i],
+            rtn_km: rtn,
+            velocity_km_s: o.v_km_s.map(|ov| ov - v),
+            sigma_km: o.sigma_km,
+            used: used[i],
+            edit_reason: reasons[i].clone(),
+        });
+    }
+    (residuals, (sum_sq / n_used.max(1) as f64).sqrt())
 }
 
 #[allow(clippy::too_many_arguments)]

@@ -168,228 +168,255 @@ fn to_gcrf(
 
 /// Reads an OEM (KVN) as it is: every segment, its metadata and states.
 pub fn read_message(text: &str, path: &Path) -> Result<OemMessage, FileError> {
-    #[derive(PartialEq)]
-    enum Where {
-        Header,
-        Meta,
-        Data,
-        Covariance,
-    }
-    let mut at = Where::Header;
-    let mut eph = Ephemeris::default();
-    let mut center: Option<(String, usize)> = None;
-    let mut ref_frames = Vec::new();
-    let (mut creation_date, mut originator) = (None, None);
-    let mut lines = Vec::new();
-    let mut scale = None;
-    let mut saw_version = false;
-    let mut segments = 0;
-    // Keys seen in the header and in the current metadata block: a key given twice is
-    // refused rather than silently overriding the first.
-    let mut header_keys: Vec<&str> = Vec::new();
-    let mut meta_keys: Vec<&str> = Vec::new();
+    let mut r = Reader {
+        path,
+        at: Where::Header,
+        eph: Ephemeris::default(),
+        center: None,
+        ref_frames: Vec::new(),
+        creation_date: None,
+        originator: None,
+        lines: Vec::new(),
+        scale: None,
+        saw_version: false,
+        segments: 0,
+        header_keys: Vec::new(),
+        meta_keys: Vec::new(),
+    };
     for (i, raw) in text.lines().enumerate() {
-        let ln = i + 1;
         let l = raw.trim();
         if l.is_empty() || l.starts_with("COMMENT") {
             continue;
         }
+        r.line(i + 1, l)?;
+    }
+    r.finish()
+}
+
+/// The block of an OEM a line is in.
+#[derive(PartialEq)]
+enum Where {
+    Header,
+    Meta,
+    Data,
+    Covariance,
+}
+
+/// An OEM being read, line by line.
+struct Reader<'a> {
+    path: &'a Path,
+    at: Where,
+    eph: Ephemeris,
+    center: Option<(String, usize)>,
+    ref_frames: Vec<String>,
+    creation_date: Option<String>,
+    originator: Option<String>,
+    lines: Vec<usize>,
+    scale: Option<Scale>,
+    saw_version: bool,
+    segments: usize,
+    // Keys seen in the header and in the current metadata block: a key given twice is
+    // refused rather than silently overriding the first.
+    header_keys: Vec<&'a str>,
+    meta_keys: Vec<&'a str>,
+}
+
+impl<'a> Reader<'a> {
+    fn error(&self, ln: usize, message: impl Into<String>) -> FileError {
+        file_error(self.path, Some(ln), message)
+    }
+
+    /// One non-empty, non-comment line `l` (trimmed) at line number `ln`.
+    fn line(&mut self, ln: usize, l: &'a str) -> Result<(), FileError> {
         let kv = l.split_once('=').map(|(k, v)| (k.trim(), v.trim()));
-        if let (Where::Header | Where::Meta, Some((k, _))) = (&at, kv) {
-            let keys = if at == Where::Header {
-                &mut header_keys
+        if let (Where::Header | Where::Meta, Some((k, _))) = (&self.at, kv) {
+            let keys = if self.at == Where::Header {
+                &mut self.header_keys
             } else {
-                &mut meta_keys
+                &mut self.meta_keys
             };
             if keys.contains(&k) {
-                return Err(file_error(
-                    path,
-                    Some(ln),
-                    format!("{k} is given twice in the same block"),
-                ));
+                return Err(self.error(ln, format!("{k} is given twice in the same block")));
             }
             keys.push(k);
         }
-        match at {
+        match self.at {
             Where::Header | Where::Data if l == "META_START" => {
-                at = Where::Meta;
-                scale = None;
-                segments += 1;
-                meta_keys.clear();
-                if segments > 1 && !eph.points.is_empty() {
-                    eph.segment_starts.push(eph.points.len());
+                self.at = Where::Meta;
+                self.scale = None;
+                self.segments += 1;
+                self.meta_keys.clear();
+                if self.segments > 1 && !self.eph.points.is_empty() {
+                    self.eph.segment_starts.push(self.eph.points.len());
                 }
+                Ok(())
             }
-            Where::Header => match kv {
-                Some(("CCSDS_OEM_VERS", v)) => {
-                    if !(v.starts_with('1') || v.starts_with('2') || v.starts_with('3')) {
-                        return Err(file_error(
-                            path,
-                            Some(ln),
-                            format!("CCSDS_OEM_VERS {v} is not supported"),
-                        ));
-                    }
-                    saw_version = true;
+            Where::Header => self.header(ln, l, kv),
+            Where::Meta if l == "META_STOP" => {
+                if self.scale.is_none() {
+                    return Err(self.error(ln, "TIME_SYSTEM missing from the metadata"));
                 }
-                Some(("CREATION_DATE", v)) => creation_date = Some(v.to_string()),
-                Some(("ORIGINATOR", v)) => originator = Some(v.to_string()),
-                Some(("MESSAGE_ID" | "CLASSIFICATION", _)) => {}
-                _ => {
-                    if !saw_version {
-                        return Err(file_error(
-                            path,
-                            Some(ln),
-                            "not an OEM: the first keyword must be CCSDS_OEM_VERS",
-                        ));
-                    }
-                    return Err(file_error(
-                        path,
-                        Some(ln),
-                        format!("unexpected line in the OEM header: `{l}`"),
-                    ));
-                }
-            },
+                self.at = Where::Data;
+                Ok(())
+            }
             Where::Meta => {
-                if l == "META_STOP" {
-                    if scale.is_none() {
-                        return Err(file_error(
-                            path,
-                            Some(ln),
-                            "TIME_SYSTEM missing from the metadata",
-                        ));
-                    }
-                    at = Where::Data;
-                    continue;
-                }
                 let (k, v) = kv.ok_or_else(|| {
-                    file_error(
-                        path,
-                        Some(ln),
+                    self.error(
+                        ln,
                         format!("expected KEY = VALUE in the metadata, got `{l}`"),
                     )
                 })?;
-                match k {
-                    "OBJECT_NAME" | "OBJECT_ID" => {
-                        crate::text::check_name(k, v).map_err(|m| file_error(path, Some(ln), m))?;
-                        let field = if k == "OBJECT_NAME" {
-                            &mut eph.object_name
-                        } else {
-                            &mut eph.object_id
-                        };
-                        // An ephemeris is one object's: segments of several objects in
-                        // one file would be merged into one impossible trajectory.
-                        if segments > 1 && *field != v {
-                            return Err(file_error(path, Some(ln), format!("{k} = {v} in segment {segments}, but the first segment's is {field}: give one object per file")));
-                        }
-                        *field = v.to_string();
-                    }
-                    "CENTER_NAME" => match &center {
-                        Some((c, _)) if c != v => {
-                            return Err(file_error(path, Some(ln), format!("CENTER_NAME = {v} in segment {segments}, but the first segment's is {c}: one centre per file")));
-                        }
-                        Some(_) => {}
-                        None => center = Some((v.to_string(), ln)),
-                    },
-                    "REF_FRAME" => {
-                        if Frame::from_keyword(v).is_none() {
-                            return Err(file_error(path, Some(ln), format!("REF_FRAME = {v}: only GCRF, ICRF, EME2000 (inertial) or ITRF (Earth-fixed) are supported")));
-                        }
-                        ref_frames.push(v.to_string());
-                    }
-                    "TIME_SYSTEM" => {
-                        scale = Some(Scale::from_keyword(v).ok_or_else(|| {
-                            file_error(
-                                path,
-                                Some(ln),
-                                format!("TIME_SYSTEM = {v}: supported are UTC, TAI, TT, GPS"),
-                            )
-                        })?);
-                    }
-                    "REF_FRAME_EPOCH"
-                    | "START_TIME"
-                    | "STOP_TIME"
-                    | "USEABLE_START_TIME"
-                    | "USEABLE_STOP_TIME"
-                    | "INTERPOLATION"
-                    | "INTERPOLATION_DEGREE" => {}
-                    _ => {
-                        return Err(file_error(
-                            path,
-                            Some(ln),
-                            format!("unknown metadata keyword `{k}`"),
-                        ))
-                    }
-                }
+                self.meta(ln, k, v)
             }
-            Where::Data => {
-                if l == "COVARIANCE_START" {
-                    at = Where::Covariance;
-                    continue;
-                }
-                let f: Vec<&str> = l.split_whitespace().collect();
-                if f.len() != 7 && f.len() != 10 {
-                    return Err(file_error(
-                        path,
-                        Some(ln),
-                        format!(
-                            "expected an epoch and 6 (or 9) numbers, got {} fields",
-                            f.len()
-                        ),
-                    ));
-                }
-                let sc = scale.unwrap_or(Scale::Utc);
-                let epoch = Epoch::parse_iso(f[0], sc)
-                    .map_err(|e| file_error(path, Some(ln), e.to_string()))?;
-                let mut x = [0.0; 6];
-                for k in 0..6 {
-                    let v: f64 = f[k + 1].parse().map_err(|_| {
-                        file_error(path, Some(ln), format!("`{}` is not a number", f[k + 1]))
-                    })?;
-                    if !v.is_finite() {
-                        return Err(file_error(
-                            path,
-                            Some(ln),
-                            format!("`{}` is not finite", f[k + 1]),
-                        ));
-                    }
-                    x[k] = v;
-                }
-                eph.points.push(EphemerisPoint {
-                    epoch,
-                    state: StateVector::from_column_slice(&x),
-                });
-                lines.push(ln);
+            Where::Data if l == "COVARIANCE_START" => {
+                self.at = Where::Covariance;
+                Ok(())
             }
+            Where::Data => self.state(ln, l),
             Where::Covariance => {
                 if l == "COVARIANCE_STOP" {
-                    at = Where::Data;
+                    self.at = Where::Data;
                 }
+                Ok(())
             }
         }
     }
-    if !saw_version {
-        return Err(file_error(path, None, "not an OEM: CCSDS_OEM_VERS missing"));
+
+    /// A header line.
+    fn header(&mut self, ln: usize, l: &str, kv: Option<(&str, &str)>) -> Result<(), FileError> {
+        match kv {
+            Some(("CCSDS_OEM_VERS", v)) => {
+                if !(v.starts_with('1') || v.starts_with('2') || v.starts_with('3')) {
+                    return Err(self.error(ln, format!("CCSDS_OEM_VERS {v} is not supported")));
+                }
+                self.saw_version = true;
+            }
+            Some(("CREATION_DATE", v)) => self.creation_date = Some(v.to_string()),
+            Some(("ORIGINATOR", v)) => self.originator = Some(v.to_string()),
+            Some(("MESSAGE_ID" | "CLASSIFICATION", _)) => {}
+            _ => {
+                if !self.saw_version {
+                    return Err(
+                        self.error(ln, "not an OEM: the first keyword must be CCSDS_OEM_VERS")
+                    );
+                }
+                return Err(self.error(ln, format!("unexpected line in the OEM header: `{l}`")));
+            }
+        }
+        Ok(())
     }
-    if segments == 0 || at == Where::Meta {
-        return Err(file_error(
-            path,
-            None,
-            "no complete META_START … META_STOP block",
-        ));
+
+    /// A metadata `k = v`.
+    fn meta(&mut self, ln: usize, k: &str, v: &str) -> Result<(), FileError> {
+        let segments = self.segments;
+        match k {
+            "OBJECT_NAME" | "OBJECT_ID" => {
+                crate::text::check_name(k, v).map_err(|m| self.error(ln, m))?;
+                let field = if k == "OBJECT_NAME" {
+                    &mut self.eph.object_name
+                } else {
+                    &mut self.eph.object_id
+                };
+                // An ephemeris is one object's: segments of several objects in one file
+                // would be merged into one impossible trajectory.
+                if segments > 1 && *field != v {
+                    let first = field.clone();
+                    return Err(self.error(ln, format!("{k} = {v} in segment {segments}, but the first segment's is {first}: give one object per file")));
+                }
+                *field = v.to_string();
+            }
+            "CENTER_NAME" => match &self.center {
+                Some((c, _)) if c != v => {
+                    return Err(self.error(ln, format!("CENTER_NAME = {v} in segment {segments}, but the first segment's is {c}: one centre per file")));
+                }
+                Some(_) => {}
+                None => self.center = Some((v.to_string(), ln)),
+            },
+            "REF_FRAME" => {
+                if Frame::from_keyword(v).is_none() {
+                    return Err(self.error(ln, format!("REF_FRAME = {v}: only GCRF, ICRF, EME2000 (inertial) or ITRF (Earth-fixed) are supported")));
+                }
+                self.ref_frames.push(v.to_string());
+            }
+            "TIME_SYSTEM" => {
+                self.scale = Some(Scale::from_keyword(v).ok_or_else(|| {
+                    self.error(
+                        ln,
+                        format!("TIME_SYSTEM = {v}: supported are UTC, TAI, TT, GPS"),
+                    )
+                })?);
+            }
+            "REF_FRAME_EPOCH"
+            | "START_TIME"
+            | "STOP_TIME"
+            | "USEABLE_START_TIME"
+            | "USEABLE_STOP_TIME"
+            | "INTERPOLATION"
+            | "INTERPOLATION_DEGREE" => {}
+            _ => return Err(self.error(ln, format!("unknown metadata keyword `{k}`"))),
+        }
+        Ok(())
     }
-    if at == Where::Covariance {
-        return Err(file_error(
-            path,
-            None,
-            "COVARIANCE_START without COVARIANCE_STOP",
-        ));
+
+    /// A state line: an epoch and 6 (or 9, with accelerations) numbers.
+    fn state(&mut self, ln: usize, l: &str) -> Result<(), FileError> {
+        let f: Vec<&str> = l.split_whitespace().collect();
+        if f.len() != 7 && f.len() != 10 {
+            return Err(self.error(
+                ln,
+                format!(
+                    "expected an epoch and 6 (or 9) numbers, got {} fields",
+                    f.len()
+                ),
+            ));
+        }
+        let sc = self.scale.unwrap_or(Scale::Utc);
+        let epoch = Epoch::parse_iso(f[0], sc).map_err(|e| self.error(ln, e.to_string()))?;
+        let mut x = [0.0; 6];
+        for k in 0..6 {
+            let v: f64 = f[k + 1]
+                .parse()
+                .map_err(|_| self.error(ln, format!("`{}` is not a number", f[k + 1])))?;
+            if !v.is_finite() {
+                return Err(self.error(ln, format!("`{}` is not finite", f[k + 1])));
+            }
+            x[k] = v;
+        }
+        self.eph.points.push(EphemerisPoint {
+            epoch,
+            state: StateVector::from_column_slice(&x),
+        });
+        self.lines.push(ln);
+        Ok(())
     }
-    Ok(OemMessage {
-        ephemeris: eph,
-        lines,
-        center_name: center.unwrap_or_else(|| ("EARTH".into(), 0)),
-        ref_frames,
-        creation_date,
-        originator,
-    })
+
+    /// The message, once every line is read.
+    fn finish(self) -> Result<OemMessage, FileError> {
+        let path = self.path;
+        if !self.saw_version {
+            return Err(file_error(path, None, "not an OEM: CCSDS_OEM_VERS missing"));
+        }
+        if self.segments == 0 || self.at == Where::Meta {
+            return Err(file_error(
+                path,
+                None,
+                "no complete META_START … META_STOP block",
+            ));
+        }
+        if self.at == Where::Covariance {
+            return Err(file_error(
+                path,
+                None,
+                "COVARIANCE_START without COVARIANCE_STOP",
+            ));
+        }
+        Ok(OemMessage {
+            ephemeris: self.eph,
+            lines: self.lines,
+            center_name: self.center.unwrap_or_else(|| ("EARTH".into(), 0)),
+            ref_frames: self.ref_frames,
+            creation_date: self.creation_date,
+            originator: self.originator,
+        })
+    }
 }
