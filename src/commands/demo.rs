@@ -49,34 +49,67 @@ pub fn run(a: Args) -> Result<(), CliError> {
         "check the next pass with it and screen for close approaches. Everything goes to {}.",
         d.display()
     );
+    let arcs = d.join("arcs");
+    simulate_fit_learn(d, &arcs, a.generations)?;
+    let corrected = build_plugin(d, &arcs)?;
+    check_next_pass(d, &arcs)?;
+    let (end, secondary) = place_secondary(d, &corrected)?;
+    step(
+        "6. screen the corrected orbit against a cataloged object over the next 12 h",
+        words(&[
+            "screen",
+            "--primary",
+            &p(d, "learned.yaml"),
+            "--secondaries",
+            &secondary.display().to_string(),
+            "--forces",
+            &p(&arcs, "forces.yaml"),
+            "--from",
+            &end.to_utc_string(),
+            "--to",
+            &end.plus_seconds(12.0 * 3600.0).to_utc_string(),
+            "--threshold-km",
+            "5",
+            "--report",
+            &p(d, "screen.json"),
+        ]),
+    )?;
+    println!(
+        "\nDone. Reports (*.json), plots (*.svg), the learned force and the plugin are in {}.",
+        d.display()
+    );
+    Ok(())
+}
+
+/// Steps 1–3: simulate the arcs, fit the training arc, learn the missing force.
+fn simulate_fit_learn(d: &Path, arcs: &Path, generations: usize) -> Result<(), CliError> {
     step(
         "1. simulate the tracking arcs (truth + 5 m noise)",
         words(&["simulate", &p(d, "scenario.yaml"), "--out", &p(d, "arcs")]),
     )?;
-    let arcs = d.join("arcs");
     step(
         "2. fit the training arc with the known forces",
         words(&[
             "fit",
             "--arc",
-            &p(&arcs, "train.csv"),
+            &p(arcs, "train.csv"),
             "--forces",
-            &p(&arcs, "forces.yaml"),
+            &p(arcs, "forces.yaml"),
             "--report",
             &p(d, "fit.json"),
             "--plot",
             &p(d, "fit_residuals.svg"),
         ]),
     )?;
-    let g = a.generations.to_string();
+    let g = generations.to_string();
     step(
         "3. learn the missing force as a formula",
         words(&[
             "learn",
             "--arc",
-            &p(&arcs, "train.csv"),
+            &p(arcs, "train.csv"),
             "--forces",
-            &p(&arcs, "forces.yaml"),
+            &p(arcs, "forces.yaml"),
             "--out",
             &p(d, "learned.yaml"),
             "--report",
@@ -88,7 +121,12 @@ pub fn run(a: Args) -> Result<(), CliError> {
             "--name",
             "tessera-114-venting",
         ]),
-    )?;
+    )
+}
+
+/// Step 4: the native plugin, and the known forces with it (or, with no Rust toolchain,
+/// with the learned file in process); returns that forces file.
+fn build_plugin(d: &Path, arcs: &Path) -> Result<PathBuf, CliError> {
     let plugin = format!(
         "{}{}{}",
         std::env::consts::DLL_PREFIX,
@@ -114,6 +152,11 @@ pub fn run(a: Args) -> Result<(), CliError> {
     };
     std::fs::write(&corrected, format!("{forces_text}{plugin_line}"))
         .map_err(|e| CliError::input(e.to_string()))?;
+    Ok(corrected)
+}
+
+/// Step 5: the next 12 h of tracking against the corrected prediction.
+fn check_next_pass(d: &Path, arcs: &Path) -> Result<(), CliError> {
     step(
         "5. check the next 12 h of tracking against the corrected prediction",
         words(&[
@@ -121,17 +164,21 @@ pub fn run(a: Args) -> Result<(), CliError> {
             "--learned",
             &p(d, "learned.yaml"),
             "--forces",
-            &p(&arcs, "forces.yaml"),
+            &p(arcs, "forces.yaml"),
             "--arc",
-            &p(&arcs, "next.csv"),
+            &p(arcs, "next.csv"),
             "--report",
             &p(d, "check.json"),
             "--plot",
             &p(d, "check.svg"),
         ]),
-    )?;
-    // A built-in secondary: a cataloged object placed 1.5 km below TESSERA-114's corrected
-    // position 6 h after the arc, crossing at right angles.
+    )
+}
+
+/// A built-in secondary: a cataloged object placed 1.5 km below TESSERA-114's corrected
+/// position (propagated with `corrected`) 6 h after the arc, crossing at right angles.
+/// Returns the arc's end and the secondary's state file.
+fn place_secondary(d: &Path, corrected: &Path) -> Result<(propagator::Epoch, PathBuf), CliError> {
     let learned = learned_forces::learned_file::LearnedFile::load(&d.join("learned.yaml"))
         .map_err(CliError::input)?;
     let end = propagator::Epoch::parse_utc(&learned.state_at_end.epoch_utc)
@@ -183,29 +230,5 @@ pub fn run(a: Args) -> Result<(), CliError> {
         ),
     )
     .map_err(|e| CliError::input(e.to_string()))?;
-    step(
-        "6. screen the corrected orbit against a cataloged object over the next 12 h",
-        words(&[
-            "screen",
-            "--primary",
-            &p(d, "learned.yaml"),
-            "--secondaries",
-            &secondary.display().to_string(),
-            "--forces",
-            &p(&arcs, "forces.yaml"),
-            "--from",
-            &end.to_utc_string(),
-            "--to",
-            &end.plus_seconds(12.0 * 3600.0).to_utc_string(),
-            "--threshold-km",
-            "5",
-            "--report",
-            &p(d, "screen.json"),
-        ]),
-    )?;
-    println!(
-        "\nDone. Reports (*.json), plots (*.svg), the learned force and the plugin are in {}.",
-        d.display()
-    );
-    Ok(())
+    Ok((end, secondary))
 }

@@ -13,6 +13,7 @@ use propagator::propagation::{
 use propagator::screening::{approaches, Approach, Track};
 use propagator::{Epoch, ForceModel, StateVector, TimeAxis};
 use rayon::prelude::*;
+use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
 /// The disclaimer printed with every screening.
@@ -283,40 +284,17 @@ fn load_track(path: &Path, ctx: &Ctx) -> Result<(Track, String, Option<String>),
     ))
 }
 
+/// One close approach: the secondary's file, its object name, the approach.
+type Row = (PathBuf, String, Approach);
+
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
-    let mut inputs: Vec<(&str, &std::path::Path)> = vec![("--primary", &a.primary)];
-    inputs.extend(a.secondaries.iter().map(|p| ("--secondaries", p.as_path())));
-    inputs.extend(a.forces.as_deref().map(|p| ("--forces", p)));
-    crate::paths::check_distinct(
-        &inputs,
-        &crate::paths::given(&[
-            ("--report", a.report.as_deref()),
-            ("--plot", a.plot.as_deref()),
-        ]),
-    )?;
-    if !(a.threshold_km.is_finite() && a.threshold_km > 0.0) {
-        return Err(CliError::input(
-            "--threshold-km must be a positive number of km",
-        ));
-    }
-    if !(a.step.is_finite() && (1.0..=120.0).contains(&a.step)) {
-        return Err(CliError::input("--step must be between 1 and 120 s"));
-    }
-    if a.secondaries.is_empty() {
-        return Err(CliError::input("give at least one --secondaries file"));
-    }
-    let from = Epoch::parse_utc(&a.from).map_err(|e| CliError::input(format!("--from: {e}")))?;
-    let to = Epoch::parse_utc(&a.to).map_err(|e| CliError::input(format!("--to: {e}")))?;
-    let span = to.seconds_since(&from);
-    if span <= 0.0 {
-        return Err(CliError::input("--to must be after --from"));
-    }
+    let (from, to) = check_args(&a)?;
     let spec = match &a.forces {
         Some(p) => Some(ForcesFile::load(p).map_err(CliError::input)?),
         None => None,
     };
-    let grid = checked_output_grid(0.0, span, a.step)
+    let grid = checked_output_grid(0.0, to.seconds_since(&from), a.step)
         .map_err(|e| CliError::input(format!("--step: {e}")))?;
     let ctx = Ctx {
         axis: TimeAxis::new(from),
@@ -325,41 +303,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
     };
     let (primary, primary_name, primary_id) =
         load_track(&a.primary, &ctx).map_err(CliError::input)?;
-    let primary_file = std::fs::canonicalize(&a.primary).ok();
-    let progress = crate::progress::CountProgress::new("screen", a.secondaries.len());
-    type Found = (String, Vec<Approach>, Option<Track>);
-    let results: Vec<Result<Found, String>> = a
-        .secondaries
-        .par_iter()
-        .inspect(|_| progress.tick())
-        .map(|s| {
-            let (t, name, id) = load_track(s, &ctx)?;
-            let same_file = primary_file.is_some() && std::fs::canonicalize(s).ok() == primary_file;
-            if same_file || (id.is_some() && id == primary_id) {
-                return Err(format!(
-                    "{}: the secondary is the primary object ({name}): screening an object against itself finds nothing real",
-                    s.display()
-                ));
-            }
-            let found = approaches(&primary, &t, a.threshold_km);
-            // The track is kept only for the plot of an object that comes close.
-            let keep = (a.plot.is_some() && !found.is_empty()).then_some(t);
-            Ok((name, found, keep))
-        })
-        .collect();
-    progress.finish();
-    let mut rows = Vec::new();
-    let mut tracks = std::collections::HashMap::new();
-    for (path, r) in a.secondaries.iter().zip(results) {
-        let (name, found, track) = r.map_err(CliError::input)?;
-        if let Some(t) = track {
-            tracks.insert(path.clone(), t);
-        }
-        for ap in found {
-            rows.push((path.clone(), name.clone(), ap));
-        }
-    }
-    rows.sort_by(|x, y| x.2.tca_s.total_cmp(&y.2.tca_s));
+    let (rows, tracks) = screen_all(&a, &ctx, &primary, primary_id)?;
     println!("{SCREENING_NOTICE}");
     println!(
         "screened {} against {} secondaries, {} → {}, threshold {} km: {} close approaches",
@@ -383,44 +327,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
         );
     }
     if let Some(path) = &a.plot {
-        let panels: Vec<Panel> = rows
-            .iter()
-            .take(6)
-            .filter_map(|(p, name, ap)| {
-                let track = tracks.get(p)?;
-                // ±10 min around the TCA, clipped to the window, every 5 s.
-                let (lo, hi) = (
-                    (ap.tca_s - 600.0).max(0.0),
-                    (ap.tca_s + 600.0).min(*grid.last().unwrap_or(&0.0)),
-                );
-                let n = ((hi - lo) / 5.0).ceil().max(1.0) as usize;
-                let points = (0..=n)
-                    .map(|k| {
-                        let t = lo + (hi - lo) * k as f64 / n as f64;
-                        let d = track.at(t).0 - primary.at(t).0;
-                        ((t - ap.tca_s) / 60.0, d.norm())
-                    })
-                    .collect();
-                Some(Panel {
-                    y_label: "range (km)".into(),
-                    series: vec![Series {
-                        name: format!("{name}: TCA {}", ctx.axis.epoch(ap.tca_s)),
-                        points,
-                        points_only: false,
-                    }],
-                    levels: vec![(format!("threshold {} km", a.threshold_km), a.threshold_km)],
-                    marks: vec![(format!("miss {:.3} km", ap.miss_km), 0.0)],
-                })
-            })
-            .collect();
-        if !panels.is_empty() {
-            write_panels(
-                path,
-                &format!("Close approaches of {primary_name} (a screening aid)"),
-                "minutes from TCA",
-                &panels,
-            )?;
-        }
+        plot(path, &a, &ctx, (&primary, &primary_name), &rows, &tracks)?;
     }
     if let Some(path) = &a.report {
         let report = serde_json::json!({
@@ -445,4 +352,131 @@ pub fn run(a: Args) -> Result<(), CliError> {
         write_report(path, &report)?;
     }
     Ok(())
+}
+
+/// The options checked: distinct inputs and outputs, a positive threshold, a step of
+/// 1–120 s, at least one secondary, and an ordered window (returned).
+fn check_args(a: &Args) -> Result<(Epoch, Epoch), CliError> {
+    let mut inputs: Vec<(&str, &std::path::Path)> = vec![("--primary", &a.primary)];
+    inputs.extend(a.secondaries.iter().map(|p| ("--secondaries", p.as_path())));
+    inputs.extend(a.forces.as_deref().map(|p| ("--forces", p)));
+    crate::paths::check_distinct(
+        &inputs,
+        &crate::paths::given(&[
+            ("--report", a.report.as_deref()),
+            ("--plot", a.plot.as_deref()),
+        ]),
+    )?;
+    if !(a.threshold_km.is_finite() && a.threshold_km > 0.0) {
+        return Err(CliError::input(
+            "--threshold-km must be a positive number of km",
+        ));
+    }
+    if !(a.step.is_finite() && (1.0..=120.0).contains(&a.step)) {
+        return Err(CliError::input("--step must be between 1 and 120 s"));
+    }
+    if a.secondaries.is_empty() {
+        return Err(CliError::input("give at least one --secondaries file"));
+    }
+    let from = Epoch::parse_utc(&a.from).map_err(|e| CliError::input(format!("--from: {e}")))?;
+    let to = Epoch::parse_utc(&a.to).map_err(|e| CliError::input(format!("--to: {e}")))?;
+    if to.seconds_since(&from) <= 0.0 {
+        return Err(CliError::input("--to must be after --from"));
+    }
+    Ok((from, to))
+}
+
+/// Every secondary against the primary (in parallel; a secondary that is the primary
+/// is refused): the close approaches by TCA, and the tracks of the secondaries that
+/// came close when a plot is asked for.
+fn screen_all(
+    a: &Args,
+    ctx: &Ctx,
+    primary: &Track,
+    primary_id: Option<String>,
+) -> Result<(Vec<Row>, HashMap<PathBuf, Track>), CliError> {
+    let primary_file = std::fs::canonicalize(&a.primary).ok();
+    let progress = crate::progress::CountProgress::new("screen", a.secondaries.len());
+    type Found = (String, Vec<Approach>, Option<Track>);
+    let results: Vec<Result<Found, String>> = a
+        .secondaries
+        .par_iter()
+        .inspect(|_| progress.tick())
+        .map(|s| {
+            let (t, name, id) = load_track(s, ctx)?;
+            let same_file = primary_file.is_some() && std::fs::canonicalize(s).ok() == primary_file;
+            if same_file || (id.is_some() && id == primary_id) {
+                return Err(format!(
+                    "{}: the secondary is the primary object ({name}): screening an object against itself finds nothing real",
+                    s.display()
+                ));
+            }
+            let found = approaches(primary, &t, a.threshold_km);
+            // The track is kept only for the plot of an object that comes close.
+            let keep = (a.plot.is_some() && !found.is_empty()).then_some(t);
+            Ok((name, found, keep))
+        })
+        .collect();
+    progress.finish();
+    let mut rows = Vec::new();
+    let mut tracks = HashMap::new();
+    for (path, r) in a.secondaries.iter().zip(results) {
+        let (name, found, track) = r.map_err(CliError::input)?;
+        if let Some(t) = track {
+            tracks.insert(path.clone(), t);
+        }
+        for ap in found {
+            rows.push((path.clone(), name.clone(), ap));
+        }
+    }
+    rows.sort_by(|x, y| x.2.tca_s.total_cmp(&y.2.tca_s));
+    Ok((rows, tracks))
+}
+
+/// Range to the primary ±10 min around each of the first six TCAs (clipped to the
+/// window, every 5 s), one panel each.
+fn plot(
+    path: &Path,
+    a: &Args,
+    ctx: &Ctx,
+    (primary, primary_name): (&Track, &str),
+    rows: &[Row],
+    tracks: &HashMap<PathBuf, Track>,
+) -> Result<(), CliError> {
+    let end = *ctx.grid.last().unwrap_or(&0.0);
+    let panels: Vec<Panel> = rows
+        .iter()
+        .take(6)
+        .filter_map(|(p, name, ap)| {
+            let track = tracks.get(p)?;
+            let (lo, hi) = ((ap.tca_s - 600.0).max(0.0), (ap.tca_s + 600.0).min(end));
+            let n = ((hi - lo) / 5.0).ceil().max(1.0) as usize;
+            let points = (0..=n)
+                .map(|k| {
+                    let t = lo + (hi - lo) * k as f64 / n as f64;
+                    let d = track.at(t).0 - primary.at(t).0;
+                    ((t - ap.tca_s) / 60.0, d.norm())
+                })
+                .collect();
+            Some(Panel {
+                y_label: "range (km)".into(),
+                series: vec![Series {
+                    name: format!("{name}: TCA {}", ctx.axis.epoch(ap.tca_s)),
+                    points,
+                    points_only: false,
+                }],
+                levels: vec![(format!("threshold {} km", a.threshold_km), a.threshold_km)],
+                marks: vec![(format!("miss {:.3} km", ap.miss_km), 0.0)],
+            })
+        })
+        .collect();
+    if panels.is_empty() {
+        return Ok(());
+    }
+    write_panels(
+        path,
+        &format!("Close approaches of {primary_name} (a screening aid)"),
+        "minutes from TCA",
+        &panels,
+    )
 }
