@@ -5,11 +5,12 @@ use crate::error::{CliError, EXIT_CHECK_FAILED};
 use crate::plot::{write_panels, Panel, Series};
 use crate::report::write_report;
 use clap::Args as ClapArgs;
+use learned_forces::arc::Arc;
 use learned_forces::learned_file::{LearnedFile, LearnedResolver};
 use learned_forces::next_arc::{check, CheckError, GateRule, NextArcCheck, Prediction};
 use propagator::config::ForcesFile;
 use propagator::Epoch;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 /// Options of `arcwise check`.
 #[derive(ClapArgs, Debug)]
@@ -59,36 +60,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
             ));
         }
     }
-    let file = LearnedFile::load(&a.learned).map_err(CliError::input)?;
-    // A force learned against one known model means little on top of another: say so.
-    let forces_hash = std::fs::read(&a.forces)
-        .map(|b| learned_forces::learned_file::sha256_hex(&b))
-        .map_err(|e| CliError::input(format!("{}: {e}", a.forces.display())))?;
-    if forces_hash != file.provenance.forces_sha256 {
-        propagator::notice::warn_once(format!(
-            "{} is not the forces file {} was learned with ({} there, {forces_hash} here): the learned force may miss or double-count what the two models treat differently",
-            a.forces.display(),
-            a.learned.display(),
-            file.provenance.forces_sha256
-        ));
-    }
-    let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
-    let (arc, _, _) = a.arc_options.load(&a.arc, &spec, &a.forces)?;
-    let rule = GateRule {
-        max_rms_km: a.max_rms_km,
-        ..GateRule::default()
-    };
-    let known_forces = |at: Epoch| {
-        spec.build_with(&a.forces, at, &LearnedResolver)
-            .map(|b| b.model)
-            .map_err(|e| e.to_string())
-    };
-    let host = Some((&spec, a.forces.as_path()));
-    let checked = check(&file, &known_forces, host, &arc, &rule).map_err(|e| match e {
-        CheckError::Learned(m) => CliError::input(format!("{}: {m}", a.learned.display())),
-        CheckError::Model(m) => CliError::input(m),
-        CheckError::Arc(m) => CliError::input(format!("{}: {m}", a.arc.display())),
-    })?;
+    let (file, arc, rule, checked) = run_check(&a)?;
     let NextArcCheck {
         epoch,
         learned,
@@ -124,32 +96,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
     }
     println!("check {}", if passed { "passed" } else { "FAILED" });
     if let Some(p) = &a.plot {
-        let series = |name: &str, pr: &Prediction| Series {
-            name: name.into(),
-            points: times
-                .iter()
-                .zip(&pr.errors_rtn_km)
-                .map(|(t, e)| (t / 3600.0, e.norm() * 1e3))
-                .collect(),
-            points_only: false,
-        };
-        write_panels(
-            p,
-            "Next-arc prediction error",
-            &format!("hours since {epoch}"),
-            &[Panel {
-                y_label: "position error (m)".into(),
-                series: vec![
-                    series("with the learned force", &learned),
-                    series("known forces only", &base),
-                ],
-                levels: vec![(
-                    format!("2× noise RMS ({:.2} m)", 2e3 * noise_km),
-                    2e3 * noise_km,
-                )],
-                ..Panel::default()
-            }],
-        )?;
+        plot(p, &epoch, (&learned, &base), noise_km)?;
     }
     if let Some(path) = &a.report {
         let report = serde_json::json!({
@@ -183,4 +130,77 @@ pub fn run(a: Args) -> Result<(), CliError> {
             code: EXIT_CHECK_FAILED,
         })
     }
+}
+
+/// The learned file, the next arc and the rule, and the check of the one on the other
+/// (warning when the forces file is not the one the force was learned with).
+fn run_check(a: &Args) -> Result<(LearnedFile, Arc, GateRule, NextArcCheck), CliError> {
+    let file = LearnedFile::load(&a.learned).map_err(CliError::input)?;
+    // A force learned against one known model means little on top of another: say so.
+    let forces_hash = std::fs::read(&a.forces)
+        .map(|b| learned_forces::learned_file::sha256_hex(&b))
+        .map_err(|e| CliError::input(format!("{}: {e}", a.forces.display())))?;
+    if forces_hash != file.provenance.forces_sha256 {
+        propagator::notice::warn_once(format!(
+            "{} is not the forces file {} was learned with ({} there, {forces_hash} here): the learned force may miss or double-count what the two models treat differently",
+            a.forces.display(),
+            a.learned.display(),
+            file.provenance.forces_sha256
+        ));
+    }
+    let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
+    let (arc, _, _) = a.arc_options.load(&a.arc, &spec, &a.forces)?;
+    let rule = GateRule {
+        max_rms_km: a.max_rms_km,
+        ..GateRule::default()
+    };
+    let known_forces = |at: Epoch| {
+        spec.build_with(&a.forces, at, &LearnedResolver)
+            .map(|b| b.model)
+            .map_err(|e| e.to_string())
+    };
+    let host = Some((&spec, a.forces.as_path()));
+    let checked = check(&file, &known_forces, host, &arc, &rule).map_err(|e| match e {
+        CheckError::Learned(m) => CliError::input(format!("{}: {m}", a.learned.display())),
+        CheckError::Model(m) => CliError::input(m),
+        CheckError::Arc(m) => CliError::input(format!("{}: {m}", a.arc.display())),
+    })?;
+    Ok((file, arc, rule, checked))
+}
+
+/// The prediction errors with the learned force and with the known forces only, against
+/// twice the noise.
+fn plot(
+    p: &Path,
+    epoch: &Epoch,
+    (learned, base): (&Prediction, &Prediction),
+    noise_km: f64,
+) -> Result<(), CliError> {
+    let series = |name: &str, pr: &Prediction| Series {
+        name: name.into(),
+        points: learned
+            .times_s
+            .iter()
+            .zip(&pr.errors_rtn_km)
+            .map(|(t, e)| (t / 3600.0, e.norm() * 1e3))
+            .collect(),
+        points_only: false,
+    };
+    write_panels(
+        p,
+        "Next-arc prediction error",
+        &format!("hours since {epoch}"),
+        &[Panel {
+            y_label: "position error (m)".into(),
+            series: vec![
+                series("with the learned force", learned),
+                series("known forces only", base),
+            ],
+            levels: vec![(
+                format!("2× noise RMS ({:.2} m)", 2e3 * noise_km),
+                2e3 * noise_km,
+            )],
+            ..Panel::default()
+        }],
+    )
 }

@@ -87,31 +87,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
     outputs.extend(a.report.as_deref().map(|p| ("--report", p)));
     outputs.extend(plot_files.iter().map(|p| ("--plot", p.as_path())));
     crate::paths::check_distinct(&[("--arc", &a.arc), ("--forces", &a.forces)], &outputs)?;
-    let outside = match a.outside.as_str() {
-        "warn" => OutsidePolicy::Warn,
-        "zero" => OutsidePolicy::Zero,
-        "refuse" => OutsidePolicy::Refuse,
-        o => {
-            return Err(CliError::input(format!(
-                "--outside {o}: expected warn, zero or refuse"
-            )))
-        }
-    };
-    if a.generations == 0 || a.population < 8 {
-        return Err(CliError::input(
-            "--generations must be at least 1 and --population at least 8",
-        ));
-    }
-    if let Some(t) = a.time_limit {
-        if !(t.is_finite() && t > 0.0) {
-            return Err(CliError::input(
-                "--time-limit must be a positive number of seconds",
-            ));
-        }
-    }
-    if let Some(n) = &a.name {
-        propagator::text::check_name("--name", n).map_err(CliError::input)?;
-    }
+    let outside = checked_options(&a)?;
     let estimate = parse_estimate(&a.estimate)?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
     // Check the model builds before the long work.
@@ -147,16 +123,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
         },
         ..LearnOptions::default()
     };
-    let mut builder = rayon::ThreadPoolBuilder::new();
-    if let Some(n) = a.threads {
-        if n == 0 {
-            return Err(CliError::input("--threads must be at least 1"));
-        }
-        builder = builder.num_threads(n);
-    }
-    let pool = builder
-        .build()
-        .map_err(|e| CliError::input(format!("--threads: {e}")))?;
+    let pool = thread_pool(a.threads)?;
     let mut fit_progress = FitProgress::new("learn: fit");
     let search_progress = SearchProgress::new("learn: search", a.generations);
     let learned = pool.install(|| {
@@ -173,17 +140,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
     search_progress.finish();
     let learned = learned.map_err(|e| CliError::input(format!("{}: {e}", a.arc.display())))?;
 
-    let name = a.name.clone().unwrap_or_else(|| {
-        a.arc
-            .file_stem()
-            .map(|s| {
-                propagator::text::sanitized(&s.to_string_lossy())
-                    .chars()
-                    .take(propagator::text::MAX_NAME_CHARS)
-                    .collect()
-            })
-            .unwrap_or_else(|| "learned".into())
-    });
+    let name = file_name(&a);
     let mut file = learned_file(&a, &arc, &context, &learned, &name, outside)?;
     write_atomically(&a.out, file.to_yaml().as_bytes()).map_err(CliError::input)?;
     summarize(&learned, &a.out);
@@ -208,6 +165,65 @@ pub fn run(a: Args) -> Result<(), CliError> {
             code: EXIT_CHECK_FAILED,
         })
     }
+}
+
+/// The options checked; the outside policy they name.
+fn checked_options(a: &Args) -> Result<OutsidePolicy, CliError> {
+    let outside = match a.outside.as_str() {
+        "warn" => OutsidePolicy::Warn,
+        "zero" => OutsidePolicy::Zero,
+        "refuse" => OutsidePolicy::Refuse,
+        o => {
+            return Err(CliError::input(format!(
+                "--outside {o}: expected warn, zero or refuse"
+            )))
+        }
+    };
+    if a.generations == 0 || a.population < 8 {
+        return Err(CliError::input(
+            "--generations must be at least 1 and --population at least 8",
+        ));
+    }
+    if let Some(t) = a.time_limit {
+        if !(t.is_finite() && t > 0.0) {
+            return Err(CliError::input(
+                "--time-limit must be a positive number of seconds",
+            ));
+        }
+    }
+    if let Some(n) = &a.name {
+        propagator::text::check_name("--name", n).map_err(CliError::input)?;
+    }
+    Ok(outside)
+}
+
+/// A pool of `threads` (all cores when `None`) for the search.
+fn thread_pool(threads: Option<usize>) -> Result<rayon::ThreadPool, CliError> {
+    let mut builder = rayon::ThreadPoolBuilder::new();
+    if let Some(n) = threads {
+        if n == 0 {
+            return Err(CliError::input("--threads must be at least 1"));
+        }
+        builder = builder.num_threads(n);
+    }
+    builder
+        .build()
+        .map_err(|e| CliError::input(format!("--threads: {e}")))
+}
+
+/// The learned force's name: `--name`, or the arc file's name made safe.
+fn file_name(a: &Args) -> String {
+    a.name.clone().unwrap_or_else(|| {
+        a.arc
+            .file_stem()
+            .map(|s| {
+                propagator::text::sanitized(&s.to_string_lossy())
+                    .chars()
+                    .take(propagator::text::MAX_NAME_CHARS)
+                    .collect()
+            })
+            .unwrap_or_else(|| "learned".into())
+    })
 }
 
 /// The learned file: the library assembles it; the command adds the provenance.

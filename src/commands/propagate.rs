@@ -8,9 +8,11 @@ use propagator::config::{ForcesFile, InitialState, StateFile};
 use propagator::ephemeris::{Ephemeris, EphemerisPoint, Format};
 use propagator::frames::Frame;
 use propagator::integrator::{Method, Settings};
-use propagator::propagation::{checked_output_grid, propagate, Options, Request, Termination};
+use propagator::propagation::{
+    checked_output_grid, propagate, Options, Propagated, Request, Termination,
+};
 use propagator::{Epoch, TimeAxis};
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 use std::time::Instant;
 
 /// Options of `arcwise propagate`.
@@ -170,21 +172,8 @@ pub fn run(a: Args) -> Result<(), CliError> {
         ]),
     )?;
     let frame = super::frame_option(&a.frame)?;
-    let method = Method::parse(&a.integrator).ok_or_else(|| {
-        CliError::input(format!(
-            "--integrator {}: expected rk4, dp54 or dp853",
-            a.integrator
-        ))
-    })?;
-    if !(a.step.is_finite() && a.step > 0.0) {
-        return Err(CliError::input(format!(
-            "--step {}: must be a positive number of seconds",
-            a.step
-        )));
-    }
-    if !a.floor_km.is_finite() {
-        return Err(CliError::input("--floor-km must be finite"));
-    }
+    let settings = checked_settings(&a)?;
+    let method = settings.method;
     Format::from_path(&a.out).map_err(CliError::input)?;
     let to = Epoch::parse_utc(&a.to).map_err(|e| CliError::input(format!("--to: {e}")))?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
@@ -205,16 +194,6 @@ pub fn run(a: Args) -> Result<(), CliError> {
             "--to equals the state's epoch: nothing to propagate",
         ));
     }
-    let settings = Settings {
-        method,
-        rtol: a.rtol,
-        atol: a.atol,
-        fixed_step_s: a.rk4_step,
-        max_step_s: a.max_step,
-        min_step_s: a.min_step,
-        ..Settings::default()
-    };
-    settings.validate().map_err(CliError::input)?;
     let options = Options {
         settings,
         altitude_floor_km: a.floor_km,
@@ -255,15 +234,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
     .map_err(CliError::input)?;
     eph.save(&a.out).map_err(CliError::input)?;
 
-    let (t_fin, x_fin) = result.final_state;
-    let end_epoch = axis.epoch(t_fin);
-    let (termination, decay) = match result.termination {
-        Termination::Completed => ("completed", serde_json::Value::Null),
-        Termination::Decayed { t_s, floor_km } => (
-            "decayed",
-            serde_json::json!({ "epoch_utc": axis.epoch(t_s).to_utc_string(), "floor_km": floor_km }),
-        ),
-    };
+    let end_epoch = axis.epoch(result.final_state.0);
     match result.termination {
         Termination::Completed => println!(
             "propagated {} → {} with {} ({}); {} states written to {}",
@@ -282,34 +253,105 @@ pub fn run(a: Args) -> Result<(), CliError> {
         ),
     }
     if let Some(path) = &a.report {
-        let stats = result.stats;
-        let report = serde_json::json!({
-            "command": "propagate",
-            "arcwise_version": env!("CARGO_PKG_VERSION"),
-            "forces_file": a.forces.display().to_string(),
-            "forces": loaded.model.names(),
-            "integrator": method.name(),
-            "rtol": a.rtol,
-            "atol": a.atol,
-            "start_utc": initial.epoch.to_utc_string(),
-            "requested_end_utc": to.to_utc_string(),
-            "termination": termination,
-            "decay": decay,
-            "final_state": state_json(&end_epoch, &x_fin),
-            "states_written": eph.points.len(),
-            "maneuvers_applied": result.maneuvers.iter().map(|m| serde_json::json!({
-                "epoch_utc": axis.epoch(m.t_s).to_utc_string(),
-                "dv_eci_km_s": [m.after[3] - m.before[3], m.after[4] - m.before[4], m.after[5] - m.before[5]],
-            })).collect::<Vec<_>>(),
-            "output_step_s": a.step,
-            "steps_accepted": stats.accepted,
-            "steps_rejected": stats.rejected,
-            "force_evaluations": stats.evaluations,
-            "wall_s": wall_s,
-            "output_file": a.out.display().to_string(),
-            "output_frame": frame.keyword(),
-        });
-        write_report(path, &report)?;
+        let run = Run {
+            method,
+            start: &initial.epoch,
+            to: &to,
+            axis: &axis,
+            wall_s,
+            states_written: eph.points.len(),
+            frame,
+        };
+        report(path, &a, &loaded.model.names(), &result, &run)?;
     }
     Ok(())
+}
+
+/// The integrator settings the options ask for, checked.
+fn checked_settings(a: &Args) -> Result<Settings, CliError> {
+    let method = Method::parse(&a.integrator).ok_or_else(|| {
+        CliError::input(format!(
+            "--integrator {}: expected rk4, dp54 or dp853",
+            a.integrator
+        ))
+    })?;
+    if !(a.step.is_finite() && a.step > 0.0) {
+        return Err(CliError::input(format!(
+            "--step {}: must be a positive number of seconds",
+            a.step
+        )));
+    }
+    if !a.floor_km.is_finite() {
+        return Err(CliError::input("--floor-km must be finite"));
+    }
+    let settings = Settings {
+        method,
+        rtol: a.rtol,
+        atol: a.atol,
+        fixed_step_s: a.rk4_step,
+        max_step_s: a.max_step,
+        min_step_s: a.min_step,
+        ..Settings::default()
+    };
+    settings.validate().map_err(CliError::input)?;
+    Ok(settings)
+}
+
+/// What the report says of the run besides the propagation's own result.
+struct Run<'a> {
+    method: Method,
+    start: &'a Epoch,
+    to: &'a Epoch,
+    axis: &'a TimeAxis,
+    wall_s: f64,
+    states_written: usize,
+    frame: Frame,
+}
+
+/// The JSON report of a propagation.
+fn report(
+    path: &Path,
+    a: &Args,
+    forces: &[String],
+    result: &Propagated,
+    run: &Run,
+) -> Result<(), CliError> {
+    let axis = run.axis;
+    let (t_fin, x_fin) = result.final_state;
+    let end_epoch = axis.epoch(t_fin);
+    let (termination, decay) = match result.termination {
+        Termination::Completed => ("completed", serde_json::Value::Null),
+        Termination::Decayed { t_s, floor_km } => (
+            "decayed",
+            serde_json::json!({ "epoch_utc": axis.epoch(t_s).to_utc_string(), "floor_km": floor_km }),
+        ),
+    };
+    let stats = result.stats;
+    let report = serde_json::json!({
+        "command": "propagate",
+        "arcwise_version": env!("CARGO_PKG_VERSION"),
+        "forces_file": a.forces.display().to_string(),
+        "forces": forces,
+        "integrator": run.method.name(),
+        "rtol": a.rtol,
+        "atol": a.atol,
+        "start_utc": run.start.to_utc_string(),
+        "requested_end_utc": run.to.to_utc_string(),
+        "termination": termination,
+        "decay": decay,
+        "final_state": state_json(&end_epoch, &x_fin),
+        "states_written": run.states_written,
+        "maneuvers_applied": result.maneuvers.iter().map(|m| serde_json::json!({
+            "epoch_utc": axis.epoch(m.t_s).to_utc_string(),
+            "dv_eci_km_s": [m.after[3] - m.before[3], m.after[4] - m.before[4], m.after[5] - m.before[5]],
+        })).collect::<Vec<_>>(),
+        "output_step_s": a.step,
+        "steps_accepted": stats.accepted,
+        "steps_rejected": stats.rejected,
+        "force_evaluations": stats.evaluations,
+        "wall_s": run.wall_s,
+        "output_file": a.out.display().to_string(),
+        "output_frame": run.frame.keyword(),
+    });
+    write_report(path, &report)
 }

@@ -9,12 +9,13 @@ use clap::Args as ClapArgs;
 use learned_forces::expr::Context;
 use learned_forces::fit::FitOptions;
 use learned_forces::learn::hypotheses::parse_hypotheses;
-use learned_forces::learn::rank::{best_explains, evidence_words, rank, Param};
+use learned_forces::learn::linearized::Problem;
+use learned_forces::learn::rank::{best_explains, evidence_words, rank, Hypothesis, Param, Ranked};
 use learned_forces::learn::{linearize, LearnOptions};
 use learned_forces::learned_file::LearnedResolver;
 use propagator::config::ForcesFile;
 use propagator::Epoch;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 /// The caution printed with every ranking and kept in its report.
 pub const RANK_NOTICE: &str = "Maneuver hypotheses from a covariance-free linearized fit: a screening aid only. Maneuver and collision-avoidance decisions follow the operator's own procedures and the applicable space-safety rules.";
@@ -58,34 +59,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
             ("--plot", a.plot.as_deref()),
         ]),
     )?;
-    let text = propagator::input::read_text(&a.hypotheses, propagator::input::MAX_CONFIG_BYTES)
-        .map_err(|e| CliError::input(format!("{}: {e}", a.hypotheses.display())))?;
-    let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
-    let (arc, _, _) = a.arc_options.load(&a.arc, &spec, &a.forces)?;
-    let t0 = arc.start();
-    let span_s = arc.end().seconds_since(&t0);
-    let hyps = parse_hypotheses(&text, &a.hypotheses, &t0, span_s).map_err(CliError::input)?;
-    let forces_path = a.forces.clone();
-    let spec2 = spec.clone();
-    let make = move |e: Epoch| {
-        spec2
-            .build_with(&forces_path, e, &LearnedResolver)
-            .map(|l| l.model)
-            .map_err(|e| e.to_string())
-    };
-    let ctx = Context::of_model(&spec, &a.forces, &t0)
-        .map_err(|e| CliError::input(format!("{}: {e}", a.forces.display())))?;
-    let options = LearnOptions {
-        fit: FitOptions {
-            estimate: parse_estimate(&a.estimate)?,
-            ..FitOptions::default()
-        },
-        ..LearnOptions::default()
-    };
-    let mut progress = FitProgress::new("rank: fit");
-    let lin = linearize(&arc, &make, ctx, &options, &mut progress);
-    progress.finish();
-    let (_, problem) = lin.map_err(|e| CliError::input(format!("{}: {e}", a.arc.display())))?;
+    let (t0, problem, hyps) = linearized_arc(&a)?;
     let ranked = rank(&problem, &hyps);
     let alpha = FitOptions::default().alpha;
     let explains = best_explains(&ranked, alpha);
@@ -94,24 +68,10 @@ pub fn run(a: Args) -> Result<(), CliError> {
         .find(|r| r.name == "no_maneuver")
         .map(|r| r.bic)
         .unwrap_or_else(|| problem.base_cost());
-    // Timing parameters are seconds from the arc's start; shown as UTC under a UTC name.
-    let timing = |name: &str| name == "epoch_s" || name == "start_s";
-    let shown = |p: &Param| {
-        if timing(&p.name) {
-            format!(
-                "{} = {} ± {:.1} s",
-                p.name.replace("_s", "_utc"),
-                t0.plus_seconds(p.value),
-                p.sigma
-            )
-        } else {
-            format!("{} = {:.6e} ± {:.2e}", p.name, p.value, p.sigma)
-        }
-    };
     println!("{RANK_NOTICE}");
     println!("Maneuver hypotheses ranked by BIC (ΔBIC against no maneuver; evidence on the Kass–Raftery scale):");
     for (i, r) in ranked.iter().enumerate() {
-        let params: Vec<String> = r.params.iter().map(shown).collect();
+        let params: Vec<String> = r.params.iter().map(|p| shown(p, &t0)).collect();
         println!(
             "  {}. {:<24} ΔBIC {:>+12.1}  evidence {:<20} χ²/dof {:>8.2}  {}",
             i + 1,
@@ -161,36 +121,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
         write_report(path, &report)?;
     }
     if let Some(path) = &a.plot {
-        // χ² above the best of all, against the trial time: how sharply the data pin the
-        // timing down, and whether a second minimum competes.
-        let floor = ranked.iter().map(|r| r.cost).fold(f64::INFINITY, f64::min);
-        let panels: Vec<Panel> = ranked
-            .iter()
-            .filter(|r| !r.scan.is_empty())
-            .map(|r| Panel {
-                y_label: "χ² − best χ²".into(),
-                series: vec![Series {
-                    name: format!("{} (best fit at {})", r.name, shown(&r.params[0])),
-                    points: r
-                        .scan
-                        .iter()
-                        .filter(|(_, c)| c.is_finite())
-                        .map(|(t, c)| (t / 3600.0, c - floor))
-                        .collect(),
-                    points_only: false,
-                }],
-                marks: vec![("fitted timing".into(), r.params[0].value / 3600.0)],
-                ..Panel::default()
-            })
-            .collect();
-        if !panels.is_empty() {
-            write_panels(
-                path,
-                "Maneuver timing scans",
-                &format!("hours since {t0}"),
-                &panels,
-            )?;
-        }
+        plot_scans(path, &ranked, &t0)?;
     }
     if !explains {
         return Err(CliError {
@@ -199,4 +130,90 @@ pub fn run(a: Args) -> Result<(), CliError> {
         });
     }
     Ok(())
+}
+
+/// The arc, the base fit's linearized problem around it, and the hypotheses.
+fn linearized_arc(a: &Args) -> Result<(Epoch, Problem, Vec<Hypothesis>), CliError> {
+    let text = propagator::input::read_text(&a.hypotheses, propagator::input::MAX_CONFIG_BYTES)
+        .map_err(|e| CliError::input(format!("{}: {e}", a.hypotheses.display())))?;
+    let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
+    let (arc, _, _) = a.arc_options.load(&a.arc, &spec, &a.forces)?;
+    let t0 = arc.start();
+    let span_s = arc.end().seconds_since(&t0);
+    let hyps = parse_hypotheses(&text, &a.hypotheses, &t0, span_s).map_err(CliError::input)?;
+    let forces_path = a.forces.clone();
+    let spec2 = spec.clone();
+    let make = move |e: Epoch| {
+        spec2
+            .build_with(&forces_path, e, &LearnedResolver)
+            .map(|l| l.model)
+            .map_err(|e| e.to_string())
+    };
+    let ctx = Context::of_model(&spec, &a.forces, &t0)
+        .map_err(|e| CliError::input(format!("{}: {e}", a.forces.display())))?;
+    let options = LearnOptions {
+        fit: FitOptions {
+            estimate: parse_estimate(&a.estimate)?,
+            ..FitOptions::default()
+        },
+        ..LearnOptions::default()
+    };
+    let mut progress = FitProgress::new("rank: fit");
+    let lin = linearize(&arc, &make, ctx, &options, &mut progress);
+    progress.finish();
+    let (_, problem) = lin.map_err(|e| CliError::input(format!("{}: {e}", a.arc.display())))?;
+    Ok((t0, problem, hyps))
+}
+
+/// Timing parameters are seconds from the arc's start.
+fn timing(name: &str) -> bool {
+    name == "epoch_s" || name == "start_s"
+}
+
+/// A parameter as printed: a timing as UTC under a UTC name.
+fn shown(p: &Param, t0: &Epoch) -> String {
+    if timing(&p.name) {
+        format!(
+            "{} = {} ± {:.1} s",
+            p.name.replace("_s", "_utc"),
+            t0.plus_seconds(p.value),
+            p.sigma
+        )
+    } else {
+        format!("{} = {:.6e} ± {:.2e}", p.name, p.value, p.sigma)
+    }
+}
+
+/// χ² above the best of all, against the trial time: how sharply the data pin the
+/// timing down, and whether a second minimum competes.
+fn plot_scans(path: &Path, ranked: &[Ranked], t0: &Epoch) -> Result<(), CliError> {
+    let floor = ranked.iter().map(|r| r.cost).fold(f64::INFINITY, f64::min);
+    let panels: Vec<Panel> = ranked
+        .iter()
+        .filter(|r| !r.scan.is_empty())
+        .map(|r| Panel {
+            y_label: "χ² − best χ²".into(),
+            series: vec![Series {
+                name: format!("{} (best fit at {})", r.name, shown(&r.params[0], t0)),
+                points: r
+                    .scan
+                    .iter()
+                    .filter(|(_, c)| c.is_finite())
+                    .map(|(t, c)| (t / 3600.0, c - floor))
+                    .collect(),
+                points_only: false,
+            }],
+            marks: vec![("fitted timing".into(), r.params[0].value / 3600.0)],
+            ..Panel::default()
+        })
+        .collect();
+    if panels.is_empty() {
+        return Ok(());
+    }
+    write_panels(
+        path,
+        "Maneuver timing scans",
+        &format!("hours since {t0}"),
+        &panels,
+    )
 }
