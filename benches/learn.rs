@@ -26,7 +26,13 @@ fn problem() -> Problem {
             .unwrap()
             .model
     };
-    let base = fit(&sim.train, model(), &FitOptions::default(), &mut QuietFit).unwrap();
+    let base = fit(
+        &sim.train,
+        model().into(),
+        &FitOptions::default(),
+        &mut QuietFit,
+    )
+    .unwrap();
     let t_obs: Vec<f64> = sim
         .train
         .observations

@@ -30,11 +30,8 @@ fn fit_spec(
         .known
         .build(Path::new("forces"), sim.train.start())
         .unwrap();
-    let options = FitOptions {
-        estimate,
-        ..FitOptions::default()
-    };
-    let r = fit(&sim.train, forces.model, &options, &mut QuietFit).unwrap();
+    let model = FitModel::new(forces.model, &estimate, None).unwrap();
+    let r = fit(&sim.train, model, &FitOptions::default(), &mut QuietFit).unwrap();
     (r, sim.initial.state, sim.train)
 }
 
@@ -127,7 +124,7 @@ fn stm_and_sensitivities_match_central_differences_over_a_day() {
         Parameter::EmpiricalConstant(1),
         Parameter::EmpiricalCos(0),
     ];
-    let mut fm = FitModel::new(make(), params.clone()).unwrap();
+    let mut fm = FitModel::new(make(), &params, None).unwrap();
     fm.values = vec![1.0, 1e-9, 5e-10];
     let x0 = models.initial.state;
     let options = Options {
@@ -168,8 +165,8 @@ fn stm_and_sensitivities_match_central_differences_over_a_day() {
     for k in 0..params.len() {
         // Steps large enough that integration noise (rtol 1e-13) stays below 1e-7.
         let h = [1e-3, 1e-10, 1e-10][k];
-        let mut fp = FitModel::new(make(), params.clone()).unwrap();
-        let mut fmn = FitModel::new(make(), params.clone()).unwrap();
+        let mut fp = FitModel::new(make(), &params, None).unwrap();
+        let mut fmn = FitModel::new(make(), &params, None).unwrap();
         fp.values = fm.values.clone();
         fmn.values = fm.values.clone();
         fp.values[k] += h;
@@ -199,7 +196,7 @@ fn outliers_are_edited_and_reported() {
         .unwrap();
     let r = fit(
         &sim.train,
-        forces.model,
+        forces.model.into(),
         &FitOptions::default(),
         &mut QuietFit,
     )
@@ -230,9 +227,14 @@ fn too_short_or_degenerate_arcs_are_refused_clearly() {
         .known
         .build(Path::new("forces"), two.start())
         .unwrap();
-    let e = fit(&two, forces.model, &FitOptions::default(), &mut QuietFit)
-        .unwrap_err()
-        .to_string();
+    let e = fit(
+        &two,
+        forces.model.into(),
+        &FitOptions::default(),
+        &mut QuietFit,
+    )
+    .unwrap_err()
+    .to_string();
     assert!(e.contains("too few"), "{e}");
     // A drag scale without drag in the model.
     let forces = propagator::config::ForcesFile::parse(
@@ -242,13 +244,9 @@ fn too_short_or_degenerate_arcs_are_refused_clearly() {
     .unwrap()
     .build(Path::new("f.yaml"), sim.train.start())
     .unwrap();
-    let o = FitOptions {
-        estimate: vec![Parameter::DragScale],
-        ..FitOptions::default()
-    };
-    let e = fit(&sim.train, forces.model, &o, &mut QuietFit)
-        .unwrap_err()
-        .to_string();
+    let e = FitModel::new(forces.model, &[Parameter::DragScale], None)
+        .err()
+        .unwrap();
     assert!(e.contains("no drag"), "{e}");
 }
 
@@ -316,7 +314,13 @@ fn fit_smooth(spec: &ScenarioSpec, path: &Path, sigma_km: f64) -> FitResult {
         .known
         .build(Path::new("forces"), arc.start())
         .unwrap();
-    fit(&arc, forces.model, &FitOptions::default(), &mut QuietFit).unwrap()
+    fit(
+        &arc,
+        forces.model.into(),
+        &FitOptions::default(),
+        &mut QuietFit,
+    )
+    .unwrap()
 }
 
 #[test]
@@ -364,13 +368,19 @@ fn the_fit_says_why_it_stopped() {
             .unwrap()
             .model
     };
-    let r = fit(&sim.train, build(), &FitOptions::default(), &mut QuietFit).unwrap();
+    let r = fit(
+        &sim.train,
+        build().into(),
+        &FitOptions::default(),
+        &mut QuietFit,
+    )
+    .unwrap();
     assert!(r.termination.converged(), "{:?}", r.termination);
     let short = FitOptions {
         max_iterations: 1,
         ..FitOptions::default()
     };
-    let r = fit(&sim.train, build(), &short, &mut QuietFit).unwrap();
+    let r = fit(&sim.train, build().into(), &short, &mut QuietFit).unwrap();
     assert_eq!(
         r.termination,
         learned_forces::termination::Termination::IterationLimit

@@ -6,7 +6,7 @@ use crate::progress::FitProgress;
 use crate::report::{state_json, write_report};
 use clap::Args as ClapArgs;
 use learned_forces::arc::Arc;
-use learned_forces::fit::model::Parameter;
+use learned_forces::fit::model::{FitModel, Parameter};
 use learned_forces::fit::{fit, FitOptions, FitResult};
 use learned_forces::model_error::ModelError;
 use propagator::config::ForcesFile;
@@ -59,17 +59,20 @@ pub fn parse_estimate(items: &[String]) -> Result<Vec<Parameter>, CliError> {
     Ok(out)
 }
 
-/// Loads an arc and a force model on the arc's time axis, and fits.
+/// Loads an arc and a force model on the arc's time axis, and fits it with the
+/// `estimate` parameters.
 pub fn load_and_fit(
     arc_path: &Path,
     forces_path: &Path,
     arc_options: &super::ArcOptions,
-    options: &FitOptions,
+    (estimate, options): (&[Parameter], &FitOptions),
 ) -> Result<(Arc, ForcesFile, FitResult, ModelError), CliError> {
     let spec = ForcesFile::load(forces_path).map_err(CliError::input)?;
     let (arc, loaded, model_error) = arc_options.load(arc_path, &spec, forces_path)?;
+    let model = FitModel::new(loaded.model, estimate, None)
+        .map_err(|e| CliError::input(format!("{}: {e}", forces_path.display())))?;
     let mut progress = FitProgress::new("fit");
-    let result = fit(&arc, loaded.model, options, &mut progress);
+    let result = fit(&arc, model, options, &mut progress);
     progress.finish();
     let result = result.map_err(|e| CliError::input(format!("{}: {e}", arc_path.display())))?;
     Ok((arc, spec, result, model_error))
@@ -156,8 +159,8 @@ pub fn run(a: Args) -> Result<(), CliError> {
             ("--plot", a.plot.as_deref()),
         ]),
     )?;
+    let estimate = parse_estimate(&a.estimate)?;
     let options = FitOptions {
-        estimate: parse_estimate(&a.estimate)?,
         edit_sigma: a.edit_sigma,
         alpha: a.alpha,
         ..FitOptions::default()
@@ -168,7 +171,8 @@ pub fn run(a: Args) -> Result<(), CliError> {
     if !(a.alpha > 0.0 && a.alpha < 0.5) {
         return Err(CliError::input("--alpha must be between 0 and 0.5"));
     }
-    let (_, _, r, model_error) = load_and_fit(&a.arc, &a.forces, &a.arc_options, &options)?;
+    let (_, _, r, model_error) =
+        load_and_fit(&a.arc, &a.forces, &a.arc_options, (&estimate, &options))?;
     let v = &r.verdict;
     if model_error.floor_km > 0.0 {
         println!(

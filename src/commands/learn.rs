@@ -9,7 +9,6 @@ use crate::report::write_report;
 use clap::Args as ClapArgs;
 use learned_forces::arc::Arc;
 use learned_forces::expr::Context;
-use learned_forces::fit::FitOptions;
 use learned_forces::learn::search::SearchOptions;
 use learned_forces::learn::{learn, model_text, trajectory, LearnOptions, Learned, Outcome};
 use learned_forces::learned_file::{
@@ -110,10 +109,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
     let context = Context::of_model(&spec, &a.forces, &arc.start())
         .map_err(|e| CliError::input(format!("{}: {e}", a.forces.display())))?;
     let options = LearnOptions {
-        fit: FitOptions {
-            estimate,
-            ..FitOptions::default()
-        },
+        estimate,
         search: SearchOptions {
             population: a.population,
             generations: a.generations,

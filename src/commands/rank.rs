@@ -152,10 +152,7 @@ fn linearized_arc(a: &Args) -> Result<(Epoch, Problem, Vec<Hypothesis>), CliErro
     let ctx = Context::of_model(&spec, &a.forces, &t0)
         .map_err(|e| CliError::input(format!("{}: {e}", a.forces.display())))?;
     let options = LearnOptions {
-        fit: FitOptions {
-            estimate: parse_estimate(&a.estimate)?,
-            ..FitOptions::default()
-        },
+        estimate: parse_estimate(&a.estimate)?,
         ..LearnOptions::default()
     };
     let mut progress = FitProgress::new("rank: fit");

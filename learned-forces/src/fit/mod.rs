@@ -17,7 +17,7 @@ use propagator::frames::eci_to_rtn;
 use propagator::integrator::{Method, Settings};
 use propagator::propagation::{Options, Request, Silent};
 use propagator::variational::{propagate_with_partials, VariationalSample};
-use propagator::{Epoch, ForceModel, StateVector};
+use propagator::{Epoch, StateVector};
 
 /// Receives progress of a fit (for a progress display; the numerics ignore it).
 pub trait FitObserver {
@@ -39,8 +39,6 @@ impl FitObserver for QuietFit {}
 /// Options of a fit.
 #[derive(Clone, Debug)]
 pub struct FitOptions {
-    /// Parameters to estimate besides the initial state.
-    pub estimate: Vec<Parameter>,
     /// Integrator settings for the propagations.
     pub settings: Settings,
     /// Most Gauss–Newton iterations per stage.
@@ -60,17 +58,11 @@ pub struct FitOptions {
     pub initial_state: Option<StateVector>,
     /// Altitude floor for the propagations, km.
     pub altitude_floor_km: f64,
-    /// Formula terms added to the dynamics (their coefficients and constants can be
-    /// estimated as `TermCoefficient`/`TermConstant` parameters).
-    pub extra: Option<model::ExtraTerms>,
-    /// Starting values of the parameters (same order as `estimate`).
-    pub initial_values: Option<Vec<f64>>,
 }
 
 impl Default for FitOptions {
     fn default() -> Self {
         Self {
-            estimate: Vec::new(),
             settings: Settings {
                 method: Method::Dp853,
                 rtol: 1e-12,
@@ -84,8 +76,6 @@ impl Default for FitOptions {
             structure_floor_sigma: 0.5,
             initial_state: None,
             altitude_floor_km: 80.0,
-            extra: None,
-            initial_values: None,
         }
     }
 }
@@ -450,10 +440,12 @@ fn initial_guess(arc: &Arc, t: &[f64]) -> Result<StateVector, FitError> {
     Ok(x)
 }
 
-/// Fits `arc` with `model` (whose time axis must start at the arc's first epoch).
+/// Fits `arc` with `model` — the known forces (whose time axis must start at the arc's
+/// first epoch) and the parametrized forces whose parameters are estimated with the
+/// state, from `model.values`.
 pub fn fit(
     arc: &Arc,
-    model: ForceModel,
+    model: FitModel,
     options: &FitOptions,
     observer: &mut dyn FitObserver,
 ) -> Result<FitResult, FitError> {
@@ -464,7 +456,8 @@ pub fn fit(
         .iter()
         .map(|o| o.epoch.seconds_since(&epoch0))
         .collect();
-    let n_params = options.estimate.len();
+    let parameters = model.parameters();
+    let n_params = parameters.len();
     let n_est = 6 + n_params;
     let n_meas: usize = arc
         .observations
@@ -481,14 +474,8 @@ pub fn fit(
         t: t.clone(),
         options,
     };
-    let mut fm = FitModel::new(model, options.estimate.clone()).map_err(FitError::Unfit)?;
-    fm.extra = options.extra.clone();
-    let start_values: Vec<f64> = match &options.initial_values {
-        Some(v) if v.len() == options.estimate.len() => v.clone(),
-        Some(_) => return Err(FitError::Unfit("initial_values must match estimate".into())),
-        None => options.estimate.iter().map(|p| p.initial_value()).collect(),
-    };
-    fm.values = start_values.clone();
+    let mut fm = model;
+    let start_values = fm.values.clone();
     let mut x0 = match options.initial_state {
         Some(x) => x,
         None => initial_guess(arc, &t)?,
@@ -527,8 +514,7 @@ pub fn fit(
         );
         verdict.anomaly = true;
     }
-    let estimates = options
-        .estimate
+    let estimates = parameters
         .iter()
         .enumerate()
         .map(|(k, p)| Estimate {
@@ -597,22 +583,18 @@ fn run_stages(
     editing: &mut Editing,
     observer: &mut dyn FitObserver,
 ) -> Result<(Linearized, usize, Termination), FitError> {
-    let estimate = &problem.options.estimate;
+    let n_params = start_values.len();
     let stages = stage_ends.len();
     let mut iterations = 0;
     let mut termination = Termination::IterationLimit;
     let mut lin = None;
     for (si, &last) in stage_ends.iter().enumerate() {
         let final_stage = si + 1 == stages;
-        let n_here = if final_stage { 6 + estimate.len() } else { 6 };
-        if !final_stage {
-            fm.parameters.clear();
-            fm.values.clear();
-        } else {
-            fm.parameters = estimate.clone();
-            if fm.values.len() != fm.parameters.len() {
-                fm.values = start_values.to_vec();
-            }
+        let n_here = if final_stage { 6 + n_params } else { 6 };
+        // The parameters join in the last stage only, from their start.
+        fm.set_estimating(final_stage);
+        if final_stage {
+            fm.values = start_values.to_vec();
         }
         let mut edit_passes = 0;
         loop {

@@ -1,5 +1,6 @@
-//! The dynamics of an orbit fit: a force model plus estimated classical parameters
-//! (drag and SRP scale factors, empirical RTN accelerations).
+//! The dynamics of an orbit fit: a force model plus parametrized forces — drag and SRP
+//! scale factors, empirical RTN accelerations, learned formula terms — whose parameters
+//! the fit estimates.
 
 use nalgebra::{Matrix3, Matrix3x6, Vector3};
 use propagator::force::{central_difference_partials, Force, ForceError, ScaleKind, Segment};
@@ -42,6 +43,14 @@ impl Parameter {
         }
     }
 
+    /// Whether it is a learned term's coefficient or constant.
+    pub fn is_term(&self) -> bool {
+        matches!(
+            self,
+            Parameter::TermCoefficient(_) | Parameter::TermConstant(_)
+        )
+    }
+
     /// Value before the fit (scales 1, accelerations 0).
     pub fn initial_value(&self) -> f64 {
         match self {
@@ -82,46 +91,352 @@ pub fn argument_of_latitude(x: &StateVector) -> f64 {
     h.dot(&n.cross(&r)).atan2(n.dot(&r))
 }
 
-/// A force model with multipliers and empirical accelerations that a fit adjusts.
-pub struct FitModel {
-    model: ForceModel,
-    /// Extra formula terms Σ c_i g_i(t, x; k) whose coefficients and constants are
-    /// `TermCoefficient`/`TermConstant` parameters (the learner's refinement).
-    pub extra: Option<ExtraTerms>,
-    /// The estimated parameters, in order.
-    pub parameters: Vec<Parameter>,
-    /// Their current values.
-    pub values: Vec<f64>,
-    drag_index: Option<usize>,
-    srp_index: Option<usize>,
+/// A force whose parameters a fit can estimate: what it adds to the known model, and its
+/// partials with respect to the state and to its parameters. Drag and SRP scales
+/// ([`ScaleFactor`]), empirical RTN accelerations ([`EmpiricalRtn`]) and learned formula
+/// terms ([`LearnedTerms`]) implement it; the fit sees only this trait.
+///
+/// `values` are the force's own parameters, in the order of [`Parametrized::parameters`];
+/// `None` means the force is not estimated at this stage of the fit and sits at rest
+/// (a scale at 1, an empirical term at 0, learned terms at their stored values).
+pub trait Parametrized: Send + Sync {
+    /// Its parameters, in order (named by [`Parameter::name`]).
+    fn parameters(&self) -> &[Parameter];
+
+    /// A parameter's value at rest, where the fit starts it.
+    fn start_value(&self, p: Parameter) -> f64 {
+        p.initial_value()
+    }
+
+    /// The factor it puts on the known model's force number `index`, if any.
+    fn scale_of(&self, _index: usize, _values: Option<&[f64]>) -> Option<f64> {
+        None
+    }
+
+    /// The acceleration it adds, km/s², ECI.
+    fn acceleration(&self, t_s: f64, x: &StateVector, values: Option<&[f64]>) -> Vector3<f64>;
+
+    /// ∂(that acceleration)/∂(r, v); `None` when it adds nothing that depends on the state.
+    fn state_partials(
+        &self,
+        t_s: f64,
+        x: &StateVector,
+        values: Option<&[f64]>,
+    ) -> Result<Option<Matrix3x6<f64>>, ForceError>;
+
+    /// ∂a/∂(each parameter) into `out` (one vector per parameter), at `values`, where
+    /// `model` is the known force model (a scale's partial is its force).
+    fn param_partials(
+        &self,
+        model: &ForceModel,
+        t_s: f64,
+        x: &StateVector,
+        segment: Segment,
+        values: &[f64],
+        out: &mut [Vector3<f64>],
+    ) -> Result<(), ForceError>;
 }
 
-impl FitModel {
-    /// Wraps `model`; `parameters` start at their initial values. A scale of a force the
-    /// model does not have is an error.
-    pub fn new(model: ForceModel, parameters: Vec<Parameter>) -> Result<Self, String> {
-        let find = |kind: ScaleKind| model.forces().iter().position(|f| f.scale() == Some(kind));
-        let drag_index = find(ScaleKind::Drag);
-        let srp_index = find(ScaleKind::Srp);
-        for p in &parameters {
+/// A multiplier on one force of the known model (`drag_scale`, `srp_scale`).
+pub struct ScaleFactor {
+    parameter: [Parameter; 1],
+    /// The force it scales, by position in the known model.
+    index: usize,
+}
+
+impl Parametrized for ScaleFactor {
+    fn parameters(&self) -> &[Parameter] {
+        &self.parameter
+    }
+
+    fn scale_of(&self, index: usize, values: Option<&[f64]>) -> Option<f64> {
+        match values {
+            Some(v) if index == self.index => Some(v[0]),
+            _ => None,
+        }
+    }
+
+    fn acceleration(&self, _t: f64, _x: &StateVector, _v: Option<&[f64]>) -> Vector3<f64> {
+        Vector3::zeros()
+    }
+
+    fn state_partials(
+        &self,
+        _t: f64,
+        _x: &StateVector,
+        _v: Option<&[f64]>,
+    ) -> Result<Option<Matrix3x6<f64>>, ForceError> {
+        Ok(None)
+    }
+
+    fn param_partials(
+        &self,
+        model: &ForceModel,
+        t_s: f64,
+        x: &StateVector,
+        segment: Segment,
+        _values: &[f64],
+        out: &mut [Vector3<f64>],
+    ) -> Result<(), ForceError> {
+        // The unscaled force, seen in its own segment.
+        let k = self.index;
+        out[0] = model.forces()[k].acceleration_in(t_s, x, model.segment_for(k, segment))?;
+        Ok(())
+    }
+}
+
+/// Empirical accelerations along R, T, N: constants and once-per-revolution terms.
+pub struct EmpiricalRtn {
+    parameters: Vec<Parameter>,
+}
+
+impl EmpiricalRtn {
+    /// The acceleration, ECI, at `values`.
+    fn at(&self, x: &StateVector, values: &[f64]) -> Vector3<f64> {
+        let u = argument_of_latitude(x);
+        let (su, cu) = u.sin_cos();
+        let mut rtn = Vector3::zeros();
+        for (p, v) in self.parameters.iter().zip(values) {
             match p {
-                Parameter::DragScale if drag_index.is_none() => {
-                    return Err("cannot estimate drag_scale: the force model has no drag".into())
-                }
-                Parameter::SrpScale if srp_index.is_none() => {
-                    return Err("cannot estimate srp_scale: the force model has no srp".into())
-                }
+                Parameter::EmpiricalConstant(a) => rtn[*a] += v,
+                Parameter::EmpiricalCos(a) => rtn[*a] += v * cu,
+                Parameter::EmpiricalSin(a) => rtn[*a] += v * su,
+                Parameter::DragScale
+                | Parameter::SrpScale
+                | Parameter::TermCoefficient(_)
+                | Parameter::TermConstant(_) => {}
+            }
+        }
+        rtn_matrix(x).transpose() * rtn
+    }
+
+    /// The values when any is non-zero (zero terms add nothing, and cost nothing).
+    fn active(values: Option<&[f64]>) -> Option<&[f64]> {
+        values.filter(|v| v.iter().any(|x| *x != 0.0))
+    }
+}
+
+/// The empirical term alone, as a force, so its state partials come from the shared
+/// central difference.
+struct EmpiricalForce<'a>(&'a EmpiricalRtn, &'a [f64]);
+
+impl Force for EmpiricalForce<'_> {
+    fn name(&self) -> &str {
+        "empirical"
+    }
+    fn acceleration(&self, _t: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
+        Ok(self.0.at(x, self.1))
+    }
+}
+
+impl Parametrized for EmpiricalRtn {
+    fn parameters(&self) -> &[Parameter] {
+        &self.parameters
+    }
+
+    fn acceleration(&self, _t: f64, x: &StateVector, values: Option<&[f64]>) -> Vector3<f64> {
+        match Self::active(values) {
+            Some(v) => self.at(x, v),
+            None => Vector3::zeros(),
+        }
+    }
+
+    fn state_partials(
+        &self,
+        t_s: f64,
+        x: &StateVector,
+        values: Option<&[f64]>,
+    ) -> Result<Option<Matrix3x6<f64>>, ForceError> {
+        match Self::active(values) {
+            Some(v) => central_difference_partials(&EmpiricalForce(self, v), t_s, x).map(Some),
+            None => Ok(None),
+        }
+    }
+
+    fn param_partials(
+        &self,
+        _model: &ForceModel,
+        _t: f64,
+        x: &StateVector,
+        _segment: Segment,
+        _values: &[f64],
+        out: &mut [Vector3<f64>],
+    ) -> Result<(), ForceError> {
+        let (su, cu) = argument_of_latitude(x).sin_cos();
+        let m = rtn_matrix(x);
+        for (k, p) in self.parameters.iter().enumerate() {
+            let (a, w) = match p {
+                Parameter::EmpiricalConstant(a) => (*a, 1.0),
+                Parameter::EmpiricalCos(a) => (*a, cu),
+                Parameter::EmpiricalSin(a) => (*a, su),
+                Parameter::DragScale
+                | Parameter::SrpScale
+                | Parameter::TermCoefficient(_)
+                | Parameter::TermConstant(_) => continue,
+            };
+            out[k] = m.row(a).transpose() * w;
+        }
+        Ok(())
+    }
+}
+
+/// Learned formula terms Σ c_i g_i(t, x; k) whose coefficients and constants are
+/// estimated (the learner's refinement and final fit).
+pub struct LearnedTerms {
+    terms: ExtraTerms,
+    parameters: Vec<Parameter>,
+}
+
+impl LearnedTerms {
+    /// Coefficients and constants: the stored ones, overridden by `values`.
+    fn current(&self, values: Option<&[f64]>) -> (Vec<f64>, Vec<f64>) {
+        let mut c = self.terms.coefficients.clone();
+        let mut k = self.terms.constants.clone();
+        for (p, v) in self.parameters.iter().zip(values.unwrap_or(&[])) {
+            match p {
+                Parameter::TermCoefficient(i) if *i < c.len() => c[*i] = *v,
+                Parameter::TermConstant(i) if *i < k.len() => k[*i] = *v,
                 _ => {}
             }
         }
-        let values = parameters.iter().map(|p| p.initial_value()).collect();
+        (c, k)
+    }
+}
+
+impl Parametrized for LearnedTerms {
+    fn parameters(&self) -> &[Parameter] {
+        &self.parameters
+    }
+
+    fn start_value(&self, p: Parameter) -> f64 {
+        match p {
+            Parameter::TermCoefficient(i) => self.terms.coefficients.get(i).copied().unwrap_or(0.0),
+            Parameter::TermConstant(j) => self.terms.constants.get(j).copied().unwrap_or(1.0),
+            other => other.initial_value(),
+        }
+    }
+
+    fn acceleration(&self, t_s: f64, x: &StateVector, values: Option<&[f64]>) -> Vector3<f64> {
+        let (c, k) = self.current(values);
+        self.terms.acceleration(t_s, x, &c, &k)
+    }
+
+    fn state_partials(
+        &self,
+        t_s: f64,
+        x: &StateVector,
+        values: Option<&[f64]>,
+    ) -> Result<Option<Matrix3x6<f64>>, ForceError> {
+        let (c, k) = self.current(values);
+        Ok(Some(self.terms.partials(t_s, x, &c, &k)))
+    }
+
+    fn param_partials(
+        &self,
+        _model: &ForceModel,
+        t_s: f64,
+        x: &StateVector,
+        _segment: Segment,
+        values: &[f64],
+        out: &mut [Vector3<f64>],
+    ) -> Result<(), ForceError> {
+        let (c, kv) = self.current(Some(values));
+        let e = &self.terms;
+        for (slot, p) in out.iter_mut().zip(&self.parameters) {
+            *slot = match p {
+                Parameter::TermCoefficient(i) => e.term(*i, t_s, x, &kv),
+                Parameter::TermConstant(j) => {
+                    let h = 1e-6 * kv[*j].abs().max(1e-12);
+                    let (mut kp, mut km) = (kv.clone(), kv.clone());
+                    kp[*j] += h;
+                    km[*j] -= h;
+                    (e.acceleration(t_s, x, &c, &kp) - e.acceleration(t_s, x, &c, &km)) / (2.0 * h)
+                }
+                Parameter::DragScale
+                | Parameter::SrpScale
+                | Parameter::EmpiricalConstant(_)
+                | Parameter::EmpiricalCos(_)
+                | Parameter::EmpiricalSin(_) => Vector3::zeros(),
+            };
+        }
+        Ok(())
+    }
+}
+
+/// The dynamics a fit adjusts: the known force model and the parametrized forces on
+/// top, with the values of all their parameters (concatenated in the forces' order).
+pub struct FitModel {
+    model: ForceModel,
+    parts: Vec<Box<dyn Parametrized>>,
+    /// Values of every parameter, in the order of [`FitModel::parameters`].
+    pub values: Vec<f64>,
+    /// False while a fit estimates the state alone (its early stages): every force then
+    /// sits at rest.
+    estimating: bool,
+}
+
+impl FitModel {
+    /// The known `model` with forces estimating `parameters` (in that order) and the
+    /// learned `terms`, which carry the term parameters. Values start at rest (scales 1,
+    /// accelerations 0, learned terms at their stored coefficients and constants). A
+    /// scale of a force the model does not have, or term parameters without terms (or
+    /// not in one run), is an error.
+    pub fn new(
+        model: ForceModel,
+        parameters: &[Parameter],
+        terms: Option<ExtraTerms>,
+    ) -> Result<Self, String> {
+        let mut parts: Vec<Box<dyn Parametrized>> = Vec::new();
+        let mut terms = terms;
+        // Consecutive empirical, or term, parameters make one force.
+        let mut run: Vec<Parameter> = Vec::new();
+        for &p in parameters {
+            let scale = match p {
+                Parameter::DragScale => Some((ScaleKind::Drag, "drag")),
+                Parameter::SrpScale => Some((ScaleKind::Srp, "srp")),
+                _ => None,
+            };
+            let breaks = scale.is_some() || run.first().is_some_and(|q| q.is_term() != p.is_term());
+            if breaks {
+                close_run(&mut run, &mut parts, &mut terms)?;
+            }
+            match scale {
+                Some((kind, name)) => {
+                    let index = model
+                        .forces()
+                        .iter()
+                        .position(|f| f.scale() == Some(kind))
+                        .ok_or_else(|| {
+                            format!(
+                                "cannot estimate {}: the force model has no {name}",
+                                p.name()
+                            )
+                        })?;
+                    parts.push(Box::new(ScaleFactor {
+                        parameter: [p],
+                        index,
+                    }));
+                }
+                None => run.push(p),
+            }
+        }
+        close_run(&mut run, &mut parts, &mut terms)?;
+        // Terms with no estimated parameter are still part of the dynamics.
+        if let Some(terms) = terms {
+            parts.push(Box::new(LearnedTerms {
+                terms,
+                parameters: vec![],
+            }));
+        }
+        let values = parts
+            .iter()
+            .flat_map(|f| f.parameters().iter().map(|p| f.start_value(*p)))
+            .collect();
         Ok(Self {
             model,
-            extra: None,
-            parameters,
+            parts,
             values,
-            drag_index,
-            srp_index,
+            estimating: true,
         })
     }
 
@@ -130,75 +445,69 @@ impl FitModel {
         &self.model
     }
 
-    fn multiplier(&self, force_index: usize) -> f64 {
-        for (p, v) in self.parameters.iter().zip(&self.values) {
-            match p {
-                Parameter::DragScale if Some(force_index) == self.drag_index => return *v,
-                Parameter::SrpScale if Some(force_index) == self.srp_index => return *v,
-                _ => {}
-            }
-        }
-        1.0
+    /// Every parameter, in order.
+    pub fn parameters(&self) -> Vec<Parameter> {
+        self.parts
+            .iter()
+            .flat_map(|f| f.parameters().iter().copied())
+            .collect()
     }
 
-    /// The unscaled acceleration of the force at `index` (the partial with respect to its
-    /// scale), seen in its own segment.
-    fn scaled_force(
-        &self,
-        index: Option<usize>,
-        t_s: f64,
-        x: &StateVector,
-        segment: Segment,
-    ) -> Result<Vector3<f64>, ForceError> {
-        let k = index.unwrap_or(0);
-        self.model.forces()[k].acceleration_in(t_s, x, self.model.segment_for(k, segment))
+    /// Whether the parameters are estimated (false: the forces sit at rest).
+    pub fn set_estimating(&mut self, on: bool) {
+        self.estimating = on;
     }
 
-    fn has_empirical(&self) -> bool {
-        self.parameters.iter().zip(&self.values).any(|(p, v)| {
-            matches!(
-                p,
-                Parameter::EmpiricalConstant(_)
-                    | Parameter::EmpiricalCos(_)
-                    | Parameter::EmpiricalSin(_)
-            ) && *v != 0.0
+    /// Each force with its slice of the values (`None` while not estimating).
+    fn with_values(&self) -> impl Iterator<Item = (&dyn Parametrized, Option<&[f64]>)> {
+        let mut offset = 0;
+        self.parts.iter().map(move |f| {
+            let n = f.parameters().len();
+            let v = self.estimating.then(|| &self.values[offset..offset + n]);
+            offset += n;
+            (f.as_ref(), v)
         })
     }
 
-    /// Current coefficients and constants of the extra terms (parameters override the
-    /// values stored in `extra`).
-    fn extra_values(&self) -> Option<(&ExtraTerms, Vec<f64>, Vec<f64>)> {
-        let e = self.extra.as_ref()?;
-        let mut c = e.coefficients.clone();
-        let mut k = e.constants.clone();
-        for (p, v) in self.parameters.iter().zip(&self.values) {
-            match p {
-                Parameter::TermCoefficient(i) if *i < c.len() => c[*i] = *v,
-                Parameter::TermConstant(i) if *i < k.len() => k[*i] = *v,
-                _ => {}
-            }
-        }
-        Some((e, c, k))
+    /// The factor on the known model's force `index` (1 when nothing scales it).
+    fn multiplier(&self, index: usize) -> f64 {
+        self.with_values()
+            .find_map(|(f, v)| f.scale_of(index, v))
+            .unwrap_or(1.0)
     }
+}
 
-    /// The empirical acceleration (ECI, km/s²) at state `x`.
-    fn empirical(&self, x: &StateVector) -> Vector3<f64> {
-        if !self.has_empirical() {
-            return Vector3::zeros();
+/// The known forces alone, nothing estimated but the state.
+impl From<ForceModel> for FitModel {
+    fn from(model: ForceModel) -> Self {
+        Self {
+            model,
+            parts: vec![],
+            values: vec![],
+            estimating: true,
         }
-        let u = argument_of_latitude(x);
-        let (su, cu) = u.sin_cos();
-        let mut rtn = Vector3::zeros();
-        for (p, v) in self.parameters.iter().zip(&self.values) {
-            match p {
-                Parameter::EmpiricalConstant(a) => rtn[*a] += v,
-                Parameter::EmpiricalCos(a) => rtn[*a] += v * cu,
-                Parameter::EmpiricalSin(a) => rtn[*a] += v * su,
-                _ => {}
-            }
-        }
-        rtn_matrix(x).transpose() * rtn
     }
+}
+
+/// Ends a run of consecutive empirical or term parameters: one force for it.
+fn close_run(
+    run: &mut Vec<Parameter>,
+    parts: &mut Vec<Box<dyn Parametrized>>,
+    terms: &mut Option<ExtraTerms>,
+) -> Result<(), String> {
+    let Some(first) = run.first().copied() else {
+        return Ok(());
+    };
+    let parameters = std::mem::take(run);
+    if first.is_term() {
+        let terms = terms
+            .take()
+            .ok_or("term parameters need learned terms, given once and in one run")?;
+        parts.push(Box::new(LearnedTerms { terms, parameters }));
+    } else {
+        parts.push(Box::new(EmpiricalRtn { parameters }));
+    }
+    Ok(())
 }
 
 fn rtn_matrix(x: &StateVector) -> Matrix3<f64> {
@@ -207,26 +516,17 @@ fn rtn_matrix(x: &StateVector) -> Matrix3<f64> {
     eci_to_rtn(&r, &v).unwrap_or_else(Matrix3::identity)
 }
 
-/// The empirical term alone, as a force, so its state partials come from the shared
-/// central difference.
-struct EmpiricalTerm<'a>(&'a FitModel);
-
-impl Force for EmpiricalTerm<'_> {
-    fn name(&self) -> &str {
-        "empirical"
-    }
-    fn acceleration(&self, _t: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
-        Ok(self.0.empirical(x))
-    }
-}
-
 impl Dynamics for FitModel {
     fn model(&self) -> &ForceModel {
         &self.model
     }
 
     fn n_params(&self) -> usize {
-        self.parameters.len()
+        if self.estimating {
+            self.values.len()
+        } else {
+            0
+        }
     }
 
     fn acceleration(
@@ -240,10 +540,10 @@ impl Dynamics for FitModel {
             a +=
                 f.acceleration_in(t_s, x, self.model.segment_for(i, segment))? * self.multiplier(i);
         }
-        if let Some((e, c, k)) = self.extra_values() {
-            a += e.acceleration(t_s, x, &c, &k);
+        for (f, v) in self.with_values() {
+            a += f.acceleration(t_s, x, v);
         }
-        Ok(a + self.empirical(x))
+        Ok(a)
     }
 
     fn state_partials(
@@ -256,11 +556,10 @@ impl Dynamics for FitModel {
         for (i, f) in self.model.forces().iter().enumerate() {
             p += f.partials(t_s, x)? * self.multiplier(i);
         }
-        if self.has_empirical() {
-            p += central_difference_partials(&EmpiricalTerm(self), t_s, x)?;
-        }
-        if let Some((e, c, k)) = self.extra_values() {
-            p += e.partials(t_s, x, &c, &k);
+        for (f, v) in self.with_values() {
+            if let Some(q) = f.state_partials(t_s, x, v)? {
+                p += q;
+            }
         }
         Ok(p)
     }
@@ -272,43 +571,19 @@ impl Dynamics for FitModel {
         segment: Segment,
         out: &mut [Vector3<f64>],
     ) -> Result<(), ForceError> {
-        let mut frame: Option<(Matrix3<f64>, f64, f64)> = None;
-        // The extra terms' current values, resolved once for every parameter below.
-        let extra = self.extra_values();
-        for (k, p) in self.parameters.iter().enumerate() {
-            out[k] = match p {
-                Parameter::DragScale => self.scaled_force(self.drag_index, t_s, x, segment)?,
-                Parameter::SrpScale => self.scaled_force(self.srp_index, t_s, x, segment)?,
-                Parameter::TermCoefficient(i) => match &extra {
-                    Some((e, _, kv)) => e.term(*i, t_s, x, kv),
-                    None => Vector3::zeros(),
-                },
-                Parameter::TermConstant(j) => match &extra {
-                    Some((e, c, kv)) => {
-                        let h = 1e-6 * kv[*j].abs().max(1e-12);
-                        let (mut kp, mut km) = (kv.clone(), kv.clone());
-                        kp[*j] += h;
-                        km[*j] -= h;
-                        (e.acceleration(t_s, x, c, &kp) - e.acceleration(t_s, x, c, &km))
-                            / (2.0 * h)
-                    }
-                    None => Vector3::zeros(),
-                },
-                Parameter::EmpiricalConstant(a)
-                | Parameter::EmpiricalCos(a)
-                | Parameter::EmpiricalSin(a) => {
-                    let (m, cu, su) = *frame.get_or_insert_with(|| {
-                        let (s, c) = argument_of_latitude(x).sin_cos();
-                        (rtn_matrix(x), c, s)
-                    });
-                    let w = match p {
-                        Parameter::EmpiricalConstant(_) => 1.0,
-                        Parameter::EmpiricalCos(_) => cu,
-                        _ => su,
-                    };
-                    m.row(*a).transpose() * w
-                }
-            };
+        let mut offset = 0;
+        for f in &self.parts {
+            let n = f.parameters().len();
+            let values = &self.values[offset..offset + n];
+            f.param_partials(
+                &self.model,
+                t_s,
+                x,
+                segment,
+                values,
+                &mut out[offset..offset + n],
+            )?;
+            offset += n;
         }
         Ok(())
     }

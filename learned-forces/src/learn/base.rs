@@ -13,7 +13,8 @@ impl Learner<'_> {
         &self,
         fit_observer: &mut dyn FitObserver,
     ) -> Result<(FitResult, Option<ShortArc>), LearnError> {
-        let base = fit(self.arc, self.model()?, &self.options.fit, fit_observer)?;
+        let model = self.fit_model(&self.options.estimate, None)?;
+        let base = fit(self.arc, model, &self.options.fit, fit_observer)?;
         let span_s = self.arc.end().seconds_since(&self.arc.start());
         let mu = propagator::CentralBody::EARTH_EGM96.mu_km3_s2;
         let r = base.x0.fixed_rows::<3>(0).norm();

@@ -50,7 +50,7 @@ impl Learner<'_> {
     ) -> Result<FitResult, LearnError> {
         Ok(fit(
             &split.train,
-            self.model()?,
+            self.fit_model(&self.options.estimate, None)?,
             &FitOptions {
                 initial_state: Some(base.x0),
                 ..self.options.fit.clone()

@@ -36,8 +36,11 @@ pub use select::{predicts_as_well, HELD_OUT_DCHI2};
 /// Options of the learner.
 #[derive(Clone, Debug)]
 pub struct LearnOptions {
-    /// The base fit (its `estimate` list is kept in every later fit).
+    /// Every fit's options.
     pub fit: FitOptions,
+    /// Classical parameters estimated in every fit (the base fit's, kept in every later
+    /// one).
+    pub estimate: Vec<Parameter>,
     /// The search.
     pub search: SearchOptions,
     /// Fraction of the arc (by time, at the end) held out for selection.
@@ -55,6 +58,7 @@ impl Default for LearnOptions {
     fn default() -> Self {
         Self {
             fit: FitOptions::default(),
+            estimate: Vec::new(),
             search: SearchOptions::default(),
             holdout_fraction: 0.25,
             refine_top: 5,
@@ -234,6 +238,15 @@ impl Learner<'_> {
         (self.make_model)(self.arc.start()).map_err(LearnError::Unfit)
     }
 
+    /// The known forces with `parameters` estimated on top (and learned `terms`).
+    fn fit_model(
+        &self,
+        parameters: &[Parameter],
+        terms: Option<ExtraTerms>,
+    ) -> Result<FitModel, LearnError> {
+        FitModel::new(self.model()?, parameters, terms).map_err(LearnError::Unfit)
+    }
+
     /// Fits `arc` with extra terms (coefficients and used constants estimated).
     #[allow(clippy::too_many_arguments)]
     fn refine(
@@ -250,16 +263,9 @@ impl Learner<'_> {
         for n in nodes {
             used_params(n, &mut used);
         }
-        let mut estimate = self.options.fit.estimate.clone();
-        let mut init = base_values.to_vec();
-        for (i, c) in c0.iter().enumerate() {
-            estimate.push(Parameter::TermCoefficient(i));
-            init.push(*c);
-        }
-        for &j in &used {
-            estimate.push(Parameter::TermConstant(j));
-            init.push(k0.get(j).copied().unwrap_or(1.0));
-        }
+        let mut estimate = self.options.estimate.clone();
+        estimate.extend((0..c0.len()).map(Parameter::TermCoefficient));
+        estimate.extend(used.iter().map(|&j| Parameter::TermConstant(j)));
         let mut constants = k0.to_vec();
         constants.resize(
             used.iter()
@@ -269,19 +275,26 @@ impl Learner<'_> {
                 .max(constants.len()),
             1.0,
         );
+        let terms = ExtraTerms {
+            nodes: nodes.to_vec(),
+            coefficients: c0.to_vec(),
+            constants,
+            context: self.context.clone(),
+        };
+        // The terms start at c0 and k0 (their stored values); the classical parameters
+        // where the fit being refined left them.
+        let mut model = self.fit_model(&estimate, Some(terms))?;
+        if base_values.len() != self.options.estimate.len() {
+            return Err(LearnError::Unfit(
+                "internal: base values do not match the estimated parameters".into(),
+            ));
+        }
+        model.values[..base_values.len()].copy_from_slice(base_values);
         let options = FitOptions {
-            estimate,
-            initial_values: Some(init),
             initial_state: Some(x0),
-            extra: Some(ExtraTerms {
-                nodes: nodes.to_vec(),
-                coefficients: c0.to_vec(),
-                constants,
-                context: self.context.clone(),
-            }),
             ..self.options.fit.clone()
         };
-        Ok(fit(arc, self.model()?, &options, observer)?)
+        Ok(fit(arc, model, &options, observer)?)
     }
 
     /// Position RMS of the prediction of `arc` by a fitted model, km.
@@ -315,11 +328,8 @@ impl Learner<'_> {
         grid.extend(&t_obs);
         grid.sort_by(|a, b| a.total_cmp(b));
         grid.dedup_by(|a, b| (*a - *b).abs() < 1e-6);
-        let mut fm = FitModel::new(
-            self.model()?,
-            base.estimates.iter().map(|e| e.parameter).collect(),
-        )
-        .map_err(LearnError::Unfit)?;
+        let parameters: Vec<Parameter> = base.estimates.iter().map(|e| e.parameter).collect();
+        let mut fm = self.fit_model(&parameters, None)?;
         fm.values = base.values.clone();
         let options = Options {
             settings: self.options.fit.settings,

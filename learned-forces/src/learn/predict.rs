@@ -44,32 +44,27 @@ pub fn trajectory(
     times: &[f64],
     fit_options: &FitOptions,
 ) -> Result<Vec<propagator::StateVector>, LearnError> {
-    let mut fm = FitModel::new(
-        model,
-        fitted.estimates.iter().map(|e| e.parameter).collect(),
-    )
-    .map_err(LearnError::Unfit)?;
-    fm.values = fitted.values.clone();
-    if !nodes.is_empty() {
-        let n_k = fitted
-            .estimates
+    let parameters: Vec<Parameter> = fitted.estimates.iter().map(|e| e.parameter).collect();
+    // The terms' coefficients and constants are the fit's (parameters override the
+    // placeholders stored here).
+    let terms = (!nodes.is_empty()).then(|| {
+        let n_k = parameters
             .iter()
-            .filter_map(|e| {
-                if let Parameter::TermConstant(j) = e.parameter {
-                    Some(j + 1)
-                } else {
-                    None
-                }
+            .filter_map(|p| match p {
+                Parameter::TermConstant(j) => Some(j + 1),
+                _ => None,
             })
             .max()
             .unwrap_or(0);
-        fm.extra = Some(ExtraTerms {
+        ExtraTerms {
             nodes: nodes.to_vec(),
             coefficients: vec![0.0; nodes.len()],
             constants: vec![1.0; n_k],
             context,
-        });
-    }
+        }
+    });
+    let mut fm = FitModel::new(model, &parameters, terms).map_err(LearnError::Unfit)?;
+    fm.values = fitted.values.clone();
     if times.is_empty() {
         return Ok(vec![]);
     }
