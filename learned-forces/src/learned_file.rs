@@ -517,18 +517,20 @@ impl LearnedFile {
         let observations = arc.observations.len();
         let (terms, constants, fit, end) = match &l.chosen {
             Some(c) => (
-                c.nodes
+                c.terms
+                    .nodes
                     .iter()
-                    .zip(c.coefficients.iter().zip(&c.sigmas))
+                    .zip(c.terms.coefficients.iter().zip(&c.terms.sigmas))
                     .map(|(n, (v, s))| TermEntry {
                         formula: n.to_string(),
                         coefficient: *v,
                         sigma: *s,
                     })
                     .collect(),
-                c.constants
+                c.terms
+                    .constants
                     .iter()
-                    .zip(&c.constant_sigmas)
+                    .zip(&c.terms.constant_sigmas)
                     .enumerate()
                     .filter(|(_, (v, _))| v.is_finite())
                     .map(|(i, (v, s))| ConstantEntry {

@@ -18,3 +18,4 @@ pub mod learned_file;
 pub mod model_error;
 pub mod next_arc;
 pub mod termination;
+pub mod terms;

@@ -95,8 +95,15 @@ fn next_arc(r: &Run) -> (f64, f64) {
     )
     .unwrap();
     let c = r.learned.chosen.as_ref().expect("a learned model");
-    let learned =
-        prediction_rms(model(), &c.fit, &c.nodes, r.context.clone(), &r.next, &opts).unwrap();
+    let learned = prediction_rms(
+        model(),
+        &c.fit,
+        &c.terms.nodes,
+        r.context.clone(),
+        &r.next,
+        &opts,
+    )
+    .unwrap();
     (base, learned)
 }
 
@@ -105,10 +112,10 @@ fn venting_is_learned_as_a_decaying_along_track_push() {
     let (spec, path) = scenario("venting.yaml");
     let r = run(spec, path, &LearnOptions::default());
     let c = r.learned.chosen.as_ref().expect("a model");
-    let text: Vec<String> = c.nodes.iter().map(|n| n.to_string()).collect();
+    let text: Vec<String> = c.terms.nodes.iter().map(|n| n.to_string()).collect();
     eprintln!(
         "venting: {text:?} c = {:?} ± {:?}, k = {:?} ± {:?}",
-        c.coefficients, c.sigmas, c.constants, c.constant_sigmas
+        c.terms.coefficients, c.terms.sigmas, c.terms.constants, c.terms.constant_sigmas
     );
     // Truth (examples/scenarios/venting.yaml): 2e-9 km/s² along T, decaying with 21600 s.
     // Compare the learned acceleration with the truth along the arc (relative L2).
@@ -127,8 +134,8 @@ fn venting_is_learned_as_a_decaying_along_track_push() {
         let p = Terminals::of_state(t, &x, &r.context);
         let want = truth.eval(&p, &[]).vector();
         let mut got = [0.0; 3];
-        for (n, ci) in c.nodes.iter().zip(&c.coefficients) {
-            let v = n.eval(&p, &c.constants).vector();
+        for (n, ci) in c.terms.nodes.iter().zip(&c.terms.coefficients) {
+            let v = n.eval(&p, &c.terms.constants).vector();
             for i in 0..3 {
                 got[i] += ci * v[i];
             }
@@ -142,8 +149,8 @@ fn venting_is_learned_as_a_decaying_along_track_push() {
     eprintln!("relative L2 of the learned acceleration against the truth: {rel:.4}");
     assert!(rel < 0.05, "{rel}");
     if text == ["exp(-t / k0) * T"] {
-        assert!((c.constants[0] / 21600.0 - 1.0).abs() < 0.05);
-        assert!((c.coefficients[0] / 2e-9 - 1.0).abs() < 0.05);
+        assert!((c.terms.constants[0] / 21600.0 - 1.0).abs() < 0.05);
+        assert!((c.terms.coefficients[0] / 2e-9 - 1.0).abs() < 0.05);
     }
     let (base, learned) = next_arc(&r);
     eprintln!(
@@ -161,9 +168,13 @@ fn storm_correction_cuts_the_next_arc_error_fivefold() {
     let c = r.learned.chosen.as_ref().expect("a model");
     eprintln!(
         "storm: {:?} c = {:?}, k = {:?}; notes {:?}",
-        c.nodes.iter().map(|n| n.to_string()).collect::<Vec<_>>(),
-        c.coefficients,
-        c.constants,
+        c.terms
+            .nodes
+            .iter()
+            .map(|n| n.to_string())
+            .collect::<Vec<_>>(),
+        c.terms.coefficients,
+        c.terms.constants,
         r.learned.notes
     );
     let (base, learned) = next_arc(&r);
@@ -212,10 +223,18 @@ fn same_seed_same_result_with_one_or_two_threads() {
     let b = two.install(|| run(spec.clone(), path.clone(), &opts));
     assert_eq!(a.learned.front, b.learned.front);
     let (ca, cb) = (a.learned.chosen.unwrap(), b.learned.chosen.unwrap());
-    assert_eq!(ca.coefficients, cb.coefficients);
+    assert_eq!(ca.terms.coefficients, cb.terms.coefficients);
     assert_eq!(
-        ca.constants.iter().map(|v| v.to_bits()).collect::<Vec<_>>(),
-        cb.constants.iter().map(|v| v.to_bits()).collect::<Vec<_>>()
+        ca.terms
+            .constants
+            .iter()
+            .map(|v| v.to_bits())
+            .collect::<Vec<_>>(),
+        cb.terms
+            .constants
+            .iter()
+            .map(|v| v.to_bits())
+            .collect::<Vec<_>>()
     );
 }
 
@@ -247,11 +266,11 @@ fn a_small_once_per_rev_radial_signal_is_explained() {
     ];
     let r = run(spec, path, &LearnOptions::default());
     let c = r.learned.chosen.as_ref().expect("a model");
-    let text: Vec<String> = c.nodes.iter().map(|n| n.to_string()).collect();
+    let text: Vec<String> = c.terms.nodes.iter().map(|n| n.to_string()).collect();
     eprintln!(
         "radial: {text:?} c = {:?} ± {:?}; held-out {:.2} m; notes {:?}",
-        c.coefficients,
-        c.sigmas,
+        c.terms.coefficients,
+        c.terms.sigmas,
         c.held_out_rms_km * 1e3,
         r.learned.notes
     );
@@ -260,7 +279,7 @@ fn a_small_once_per_rev_radial_signal_is_explained() {
         .iter()
         .position(|t| t == "cos(u) * R")
         .unwrap_or_else(|| panic!("no radial 1/rev term in {text:?}"));
-    let (c_r, s_r) = (c.coefficients[k], c.sigmas[k]);
+    let (c_r, s_r) = (c.terms.coefficients[k], c.terms.sigmas[k]);
     assert!(
         (c_r - 3e-11).abs() <= 3.0 * s_r,
         "radial amplitude {c_r:e} ± {s_r:e} vs 3e-11"

@@ -10,7 +10,7 @@ use clap::Args as ClapArgs;
 use learned_forces::arc::Arc;
 use learned_forces::expr::Context;
 use learned_forces::learn::search::SearchOptions;
-use learned_forces::learn::{learn, model_text, trajectory, LearnOptions, Learned, Outcome};
+use learned_forces::learn::{learn, trajectory, LearnOptions, Learned, Outcome};
 use learned_forces::learned_file::{
     sha256_hex, LearnedFile, LearnedResolver, OutsidePolicy, ProvenanceEntry,
 };
@@ -278,16 +278,27 @@ fn summarize(l: &Learned, out: &Path) {
         Some(c) => {
             println!(
                 "learned: {}\n  RMS {:.2} m → {:.2} m; held-out {:.2} m (known forces: {:.2} m)",
-                model_text(&c.nodes, &c.coefficients, &c.constants),
+                c.terms.text(),
                 l.base.rms_km * 1e3,
                 c.fit.rms_km * 1e3,
                 c.held_out_rms_km * 1e3,
                 l.held_out_rms_base_km.unwrap_or(f64::NAN) * 1e3
             );
-            for (n, (v, s)) in c.nodes.iter().zip(c.coefficients.iter().zip(&c.sigmas)) {
+            for (n, (v, s)) in c
+                .terms
+                .nodes
+                .iter()
+                .zip(c.terms.coefficients.iter().zip(&c.terms.sigmas))
+            {
                 println!("  {n}: {v:.6e} ± {s:.2e} km/s² per unit");
             }
-            for (i, (v, s)) in c.constants.iter().zip(&c.constant_sigmas).enumerate() {
+            for (i, (v, s)) in c
+                .terms
+                .constants
+                .iter()
+                .zip(&c.terms.constant_sigmas)
+                .enumerate()
+            {
                 if v.is_finite() {
                     println!("  k{i} = {v:.6e} ± {s:.2e}");
                 }
@@ -335,7 +346,7 @@ fn report(a: &Args, l: &Learned, file: &LearnedFile) -> serde_json::Value {
         "verdict_known_forces": if l.base.verdict.anomaly { "anomaly" } else { "no_anomaly" },
         "verdict_learned": chosen.map(|c| if c.fit.verdict.anomaly { "anomaly" } else { "no_anomaly" }),
         "base_fit": fit_json(&l.base),
-        "model": chosen.map(|c| model_text(&c.nodes, &c.coefficients, &c.constants)),
+        "model": chosen.map(|c| c.terms.text()),
         // `absorbed_by_initial_state`: the share of the term's signature on this arc that
         // a change of the initial state reproduces (near 1: degenerate with the orbit).
         "terms": file.terms.iter().enumerate().map(|(i, t)| serde_json::json!({
@@ -387,14 +398,14 @@ fn plots(
     )?;
     let times: Vec<f64> = c.fit.residuals.iter().map(|r| r.t_s).collect();
     let model = make(c.fit.epoch0).map_err(CliError::input)?;
-    let states = trajectory(model, &c.fit, &c.nodes, context.clone(), &times, fit)
+    let states = trajectory(model, &c.fit, &c.terms.nodes, context.clone(), &times, fit)
         .map_err(|e| CliError::input(e.to_string()))?;
     let mut rtn: Vec<[f64; 3]> = Vec::new();
     for (t, x) in times.iter().zip(&states) {
         let p = learned_forces::expr::Terminals::of_state(*t, x, &context);
         let mut a = nalgebra::Vector3::zeros();
-        for (n, ci) in c.nodes.iter().zip(&c.coefficients) {
-            let v = n.eval(&p, &c.constants).vector();
+        for (n, ci) in c.terms.nodes.iter().zip(&c.terms.coefficients) {
+            let v = n.eval(&p, &c.terms.constants).vector();
             a += nalgebra::Vector3::new(v[0], v[1], v[2]) * *ci;
         }
         let r = nalgebra::Vector3::new(x[0], x[1], x[2]);

@@ -290,8 +290,8 @@ pub struct LearnedTerms {
 impl LearnedTerms {
     /// Coefficients and constants: the stored ones, overridden by `values`.
     fn current(&self, values: Option<&[f64]>) -> (Vec<f64>, Vec<f64>) {
-        let mut c = self.terms.coefficients.clone();
-        let mut k = self.terms.constants.clone();
+        let mut c = self.terms.terms.coefficients.clone();
+        let mut k = self.terms.terms.constants.clone();
         for (p, v) in self.parameters.iter().zip(values.unwrap_or(&[])) {
             match p {
                 Parameter::TermCoefficient(i) if *i < c.len() => c[*i] = *v,
@@ -310,8 +310,10 @@ impl Parametrized for LearnedTerms {
 
     fn start_value(&self, p: Parameter) -> f64 {
         match p {
-            Parameter::TermCoefficient(i) => self.terms.coefficients.get(i).copied().unwrap_or(0.0),
-            Parameter::TermConstant(j) => self.terms.constants.get(j).copied().unwrap_or(1.0),
+            Parameter::TermCoefficient(i) => {
+                self.terms.terms.coefficients.get(i).copied().unwrap_or(0.0)
+            }
+            Parameter::TermConstant(j) => self.terms.terms.constants.get(j).copied().unwrap_or(1.0),
             other => other.initial_value(),
         }
     }
@@ -589,16 +591,14 @@ impl Dynamics for FitModel {
     }
 }
 
-/// Formula terms added to a fit's dynamics: Σ c_i g_i(t, x; k).
+/// Learned terms in a fit's dynamics: their formulas, coefficients and constants (the
+/// stored values, which estimated parameters override), and the terminals' constants;
+/// `t` of the formulas is the fit's `t_s`.
 #[derive(Clone, Debug)]
 pub struct ExtraTerms {
-    /// The formulas (vector-valued, ECI).
-    pub nodes: Vec<crate::expr::Node>,
-    /// Coefficients, km/s² per unit of g_i.
-    pub coefficients: Vec<f64>,
-    /// Values of k0, k1, …
-    pub constants: Vec<f64>,
-    /// Terminal constants; `t` of the formulas is the fit's `t_s`.
+    /// The terms.
+    pub terms: crate::terms::Terms,
+    /// Terminal constants.
     pub context: crate::expr::Context,
 }
 
@@ -606,7 +606,7 @@ impl ExtraTerms {
     /// g_i at (t, x) with constants `k`.
     pub fn term(&self, i: usize, t_s: f64, x: &StateVector, k: &[f64]) -> Vector3<f64> {
         let p = crate::expr::Terminals::of_state(t_s, x, &self.context);
-        let v = self.nodes[i].eval(&p, k).vector();
+        let v = self.terms.nodes[i].eval(&p, k).vector();
         Vector3::new(v[0], v[1], v[2])
     }
 
@@ -614,7 +614,7 @@ impl ExtraTerms {
     pub fn acceleration(&self, t_s: f64, x: &StateVector, c: &[f64], k: &[f64]) -> Vector3<f64> {
         let p = crate::expr::Terminals::of_state(t_s, x, &self.context);
         let mut a = Vector3::zeros();
-        for (n, ci) in self.nodes.iter().zip(c) {
+        for (n, ci) in self.terms.nodes.iter().zip(c) {
             let v = n.eval(&p, k).vector();
             a += Vector3::new(v[0], v[1], v[2]) * *ci;
         }
@@ -625,7 +625,7 @@ impl ExtraTerms {
     pub fn partials(&self, t_s: f64, x: &StateVector, c: &[f64], k: &[f64]) -> Matrix3x6<f64> {
         let p = crate::expr::Terminals::of_state_dual(t_s, x, &self.context);
         let mut m = Matrix3x6::zeros();
-        for (n, ci) in self.nodes.iter().zip(c) {
+        for (n, ci) in self.terms.nodes.iter().zip(c) {
             let v = n.eval(&p, k).vector();
             for i in 0..3 {
                 for j in 0..6 {

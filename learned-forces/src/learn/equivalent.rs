@@ -28,22 +28,22 @@ impl Learner<'_> {
         let cost_of = |nodes: &[Node]| -> Option<(Vec<f64>, f64)> {
             let cols: Option<Vec<_>> = nodes
                 .iter()
-                .map(|n| problem.column(n, &sol.constants))
+                .map(|n| problem.column(n, &sol.terms.constants))
                 .collect();
             problem.fit_columns(&cols?).map(|(c, _, cost)| (c, cost))
         };
-        let Some((_, cost0)) = cost_of(&sol.nodes) else {
+        let Some((_, cost0)) = cost_of(&sol.terms.nodes) else {
             return Ok((sol, train_fit, rms));
         };
-        let mut nodes = sol.nodes.clone();
+        let mut nodes = sol.terms.nodes.clone();
         for i in 0..nodes.len() {
             let mut pick: Option<Node> = None;
             let mut alike = Vec::new();
             // One and two swaps: `sin(u) * T` ↔ `cos(u) * R` takes two.
-            let mut variants = sol.nodes[i].direction_variants();
+            let mut variants = sol.terms.nodes[i].direction_variants();
             for v in variants.clone() {
                 for w in v.direction_variants() {
-                    if w != sol.nodes[i] && !variants.contains(&w) {
+                    if w != sol.terms.nodes[i] && !variants.contains(&w) {
                         variants.push(w);
                     }
                 }
@@ -78,7 +78,7 @@ impl Learner<'_> {
                 }
                 notes.push(format!(
                     "`{}` fits this arc as well as {}: the data cannot tell these forms apart",
-                    sol.nodes[i],
+                    sol.terms.nodes[i],
                     alike.join(", ")
                 ));
             }
@@ -86,7 +86,7 @@ impl Learner<'_> {
                 nodes[i] = v;
             }
         }
-        if nodes == sol.nodes {
+        if nodes == sol.terms.nodes {
             return Ok((sol, train_fit, rms));
         }
         let Some((c0, cost)) = cost_of(&nodes) else {
@@ -98,7 +98,7 @@ impl Learner<'_> {
             &base_train.values,
             &nodes,
             &c0,
-            &sol.constants,
+            &sol.terms.constants,
             fit_observer,
         );
         if let Ok(r) = refined {
@@ -122,9 +122,12 @@ impl Learner<'_> {
                 let coefficients = terms.iter().map(|e| e.value).collect();
                 let sigmas = terms.iter().map(|e| e.sigma).collect();
                 let sol = Solution {
-                    nodes,
-                    coefficients,
-                    sigmas,
+                    terms: crate::terms::Terms {
+                        nodes,
+                        coefficients,
+                        sigmas,
+                        ..sol.terms
+                    },
                     cost,
                     ..sol
                 };

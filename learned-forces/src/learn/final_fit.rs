@@ -22,11 +22,11 @@ impl Learner<'_> {
         observer: &mut dyn FitObserver,
     ) -> Result<Chosen, LearnError> {
         let c0: Vec<f64> = train_fit
-            .term_coefficients(sol.nodes.len())
+            .term_coefficients(sol.terms.nodes.len())
             .iter()
             .map(|e| e.value)
             .collect();
-        let mut k0 = sol.constants.clone();
+        let mut k0 = sol.terms.constants.clone();
         for e in &train_fit.estimates {
             if let Parameter::TermConstant(j) = e.parameter {
                 if j < k0.len() {
@@ -38,7 +38,7 @@ impl Learner<'_> {
             self.arc,
             base.x0,
             &base.values,
-            &sol.nodes,
+            &sol.terms.nodes,
             &c0,
             &k0,
             observer,
@@ -70,7 +70,7 @@ impl Learner<'_> {
         {
             return Err(LearnError::Unfit(format!(
                 "the final fit of `{}` gave a non-finite coefficient, constant or σ (a singular covariance): nothing written",
-                sol.nodes
+                sol.terms.nodes
                     .iter()
                     .map(|n| n.to_string())
                     .collect::<Vec<_>>()
@@ -83,17 +83,25 @@ impl Learner<'_> {
         for j in 0..constants.len() {
             let ends = [full.x0, full.x_last];
             if constants[j] < 0.0
-                && sign_invisible(&sol.nodes, &constants, j, &ends, span_s, &self.context)
+                && sign_invisible(
+                    &sol.terms.nodes,
+                    &constants,
+                    j,
+                    &ends,
+                    span_s,
+                    &self.context,
+                )
             {
                 constants[j] = -constants[j];
             }
         }
         let absorbed: Vec<f64> = sol
+            .terms
             .nodes
             .iter()
             .map(|n| problem.absorbed_fraction(n, &k0))
             .collect();
-        for (n, a) in sol.nodes.iter().zip(&absorbed) {
+        for (n, a) in sol.terms.nodes.iter().zip(&absorbed) {
             if *a > 0.999 {
                 notes.push(format!(
                     "term `{n}`: {:.0}% of its signature on this arc is indistinguishable from a change of the initial state; its coefficient rests on the rest",
@@ -102,11 +110,13 @@ impl Learner<'_> {
             }
         }
         Ok(Chosen {
-            nodes: sol.nodes,
-            coefficients,
-            sigmas,
-            constants,
-            constant_sigmas,
+            terms: crate::terms::Terms {
+                nodes: sol.terms.nodes,
+                coefficients,
+                sigmas,
+                constants,
+                constant_sigmas,
+            },
             fit: full,
             held_out_rms_km,
             absorbed,

@@ -51,16 +51,8 @@ pub struct Problem {
 /// A solved candidate.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Solution {
-    /// Kept formulas (simplified), in order.
-    pub nodes: Vec<Node>,
-    /// Their coefficients, km/s² per unit.
-    pub coefficients: Vec<f64>,
-    /// Their 1σ.
-    pub sigmas: Vec<f64>,
-    /// Values of k0, k1, …
-    pub constants: Vec<f64>,
-    /// Their 1σ.
-    pub constant_sigmas: Vec<f64>,
+    /// The kept terms (formulas simplified), with their σ.
+    pub terms: crate::terms::Terms,
     /// Weighted sum of squared residuals left.
     pub cost: f64,
     /// Complexity: nodes of the kept formulas plus one per coefficient.
@@ -415,11 +407,13 @@ impl Problem {
             if wv >= threshold {
                 let complexity = nodes.iter().map(|n| n.complexity() + 1).sum();
                 return Some(Solution {
-                    nodes,
-                    coefficients: c,
-                    sigmas: sig,
-                    constants: kk,
-                    constant_sigmas: ksig,
+                    terms: crate::terms::Terms {
+                        nodes,
+                        coefficients: c,
+                        sigmas: sig,
+                        constants: kk,
+                        constant_sigmas: ksig,
+                    },
                     cost,
                     complexity,
                 });

@@ -20,13 +20,13 @@ use crate::arc::Arc;
 use crate::expr::{Context, Node};
 use crate::fit::model::{ExtraTerms, FitModel, Parameter};
 use crate::fit::{fit, FitError, FitObserver, FitOptions, FitResult};
+use crate::terms::Terms;
 use linearized::{ObsRow, Problem, Solution};
 use nalgebra::Matrix6;
 use propagator::propagation::{output_grid, Options, Request, Silent};
 use propagator::variational::propagate_with_partials;
 use propagator::{Epoch, ForceModel};
 use search::{search, SearchObserver, SearchOptions};
-use std::collections::BTreeSet;
 
 use equivalent::sign_invisible;
 pub use equivalent::{canonical_key, EQUIVALENT_DCHI2};
@@ -84,16 +84,8 @@ pub struct FrontEntry {
 /// The chosen model, fitted on the whole arc.
 #[derive(Clone, Debug)]
 pub struct Chosen {
-    /// The formulas.
-    pub nodes: Vec<Node>,
-    /// Coefficients, km/s² per unit.
-    pub coefficients: Vec<f64>,
-    /// Their 1σ.
-    pub sigmas: Vec<f64>,
-    /// k0, k1, … (unused ones are NaN).
-    pub constants: Vec<f64>,
-    /// Their 1σ.
-    pub constant_sigmas: Vec<f64>,
+    /// The terms, with their σ (unused constants are NaN).
+    pub terms: Terms,
     /// The fit of the whole arc with the learned force in the dynamics.
     pub fit: FitResult,
     /// Held-out RMS of this model (trained on the early part), km.
@@ -195,37 +187,6 @@ pub enum LearnError {
     Unfit(String),
 }
 
-fn used_params(n: &Node, out: &mut BTreeSet<usize>) {
-    if let Node::Param(i) = n {
-        out.insert(*i);
-    }
-    for c in n.children() {
-        used_params(c, out);
-    }
-}
-
-/// The model as text with numbers: `2.1e-9 * (exp(-t / k0) * T)` and `k0 = …`.
-pub fn model_text(nodes: &[Node], c: &[f64], k: &[f64]) -> String {
-    let mut used = BTreeSet::new();
-    for n in nodes {
-        used_params(n, &mut used);
-    }
-    let terms: Vec<String> = nodes
-        .iter()
-        .zip(c)
-        .map(|(n, ci)| format!("{ci:.4e} * ({n})"))
-        .collect();
-    let consts: Vec<String> = used
-        .iter()
-        .map(|i| format!("k{i} = {:.6e}", k.get(*i).copied().unwrap_or(f64::NAN)))
-        .collect();
-    if consts.is_empty() {
-        terms.join(" + ")
-    } else {
-        format!("{}; {}", terms.join(" + "), consts.join(", "))
-    }
-}
-
 struct Learner<'a> {
     arc: &'a Arc,
     make_model: &'a (dyn Fn(Epoch) -> Result<ForceModel, String> + Sync),
@@ -259,10 +220,7 @@ impl Learner<'_> {
         k0: &[f64],
         observer: &mut dyn FitObserver,
     ) -> Result<FitResult, LearnError> {
-        let mut used = BTreeSet::new();
-        for n in nodes {
-            used_params(n, &mut used);
-        }
+        let used = crate::terms::used_constants(nodes);
         let mut estimate = self.options.estimate.clone();
         estimate.extend((0..c0.len()).map(Parameter::TermCoefficient));
         estimate.extend(used.iter().map(|&j| Parameter::TermConstant(j)));
@@ -276,9 +234,7 @@ impl Learner<'_> {
             1.0,
         );
         let terms = ExtraTerms {
-            nodes: nodes.to_vec(),
-            coefficients: c0.to_vec(),
-            constants,
+            terms: Terms::new(nodes.to_vec(), c0.to_vec(), constants),
             context: self.context.clone(),
         };
         // The terms start at c0 and k0 (their stored values); the classical parameters
@@ -525,7 +481,7 @@ fn front_entries(front: &[Solution]) -> Vec<FrontEntry> {
         .iter()
         .map(|s| FrontEntry {
             complexity: s.complexity,
-            formula: model_text(&s.nodes, &s.coefficients, &s.constants),
+            formula: s.terms.text(),
             cost: s.cost,
             held_out_rms_km: None,
         })

@@ -57,9 +57,7 @@ pub fn trajectory(
             .max()
             .unwrap_or(0);
         ExtraTerms {
-            nodes: nodes.to_vec(),
-            coefficients: vec![0.0; nodes.len()],
-            constants: vec![1.0; n_k],
+            terms: crate::terms::Terms::new(nodes.to_vec(), vec![0.0; nodes.len()], vec![1.0; n_k]),
             context,
         }
     });

@@ -35,7 +35,7 @@ impl Learner<'_> {
             let Some((solution, fit)) = self.prune(&front[idx], split, base_train, observer) else {
                 continue;
             };
-            let held_out_rms_km = self.predict_rms(&fit, &solution.nodes, &split.held)?;
+            let held_out_rms_km = self.predict_rms(&fit, &solution.terms.nodes, &split.held)?;
             refined.push(Refined {
                 complexity: front[idx].complexity,
                 solution,
@@ -57,20 +57,20 @@ impl Learner<'_> {
     ) -> Option<(Solution, FitResult)> {
         let threshold = self.options.search.threshold;
         let mut sol = member.clone();
-        for _ in 0..sol.nodes.len() {
+        for _ in 0..sol.terms.nodes.len() {
             let r = self
                 .refine(
                     &split.train,
                     base_train.x0,
                     &base_train.values,
-                    &sol.nodes,
-                    &sol.coefficients,
-                    &sol.constants,
+                    &sol.terms.nodes,
+                    &sol.terms.coefficients,
+                    &sol.terms.constants,
                     observer,
                 )
                 .ok()?;
             let signif: Vec<f64> = r
-                .term_coefficients(sol.nodes.len())
+                .term_coefficients(sol.terms.nodes.len())
                 .iter()
                 .map(|e| e.value.abs() / e.sigma.max(1e-300))
                 .collect();
@@ -83,11 +83,10 @@ impl Learner<'_> {
             if wv >= threshold {
                 return Some((sol, r));
             }
-            if sol.nodes.len() == 1 {
+            if sol.terms.nodes.len() == 1 {
                 return None;
             }
-            sol.nodes.remove(worst);
-            sol.coefficients.remove(worst);
+            sol.terms.remove(worst);
         }
         None
     }
@@ -99,7 +98,9 @@ impl Learner<'_> {
 /// unit worse was never refined.
 fn worth_refining(front: &[Solution], rows: usize, top: usize) -> Vec<usize> {
     let ln_m = (rows.max(2) as f64).ln();
-    let bic = |s: &Solution| s.cost + (s.coefficients.len() + s.constants.len()) as f64 * ln_m;
+    let bic = |s: &Solution| {
+        s.cost + (s.terms.coefficients.len() + s.terms.constants.len()) as f64 * ln_m
+    };
     let mut order: Vec<usize> = (0..front.len()).collect();
     order.sort_by(|&a, &b| bic(&front[a]).total_cmp(&bic(&front[b])));
     order.truncate(top);

@@ -26,6 +26,7 @@ pub(super) fn simplest_as_good(
         .filter(|r| predicts_as_well(r.held_out_rms_km, best, held, options.selection_tolerance))
         .min_by_key(|r| {
             r.solution
+                .terms
                 .nodes
                 .iter()
                 .map(|n| n.complexity() + 1)
