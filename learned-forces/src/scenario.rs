@@ -437,6 +437,20 @@ impl ScenarioSpec {
             .model;
         let parse_epoch =
             |s: &str, key: &str| Epoch::parse_utc(s).map_err(|e| err(format!("truth.{key}: {e}")));
+        // The known model's drag, for a truth term that changes it.
+        let known_drag = |term: &str| {
+            known
+                .drag
+                .as_ref()
+                .ok_or_else(|| err(format!("truth.{term} needs drag in forces")))?
+                .build(
+                    &known.central_body,
+                    path,
+                    &initial.epoch,
+                    known.earth_orientation.as_ref(),
+                )
+                .map_err(err)
+        };
         for t in &self.truth {
             match t {
                 TruthTerm::DecayingPush {
@@ -460,17 +474,7 @@ impl ScenarioSpec {
                     width_s,
                     peak_factor,
                 } => {
-                    let drag = known
-                        .drag
-                        .as_ref()
-                        .ok_or_else(|| err("truth.density_bump needs drag in forces".into()))?
-                        .build(
-                            &known.central_body,
-                            path,
-                            &initial.epoch,
-                            known.earth_orientation.as_ref(),
-                        )
-                        .map_err(err)?;
+                    let drag = known_drag("density_bump")?;
                     truth.push(Box::new(ExtraDrag {
                         drag,
                         peak_s: axis.seconds(&parse_epoch(peak_utc, "density_bump.peak_utc")?),
@@ -479,17 +483,7 @@ impl ScenarioSpec {
                     }));
                 }
                 TruthTerm::DragFactor { factor } => {
-                    let drag = known
-                        .drag
-                        .as_ref()
-                        .ok_or_else(|| err("truth.drag_factor needs drag in forces".into()))?
-                        .build(
-                            &known.central_body,
-                            path,
-                            &initial.epoch,
-                            known.earth_orientation.as_ref(),
-                        )
-                        .map_err(err)?;
+                    let drag = known_drag("drag_factor")?;
                     truth.push(Box::new(ExtraDrag {
                         drag,
                         peak_s: 0.0,

@@ -240,46 +240,16 @@ pub fn drive<S: OdeSystem + SegmentAware>(
         stop_times_s,
         ..
     } = *request;
-    options
-        .settings
-        .validate()
-        .map_err(PropagationError::BadRequest)?;
     let n = sys.dim();
-    if y0.len() != n || n < 6 {
-        return Err(PropagationError::BadRequest(format!(
-            "initial vector has {} components, the system {n}",
-            y0.len()
-        )));
-    }
-    let dir = if t_end_s >= t0_s { 1.0 } else { -1.0 };
-    check_times(output_times_s, t0_s, t_end_s, dir, "output")?;
-    check_times(stop_times_s, t0_s, t_end_s, dir, "stop")?;
-    if !y0.iter().all(|v| v.is_finite()) {
-        return Err(PropagationError::BadRequest(format!(
-            "initial state is not finite: {:?}",
-            &y0[..6]
-        )));
-    }
+    let dir = check_request(request, y0, n, options)?;
     let floor = options.altitude_floor_km;
-    let altitude = |y: &[f64]| {
-        let r = nalgebra::Vector3::new(y[0], y[1], y[2]);
-        options.altitude.altitude_km(&r, &options.body)
-    };
-    let h0 = altitude(y0);
-    if h0 < floor {
-        return Err(PropagationError::BadRequest(format!(
-            "initial altitude {h0:.3} km is below the altitude floor {floor} km (is the state inside the Earth, or in metres?)"
-        )));
-    }
-
+    let altitude = |y: &[f64]| altitude_of(y, options);
     let mut stepper = AnyStepper::new(&options.settings, n);
-    let mut samples = Vec::with_capacity(output_times_s.len());
-    let mut next_out = 0usize;
-    let mut buf = vec![0.0; n];
+    let mut out = Outputs::new(output_times_s, dir, n);
     // Outputs at the start itself.
-    while next_out < output_times_s.len() && output_times_s[next_out] == t0_s {
-        samples.push((t0_s, y0.to_vec()));
-        next_out += 1;
+    while out.next < output_times_s.len() && output_times_s[out.next] == t0_s {
+        out.samples.push((t0_s, y0.to_vec()));
+        out.next += 1;
     }
     let mut segment_start = t0_s;
     let mut y_start = y0.to_vec();
@@ -290,15 +260,7 @@ pub fn drive<S: OdeSystem + SegmentAware>(
             apply_impulse(imp, &mut y_start, dir, &mut maneuvers)?;
         }
     }
-    let mut stops: Vec<f64> = stop_times_s
-        .iter()
-        .copied()
-        .chain(model.discontinuities_s())
-        .filter(|&t| (t - t0_s) * dir > 0.0 && (t_end_s - t) * dir > 0.0)
-        .collect();
-    stops.sort_by(|a, b| (a * dir).total_cmp(&(b * dir)));
-    stops.dedup();
-    stops.push(t_end_s);
+    let stops = segment_ends(model, stop_times_s, (t0_s, t_end_s), dir);
     let mut switching = Switching::new(model, n);
     for &seg_end in &stops {
         let segment = Segment {
@@ -328,17 +290,12 @@ pub fn drive<S: OdeSystem + SegmentAware>(
             if altitude(stepper.y()) < floor {
                 let t_hit =
                     locate_crossing(&mut stepper, sys, t_prev, t, |_, y| altitude(y) - floor)?;
-                while next_out < output_times_s.len()
-                    && (t_hit - output_times_s[next_out]) * dir >= 0.0
-                {
-                    stepper.dense_at(sys, output_times_s[next_out], &mut buf)?;
-                    samples.push((output_times_s[next_out], buf.clone()));
-                    next_out += 1;
-                }
+                out.up_to(&mut stepper, sys, t_hit, false)?;
+                let mut buf = vec![0.0; n];
                 stepper.dense_at(sys, t_hit, &mut buf)?;
                 return Ok(DriveResult {
                     maneuvers,
-                    samples,
+                    samples: out.samples,
                     termination: Termination::Decayed {
                         t_s: t_hit,
                         floor_km: floor,
@@ -355,16 +312,7 @@ pub fn drive<S: OdeSystem + SegmentAware>(
                     continue;
                 }
             }
-            while next_out < output_times_s.len() && (t - output_times_s[next_out]) * dir >= 0.0 {
-                let to = output_times_s[next_out];
-                if to == t {
-                    samples.push((to, stepper.y().to_vec()));
-                } else {
-                    stepper.dense_at(sys, to, &mut buf)?;
-                    samples.push((to, buf.clone()));
-                }
-                next_out += 1;
-            }
+            out.up_to(&mut stepper, sys, t, true)?;
         }
         segment_start = seg_end;
         y_start.copy_from_slice(stepper.y());
@@ -376,11 +324,120 @@ pub fn drive<S: OdeSystem + SegmentAware>(
     }
     Ok(DriveResult {
         maneuvers,
-        samples,
+        samples: out.samples,
         termination: Termination::Completed,
         final_y: (t_end_s, y_start),
         stats: stepper.stats(),
     })
+}
+
+/// Checks a request against the system's dimension `n` and the options: valid settings,
+/// a state vector of the system's size (orbit first), output and stop times inside and
+/// ordered, a finite start above the altitude floor. Returns the direction of time.
+fn check_request(
+    request: &Request,
+    y0: &[f64],
+    n: usize,
+    options: &Options,
+) -> Result<f64, PropagationError> {
+    let (t0_s, t_end_s) = (request.t0_s, request.t_end_s);
+    options
+        .settings
+        .validate()
+        .map_err(PropagationError::BadRequest)?;
+    if y0.len() != n || n < 6 {
+        return Err(PropagationError::BadRequest(format!(
+            "initial vector has {} components, the system {n}",
+            y0.len()
+        )));
+    }
+    let dir = if t_end_s >= t0_s { 1.0 } else { -1.0 };
+    check_times(request.output_times_s, t0_s, t_end_s, dir, "output")?;
+    check_times(request.stop_times_s, t0_s, t_end_s, dir, "stop")?;
+    if !y0.iter().all(|v| v.is_finite()) {
+        return Err(PropagationError::BadRequest(format!(
+            "initial state is not finite: {:?}",
+            &y0[..6]
+        )));
+    }
+    let floor = options.altitude_floor_km;
+    let h0 = altitude_of(y0, options);
+    if h0 < floor {
+        return Err(PropagationError::BadRequest(format!(
+            "initial altitude {h0:.3} km is below the altitude floor {floor} km (is the state inside the Earth, or in metres?)"
+        )));
+    }
+    Ok(dir)
+}
+
+/// Altitude (km) of the orbit state at the head of `y`, by the options' altitude model.
+fn altitude_of(y: &[f64], options: &Options) -> f64 {
+    let r = nalgebra::Vector3::new(y[0], y[1], y[2]);
+    options.altitude.altitude_km(&r, &options.body)
+}
+
+/// Where the integration segments end, in the direction of time: the requested stops and
+/// the model's discontinuities strictly inside `(t0, t_end)`, then `t_end`.
+fn segment_ends(
+    model: &ForceModel,
+    stop_times_s: &[f64],
+    (t0_s, t_end_s): (f64, f64),
+    dir: f64,
+) -> Vec<f64> {
+    let mut stops: Vec<f64> = stop_times_s
+        .iter()
+        .copied()
+        .chain(model.discontinuities_s())
+        .filter(|&t| (t - t0_s) * dir > 0.0 && (t_end_s - t) * dir > 0.0)
+        .collect();
+    stops.sort_by(|a, b| (a * dir).total_cmp(&(b * dir)));
+    stops.dedup();
+    stops.push(t_end_s);
+    stops
+}
+
+/// The requested outputs, filled in as the steps pass them.
+struct Outputs<'a> {
+    times: &'a [f64],
+    dir: f64,
+    /// The next output not yet filled.
+    next: usize,
+    samples: Vec<(f64, Vec<f64>)>,
+    buf: Vec<f64>,
+}
+
+impl<'a> Outputs<'a> {
+    fn new(times: &'a [f64], dir: f64, n: usize) -> Self {
+        Self {
+            times,
+            dir,
+            next: 0,
+            samples: Vec::with_capacity(times.len()),
+            buf: vec![0.0; n],
+        }
+    }
+
+    /// Every output up to `t` (inclusive) from the last step's dense output; with
+    /// `at_step`, one exactly at `t` (the step's end) takes the step's own state.
+    fn up_to<S: OdeSystem>(
+        &mut self,
+        stepper: &mut AnyStepper,
+        sys: &mut S,
+        t: f64,
+        at_step: bool,
+    ) -> Result<(), IntegrationError> {
+        while self.next < self.times.len() && (t - self.times[self.next]) * self.dir >= 0.0 {
+            let to = self.times[self.next];
+            if at_step && to == t {
+                self.samples.push((to, stepper.y().to_vec()));
+            } else {
+                stepper.dense_at(sys, to, &mut self.buf)?;
+                self.samples.push((to, self.buf.clone()));
+            }
+            self.next += 1;
+        }
+        Ok(())
+    }
 }
 
 /// Systems that can be told which integration segment they are in (see [`Segment`]).
