@@ -515,30 +515,12 @@ impl LearnedFile {
         let heights: Vec<f64> = arc.observations.iter().map(|o| o.r_km.norm() - r).collect();
         let span = arc.end().seconds_since(&arc.start());
         let observations = arc.observations.len();
-        let (terms, constants, fit, end) = match &l.chosen {
+        let (terms, constants) = l
+            .chosen
+            .as_ref()
+            .map_or((vec![], vec![]), |c| entries(&c.terms));
+        let (fit, end) = match &l.chosen {
             Some(c) => (
-                c.terms
-                    .nodes
-                    .iter()
-                    .zip(c.terms.coefficients.iter().zip(&c.terms.sigmas))
-                    .map(|(n, (v, s))| TermEntry {
-                        formula: n.to_string(),
-                        coefficient: *v,
-                        sigma: *s,
-                    })
-                    .collect(),
-                c.terms
-                    .constants
-                    .iter()
-                    .zip(&c.terms.constant_sigmas)
-                    .enumerate()
-                    .filter(|(_, (v, _))| v.is_finite())
-                    .map(|(i, (v, s))| ConstantEntry {
-                        name: format!("k{i}"),
-                        value: *v,
-                        sigma: *s,
-                    })
-                    .collect(),
                 FitEntry {
                     observations,
                     rms_km_before: l.base.rms_km,
@@ -550,8 +532,6 @@ impl LearnedFile {
                 StateEntry::new(&c.fit.epoch_last, &c.fit.x_last),
             ),
             None => (
-                vec![],
-                vec![],
                 FitEntry {
                     observations,
                     rms_km_before: l.base.rms_km,
@@ -566,22 +546,7 @@ impl LearnedFile {
         // The classical parameters of the fit the terms came with (the base fit's when
         // nothing was learned), and a note to use them with the file.
         let final_fit = l.chosen.as_ref().map_or(&l.base, |c| &c.fit);
-        let known_parameters: Vec<ConstantEntry> = final_fit
-            .estimates
-            .iter()
-            .filter(|e| {
-                !matches!(
-                    e.parameter,
-                    crate::fit::model::Parameter::TermCoefficient(_)
-                        | crate::fit::model::Parameter::TermConstant(_)
-                )
-            })
-            .map(|e| ConstantEntry {
-                name: e.parameter.name(),
-                value: e.value,
-                sigma: e.sigma,
-            })
-            .collect();
+        let known_parameters = known_parameters(final_fit);
         let mut notes = l.notes.clone();
         if !known_parameters.is_empty() && l.chosen.is_some() {
             notes.push(format!(
@@ -840,6 +805,47 @@ impl Force for LearnedForce {
         }
         Ok(m)
     }
+}
+
+/// The file's term and constant entries of a learned model (unused constants, NaN, left
+/// out).
+fn entries(terms: &crate::terms::Terms) -> (Vec<TermEntry>, Vec<ConstantEntry>) {
+    let t = terms
+        .nodes
+        .iter()
+        .zip(terms.coefficients.iter().zip(&terms.sigmas))
+        .map(|(n, (v, s))| TermEntry {
+            formula: n.to_string(),
+            coefficient: *v,
+            sigma: *s,
+        })
+        .collect();
+    let k = terms
+        .constants
+        .iter()
+        .zip(&terms.constant_sigmas)
+        .enumerate()
+        .filter(|(_, (v, _))| v.is_finite())
+        .map(|(i, (v, s))| ConstantEntry {
+            name: format!("k{i}"),
+            value: *v,
+            sigma: *s,
+        })
+        .collect();
+    (t, k)
+}
+
+/// The classical parameters a fit estimated (drag scale, empirical terms…), as entries.
+fn known_parameters(fit: &crate::fit::FitResult) -> Vec<ConstantEntry> {
+    fit.estimates
+        .iter()
+        .filter(|e| !e.parameter.is_term())
+        .map(|e| ConstantEntry {
+            name: e.parameter.name(),
+            value: e.value,
+            sigma: e.sigma,
+        })
+        .collect()
 }
 
 /// Lets `forces.yaml` `plugins:` name learned-force files (`.yaml`/`.yml`), evaluated in
