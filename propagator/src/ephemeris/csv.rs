@@ -63,6 +63,25 @@ pub fn parse_records(text: &str, path: &Path) -> Result<Vec<CsvRecord>, FileErro
         .transpose()?
         .ok_or_else(|| file_error(path, None, "the file is empty (a header line is required)"))?;
     let names: Vec<&str> = header.iter().collect();
+    let col = columns(&names, path, hline)?;
+    let mut out = Vec::new();
+    for row in rows {
+        let (ln, fields) = row?;
+        if fields.len() != names.len() {
+            return Err(file_error(
+                path,
+                Some(ln),
+                format!("{} fields, the header has {}", fields.len(), names.len()),
+            ));
+        }
+        out.push(record(&fields, &col, path, ln)?);
+    }
+    Ok(out)
+}
+
+/// The column of each known name (`usize::MAX`: absent), from the header `names` at line
+/// `hline`: unknown or repeated names, missing positions or a partial velocity refused.
+fn columns(names: &[&str], path: &Path, hline: usize) -> Result<[usize; 8], FileError> {
     let mut col = [usize::MAX; 8];
     for (i, n) in names.iter().enumerate() {
         match KNOWN.iter().position(|k| k == n) {
@@ -105,64 +124,62 @@ pub fn parse_records(text: &str, path: &Path) -> Result<Vec<CsvRecord>, FileErro
             "give all three velocity columns or none",
         ));
     }
-    let mut out = Vec::new();
-    for row in rows {
-        let (ln, fields) = row?;
-        if fields.len() != names.len() {
+    Ok(col)
+}
+
+/// One data row at line `ln`, its fields in the columns `col`.
+fn record(
+    fields: &::csv::StringRecord,
+    col: &[usize; 8],
+    path: &Path,
+    ln: usize,
+) -> Result<CsvRecord, FileError> {
+    let num = |k: usize| -> Result<f64, FileError> {
+        let s = &fields[col[k]];
+        let v: f64 = s.parse().map_err(|_| {
+            file_error(
+                path,
+                Some(ln),
+                format!("{}: {s:?} is not a number", KNOWN[k]),
+            )
+        })?;
+        if !v.is_finite() {
             return Err(file_error(
                 path,
                 Some(ln),
-                format!("{} fields, the header has {}", fields.len(), names.len()),
+                format!("{}: `{s}` is not finite", KNOWN[k]),
             ));
         }
-        let num = |k: usize| -> Result<f64, FileError> {
-            let s = &fields[col[k]];
-            let v: f64 = s.parse().map_err(|_| {
-                file_error(
-                    path,
-                    Some(ln),
-                    format!("{}: {s:?} is not a number", KNOWN[k]),
-                )
-            })?;
-            if !v.is_finite() {
-                return Err(file_error(
-                    path,
-                    Some(ln),
-                    format!("{}: `{s}` is not finite", KNOWN[k]),
-                ));
-            }
-            Ok(v)
-        };
-        let epoch = Epoch::parse_utc(&fields[col[0]])
-            .map_err(|e| file_error(path, Some(ln), format!("epoch_utc: {e}")))?;
-        let r_km = Vector3::new(num(1)?, num(2)?, num(3)?);
-        let v_km_s = if nv == 3 {
-            Some(Vector3::new(num(4)?, num(5)?, num(6)?))
-        } else {
-            None
-        };
-        let sigma_km = if col[7] != usize::MAX {
-            let s = num(7)?;
-            if s <= 0.0 {
-                return Err(file_error(
-                    path,
-                    Some(ln),
-                    format!("sigma_km: {s} must be positive"),
-                ));
-            }
-            Some(s)
-        } else {
-            None
-        };
-        out.push(CsvRecord {
-            line: ln,
-            epoch,
-            r_km,
-            v_km_s,
-            sigma_km,
-        });
-    }
-    Ok(out)
+        Ok(v)
+    };
+    let epoch = Epoch::parse_utc(&fields[col[0]])
+        .map_err(|e| file_error(path, Some(ln), format!("epoch_utc: {e}")))?;
+    let r_km = Vector3::new(num(1)?, num(2)?, num(3)?);
+    let v_km_s = if col[4] != usize::MAX {
+        Some(Vector3::new(num(4)?, num(5)?, num(6)?))
+    } else {
+        None
+    };
+    let sigma_km = if col[7] != usize::MAX {
+        let s = num(7)?;
+        if s <= 0.0 {
+            return Err(file_error(
+                path,
+                Some(ln),
+                format!("sigma_km: {s} must be positive"),
+            ));
+        }
+        Some(s)
+    } else {
+        None
+    };
+    Ok(CsvRecord {
+        line: ln,
+        epoch,
+        r_km,
+        v_km_s,
+        sigma_km,
+    })
 }
 
 /// Parses a CSV ephemeris (velocities required). Returns the file line of each point.
