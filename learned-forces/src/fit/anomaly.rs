@@ -1,0 +1,57 @@
+//! The anomaly verdict: χ² of the normalized residuals and Ljung–Box structure per
+//! component.
+
+use super::*;
+
+/// The verdict on the normalized residuals `z` with `dof` degrees of freedom.
+pub(super) fn verdict(
+    z: &DVector<f64>,
+    dof: usize,
+    residuals: &[Residual],
+    options: &FitOptions,
+) -> Verdict {
+    let chi2 = z.norm_squared();
+    let p_value = stats::chi2_sf(chi2, dof.max(1) as f64);
+    let per_test = options.alpha / 4.0;
+    let mut reasons = Vec::new();
+    if p_value < per_test {
+        reasons.push(format!(
+            "χ² = {chi2:.1} on {dof} degrees of freedom (p = {p_value:.2e}): the residuals are larger than the stated noise"
+        ));
+    }
+    let mut structure = Vec::new();
+    for (c, name) in ["R", "T", "N"].iter().enumerate() {
+        let series: Vec<f64> = residuals
+            .iter()
+            .filter(|r| r.used)
+            .map(|r| r.rtn_km[c] / r.sigma_km)
+            .collect();
+        let (q, p) = stats::ljung_box(&series, options.ljung_box_lags);
+        let rms_sigma =
+            (series.iter().map(|v| v * v).sum::<f64>() / series.len().max(1) as f64).sqrt();
+        let counted = rms_sigma >= options.structure_floor_sigma;
+        if p < per_test && counted {
+            reasons.push(format!(
+                "{name} residuals are correlated in time (Ljung–Box Q = {q:.1} on {} lags, p = {p:.2e}; RMS {rms_sigma:.2} σ)",
+                options.ljung_box_lags
+            ));
+        }
+        structure.push(StructureTest {
+            component: name,
+            q,
+            lags: options.ljung_box_lags,
+            p_value: p,
+            rms_sigma,
+            counted,
+        });
+    }
+    Verdict {
+        anomaly: !reasons.is_empty(),
+        chi2,
+        dof,
+        p_value,
+        structure,
+        alpha: options.alpha,
+        reasons,
+    }
+}
