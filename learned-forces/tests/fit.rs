@@ -123,9 +123,10 @@ fn stm_and_sensitivities_match_central_differences_over_a_day() {
         Parameter::DragScale,
         Parameter::EmpiricalConstant(1),
         Parameter::EmpiricalCos(0),
+        Parameter::EmpiricalLinear(2),
     ];
     let mut fm = FitModel::new(make(), &params, None).unwrap();
-    fm.values = vec![1.0, 1e-9, 5e-10];
+    fm.values = vec![1.0, 1e-9, 5e-10, 3e-10];
     let x0 = models.initial.state;
     let options = Options {
         settings: Settings {
@@ -164,7 +165,7 @@ fn stm_and_sensitivities_match_central_differences_over_a_day() {
     }
     for k in 0..params.len() {
         // Steps large enough that integration noise (rtol 1e-13) stays below 1e-7.
-        let h = [1e-3, 1e-10, 1e-10][k];
+        let h = [1e-3, 1e-10, 1e-10, 1e-8][k];
         let mut fp = FitModel::new(make(), &params, None).unwrap();
         let mut fmn = FitModel::new(make(), &params, None).unwrap();
         fp.values = fm.values.clone();
@@ -391,4 +392,41 @@ fn the_fit_says_why_it_stopped() {
         "{:?}",
         r.verdict.reasons
     );
+}
+
+#[test]
+fn a_linear_along_track_drift_is_recovered_and_missed_without_it() {
+    // Truth: 2e-10 km/s² per day along T, growing from the arc's start (formula text,
+    // t in s). Fitted with `emp_lin_rtn`: the T drift within 3σ of the truth and the
+    // R, N ones within 3σ of zero; without it the arc is an anomaly (the gate must fail).
+    let (mut spec, path) = scenario("quiet.yaml");
+    spec.truth = vec![TruthTerm::Formula {
+        text: "2e-10 * (t / 86400) * T".into(),
+    }];
+    let (bare, _, _) = fit_spec(&spec, &path, vec![]);
+    assert!(bare.verdict.anomaly, "{:?}", bare.verdict);
+    let words = Parameter::parse_list("emp_lin_rtn").unwrap();
+    let (r, _, _) = fit_spec(&spec, &path, words.clone());
+    assert!(!r.verdict.anomaly, "{:?}", r.verdict);
+    for e in &r.estimates {
+        eprintln!("{} = {:.4e} ± {:.2e}", e.parameter.name(), e.value, e.sigma);
+    }
+    // Along-track is what an arc sees best (radial and normal drifts are weaker there).
+    assert!(r.estimates[1].sigma < 2e-11, "σ_T {}", r.estimates[1].sigma);
+    for (e, want) in r.estimates.iter().zip([0.0, 2e-10, 0.0]) {
+        assert!(
+            e.sigma > 0.0 && e.sigma.is_finite(),
+            "{} σ {}",
+            e.parameter.name(),
+            e.sigma
+        );
+        assert!(
+            (e.value - want).abs() < 3.0 * e.sigma,
+            "{} = {:.3e} ± {:.1e}, truth {want:e}",
+            e.parameter.name(),
+            e.value,
+            e.sigma
+        );
+    }
+    assert_eq!(r.estimates[1].parameter.name(), "emp_lin_t_km_s2_per_day");
 }

@@ -22,7 +22,8 @@ pub struct Args {
     #[arg(long, value_name = "FORCES.yaml")]
     forces: PathBuf,
     /// Also estimate these, comma-separated: drag_scale, srp_scale (scale factors),
-    /// emp_const_rtn, emp_1rev_rtn (constant and once-per-revolution empirical RTN).
+    /// emp_const_rtn, emp_1rev_rtn, emp_lin_rtn (constant, once-per-revolution and
+    /// linearly drifting empirical RTN accelerations).
     #[arg(long, value_delimiter = ',', value_name = "LIST")]
     estimate: Vec<String>,
     #[command(flatten)]
@@ -47,7 +48,8 @@ pub fn parse_estimate(items: &[String]) -> Result<Vec<Parameter>, CliError> {
     for item in items.iter().map(|s| s.trim()).filter(|s| !s.is_empty()) {
         let ps = Parameter::parse_list(item).ok_or_else(|| {
             CliError::input(format!(
-                "--estimate {item}: expected drag_scale, srp_scale, emp_const_rtn or emp_1rev_rtn"
+                "--estimate {item}: expected one of {}",
+                Parameter::ESTIMATE_WORDS.join(", ")
             ))
         })?;
         for p in ps {

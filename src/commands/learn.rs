@@ -55,7 +55,7 @@ pub struct Args {
     #[arg(long, default_value_t = 96)]
     population: usize,
     /// Classical parameters estimated with the state in every fit (comma-separated): drag_scale, srp_scale,
-    /// emp_const_rtn, emp_1rev_rtn.
+    /// emp_const_rtn, emp_1rev_rtn, emp_lin_rtn.
     #[arg(long, value_delimiter = ',', value_name = "LIST")]
     estimate: Vec<String>,
     #[command(flatten)]

@@ -33,7 +33,7 @@ pub struct Args {
     #[arg(long, value_name = "H.yaml")]
     hypotheses: PathBuf,
     /// Classical parameters estimated in the base fit (comma-separated): drag_scale, srp_scale,
-    /// emp_const_rtn, emp_1rev_rtn.
+    /// emp_const_rtn, emp_1rev_rtn, emp_lin_rtn.
     #[arg(long, value_delimiter = ',', value_name = "LIST")]
     estimate: Vec<String>,
     #[command(flatten)]

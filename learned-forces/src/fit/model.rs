@@ -25,9 +25,15 @@ pub enum Parameter {
     EmpiricalCos(usize),
     /// Once-per-revolution empirical acceleration ∝ sin u along R, T or N, km/s².
     EmpiricalSin(usize),
+    /// Empirical acceleration growing linearly in time (0 at the fit's start) along R, T
+    /// or N, km/s² per day.
+    EmpiricalLinear(usize),
 }
 
 const AXES: [&str; 3] = ["r", "t", "n"];
+
+/// The time unit of a linear empirical drift, s.
+const DAY_S: f64 = 86_400.0;
 
 impl Parameter {
     /// Report name, with its unit.
@@ -38,6 +44,7 @@ impl Parameter {
             Parameter::EmpiricalConstant(a) => format!("emp_const_{}_km_s2", AXES[*a]),
             Parameter::EmpiricalCos(a) => format!("emp_cos_{}_km_s2", AXES[*a]),
             Parameter::EmpiricalSin(a) => format!("emp_sin_{}_km_s2", AXES[*a]),
+            Parameter::EmpiricalLinear(a) => format!("emp_lin_{}_km_s2_per_day", AXES[*a]),
             Parameter::TermCoefficient(i) => format!("term{i}_coefficient"),
             Parameter::TermConstant(i) => format!("k{i}"),
         }
@@ -59,8 +66,18 @@ impl Parameter {
         }
     }
 
+    /// The `--estimate` words, in the order of [`Parameter::parse_list`].
+    pub const ESTIMATE_WORDS: [&'static str; 5] = [
+        "drag_scale",
+        "srp_scale",
+        "emp_const_rtn",
+        "emp_1rev_rtn",
+        "emp_lin_rtn",
+    ];
+
     /// Expands an `--estimate` item: `drag_scale`, `srp_scale`, `emp_const_rtn`,
-    /// `emp_1rev_rtn` (cos and sin terms on all three axes).
+    /// `emp_1rev_rtn` (cos and sin terms on all three axes), `emp_lin_rtn` (a linear drift
+    /// on all three axes).
     pub fn parse_list(item: &str) -> Option<Vec<Parameter>> {
         match item {
             "drag_scale" => Some(vec![Parameter::DragScale]),
@@ -71,6 +88,7 @@ impl Parameter {
                     .flat_map(|a| [Parameter::EmpiricalCos(a), Parameter::EmpiricalSin(a)])
                     .collect(),
             ),
+            "emp_lin_rtn" => Some((0..3).map(Parameter::EmpiricalLinear).collect()),
             _ => None,
         }
     }
@@ -191,8 +209,8 @@ pub struct EmpiricalRtn {
 }
 
 impl EmpiricalRtn {
-    /// The acceleration, ECI, at `values`.
-    fn at(&self, x: &StateVector, values: &[f64]) -> Vector3<f64> {
+    /// The acceleration, ECI, at time `t_s` (s from the fit's start) and `values`.
+    fn at(&self, t_s: f64, x: &StateVector, values: &[f64]) -> Vector3<f64> {
         let u = argument_of_latitude(x);
         let (su, cu) = u.sin_cos();
         let mut rtn = Vector3::zeros();
@@ -201,6 +219,7 @@ impl EmpiricalRtn {
                 Parameter::EmpiricalConstant(a) => rtn[*a] += v,
                 Parameter::EmpiricalCos(a) => rtn[*a] += v * cu,
                 Parameter::EmpiricalSin(a) => rtn[*a] += v * su,
+                Parameter::EmpiricalLinear(a) => rtn[*a] += v * (t_s / DAY_S),
                 Parameter::DragScale
                 | Parameter::SrpScale
                 | Parameter::TermCoefficient(_)
@@ -224,8 +243,8 @@ impl Force for EmpiricalForce<'_> {
     fn name(&self) -> &str {
         "empirical"
     }
-    fn acceleration(&self, _t: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
-        Ok(self.0.at(x, self.1))
+    fn acceleration(&self, t_s: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
+        Ok(self.0.at(t_s, x, self.1))
     }
 }
 
@@ -234,9 +253,9 @@ impl Parametrized for EmpiricalRtn {
         &self.parameters
     }
 
-    fn acceleration(&self, _t: f64, x: &StateVector, values: Option<&[f64]>) -> Vector3<f64> {
+    fn acceleration(&self, t_s: f64, x: &StateVector, values: Option<&[f64]>) -> Vector3<f64> {
         match Self::active(values) {
-            Some(v) => self.at(x, v),
+            Some(v) => self.at(t_s, x, v),
             None => Vector3::zeros(),
         }
     }
@@ -256,7 +275,7 @@ impl Parametrized for EmpiricalRtn {
     fn param_partials(
         &self,
         _model: &ForceModel,
-        _t: f64,
+        t_s: f64,
         x: &StateVector,
         _segment: Segment,
         _values: &[f64],
@@ -269,6 +288,7 @@ impl Parametrized for EmpiricalRtn {
                 Parameter::EmpiricalConstant(a) => (*a, 1.0),
                 Parameter::EmpiricalCos(a) => (*a, cu),
                 Parameter::EmpiricalSin(a) => (*a, su),
+                Parameter::EmpiricalLinear(a) => (*a, t_s / DAY_S),
                 Parameter::DragScale
                 | Parameter::SrpScale
                 | Parameter::TermCoefficient(_)
@@ -358,7 +378,8 @@ impl Parametrized for LearnedTerms {
                 | Parameter::SrpScale
                 | Parameter::EmpiricalConstant(_)
                 | Parameter::EmpiricalCos(_)
-                | Parameter::EmpiricalSin(_) => Vector3::zeros(),
+                | Parameter::EmpiricalSin(_)
+                | Parameter::EmpiricalLinear(_) => Vector3::zeros(),
             };
         }
         Ok(())
