@@ -10,21 +10,21 @@ mod final_fit;
 mod holdout;
 pub mod hypotheses;
 pub mod linearized;
+mod outcome;
 mod predict;
 pub mod rank;
 mod refine;
 pub mod search;
 mod select;
+mod sensitivities;
+pub use outcome::*;
 
 use crate::arc::Arc;
 use crate::expr::{Context, Node};
 use crate::fit::model::{ExtraTerms, FitModel, Parameter};
 use crate::fit::{fit, FitError, FitObserver, FitOptions, FitResult};
 use crate::terms::Terms;
-use linearized::{ObsRow, Problem, Solution};
-use nalgebra::Matrix6;
-use propagator::propagation::{output_grid, Options, Request, Silent};
-use propagator::variational::propagate_with_partials;
+use linearized::{Problem, Solution};
 use propagator::{Epoch, ForceModel};
 use search::{search, SearchObserver, SearchOptions};
 
@@ -66,125 +66,6 @@ impl Default for LearnOptions {
             grid_step_s: 20.0,
         }
     }
-}
-
-/// One entry of the reported front.
-#[derive(Clone, Debug, PartialEq)]
-pub struct FrontEntry {
-    /// Complexity (nodes plus coefficients).
-    pub complexity: usize,
-    /// The model as text: `c0 * (g0) + c1 * (g1)` with the constants substituted.
-    pub formula: String,
-    /// Weighted cost left on the training arc, linearized.
-    pub cost: f64,
-    /// Held-out position RMS after refinement, km (refined candidates only).
-    pub held_out_rms_km: Option<f64>,
-}
-
-/// The chosen model, fitted on the whole arc.
-#[derive(Clone, Debug)]
-pub struct Chosen {
-    /// The terms, with their σ (unused constants are NaN).
-    pub terms: Terms,
-    /// The fit of the whole arc with the learned force in the dynamics.
-    pub fit: FitResult,
-    /// Held-out RMS of this model (trained on the early part), km.
-    pub held_out_rms_km: f64,
-    /// Fraction of each term's signature absorbed by the initial-state directions.
-    pub absorbed: Vec<f64>,
-}
-
-/// Everything the learner found.
-#[derive(Clone, Debug)]
-pub struct Learned {
-    /// Base fit of the whole arc with the known forces.
-    pub base: FitResult,
-    /// The chosen model; `None` when nothing is anomalous or nothing helps.
-    pub chosen: Option<Chosen>,
-    /// The front, simplest first.
-    pub front: Vec<FrontEntry>,
-    /// Held-out RMS of the base model, km.
-    pub held_out_rms_base_km: Option<f64>,
-    /// Sentences for the report.
-    pub notes: Vec<String>,
-    /// Candidate evaluations, generations, seconds of the search.
-    pub search_stats: Option<SearchStats>,
-}
-
-/// How the search went: its size, its time and why it stopped.
-#[derive(Clone, Copy, Debug)]
-pub struct SearchStats {
-    /// Candidate evaluations.
-    pub evaluations: usize,
-    /// Generations run.
-    pub generations: usize,
-    /// Wall time, s.
-    pub seconds: f64,
-    /// Why the search stopped.
-    pub termination: crate::termination::Termination,
-}
-
-/// What learning concluded about the arc.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum Outcome {
-    /// The known forces explain the arc: nothing was learned.
-    NoAnomaly,
-    /// The arc is anomalous and the learned model passes the same anomaly test.
-    Explained,
-    /// A model was learned but the arc still fails the anomaly test with it.
-    NotExplained,
-    /// The arc is anomalous and no candidate earned its place.
-    NothingFound,
-}
-
-impl Outcome {
-    /// The report's name of the outcome.
-    pub fn as_str(self) -> &'static str {
-        match self {
-            Outcome::NoAnomaly => "no_anomaly",
-            Outcome::Explained => "explained",
-            Outcome::NotExplained => "not_explained",
-            Outcome::NothingFound => "nothing_found",
-        }
-    }
-
-    /// Whether the arc ends up explained (by the known forces or the learned model).
-    pub fn is_explained(self) -> bool {
-        matches!(self, Outcome::NoAnomaly | Outcome::Explained)
-    }
-}
-
-impl Outcome {
-    /// From the base fit's verdict and the learned model's (`None`: nothing learned).
-    pub fn from_verdicts(base_anomaly: bool, learned_anomaly: Option<bool>) -> Outcome {
-        match (base_anomaly, learned_anomaly) {
-            (false, _) => Outcome::NoAnomaly,
-            (true, Some(false)) => Outcome::Explained,
-            (true, Some(true)) => Outcome::NotExplained,
-            (true, None) => Outcome::NothingFound,
-        }
-    }
-}
-
-impl Learned {
-    /// The outcome: the verdict of the model that was written, not of the base fit.
-    pub fn outcome(&self) -> Outcome {
-        Outcome::from_verdicts(
-            self.base.verdict.anomaly,
-            self.chosen.as_ref().map(|c| c.fit.verdict.anomaly),
-        )
-    }
-}
-
-/// Why learning could not be done.
-#[derive(Debug, Clone, PartialEq, thiserror::Error)]
-pub enum LearnError {
-    /// A fit failed.
-    #[error(transparent)]
-    Fit(#[from] FitError),
-    /// The inputs cannot support learning.
-    #[error("{0}")]
-    Unfit(String),
 }
 
 struct Learner<'a> {
@@ -268,77 +149,6 @@ impl Learner<'_> {
             held,
             &self.options.fit,
         )
-    }
-}
-
-impl Learner<'_> {
-    /// The linearized problem around a fit of `train`.
-    fn problem(&self, train: &Arc, base: &FitResult) -> Result<Problem, LearnError> {
-        let t_obs: Vec<f64> = train
-            .observations
-            .iter()
-            .map(|o| o.epoch.seconds_since(&train.start()))
-            .collect();
-        let span = *t_obs.last().unwrap_or(&0.0);
-        let mut grid = output_grid(0.0, span, self.options.grid_step_s);
-        grid.extend(&t_obs);
-        grid.sort_by(|a, b| a.total_cmp(b));
-        grid.dedup_by(|a, b| (*a - *b).abs() < 1e-6);
-        let parameters: Vec<Parameter> = base.estimates.iter().map(|e| e.parameter).collect();
-        let mut fm = self.fit_model(&parameters, None)?;
-        fm.values = base.values.clone();
-        let options = Options {
-            settings: self.options.fit.settings,
-            altitude_floor_km: self.options.fit.altitude_floor_km,
-            ..Options::default()
-        };
-        let req = Request {
-            x0: base.x0,
-            t0_s: 0.0,
-            t_end_s: span,
-            output_times_s: &grid,
-            stop_times_s: &[],
-        };
-        let samples = propagate_with_partials(&fm, &req, &options, &mut Silent)
-            .map_err(|e| LearnError::Unfit(e.to_string()))?;
-        let states: Vec<_> = samples.iter().map(|s| s.state).collect();
-        let phis: Vec<Matrix6<f64>> = samples.iter().map(|s| s.phi).collect();
-        let mut rows = Vec::new();
-        let mut row = 0;
-        for (i, o) in train.observations.iter().enumerate() {
-            if !base.residuals[i].used {
-                continue;
-            }
-            let gi = grid.partition_point(|g| *g < t_obs[i] - 1e-6);
-            let comps = if o.v_km_s.is_some() { 6 } else { 3 };
-            let mut sigma = [o.sigma_km; 6];
-            for s in sigma.iter_mut().skip(3) {
-                *s = o.sigma_km_s;
-            }
-            rows.push(ObsRow {
-                grid_index: gi,
-                phi: phis[gi],
-                row,
-                comps,
-                sigma,
-            });
-            row += comps;
-        }
-        if row != base.weighted_residual.len() {
-            return Err(LearnError::Unfit(
-                "internal: residual rows do not match".into(),
-            ));
-        }
-        Problem::new(
-            grid,
-            &states,
-            &phis,
-            rows,
-            &base.jacobian,
-            base.weighted_residual.clone(),
-            self.context.clone(),
-        )
-        .ok_or_else(|| LearnError::Unfit("the transition matrix is singular along the arc".into()))
     }
 }
 
