@@ -430,3 +430,48 @@ fn a_linear_along_track_drift_is_recovered_and_missed_without_it() {
     }
     assert_eq!(r.estimates[1].parameter.name(), "emp_lin_t_km_s2_per_day");
 }
+
+#[test]
+fn term_parameters_must_come_with_terms_and_in_one_run() {
+    // A second run of term parameters would add the terms' acceleration twice: refused,
+    // as are term parameters with no terms; one run is accepted, in the given order.
+    use learned_forces::expr::{parse, Context, HANDBOOK_ENV};
+    use learned_forces::fit::model::ExtraTerms;
+    use learned_forces::terms::Terms;
+    let (spec, path) = scenario("quiet.yaml");
+    let models = spec.models(&path).unwrap();
+    let make = || {
+        models
+            .known
+            .build(Path::new("forces"), models.initial.epoch)
+            .unwrap()
+            .model
+    };
+    let terms = || ExtraTerms {
+        terms: Terms::new(
+            vec![parse("exp(-t / k0) * T").unwrap()],
+            vec![1e-9],
+            vec![20000.0],
+        ),
+        context: Context {
+            radius_km: 6378.1363,
+            rotation_rad_s: 7.292115e-5,
+            clock: propagator::solar_system::CenturyClock::new(&models.initial.epoch),
+            environment: HANDBOOK_ENV,
+            host: None,
+        },
+    };
+    use Parameter::*;
+    let split = [TermCoefficient(0), DragScale, TermConstant(0)];
+    let e = FitModel::new(make(), &split, Some(terms())).err().unwrap();
+    assert!(e.contains("one run"), "{e}");
+    let e = FitModel::new(make(), &[TermCoefficient(0)], None)
+        .err()
+        .unwrap();
+    assert!(e.contains("need learned terms"), "{e}");
+    let ok = [DragScale, TermCoefficient(0), TermConstant(0)];
+    let fm = FitModel::new(make(), &ok, Some(terms())).unwrap();
+    assert_eq!(fm.parameters(), ok.to_vec());
+    // Values start at rest: scale 1, the terms' stored coefficient and constant.
+    assert_eq!(fm.values, vec![1.0, 1e-9, 20000.0]);
+}
