@@ -47,6 +47,52 @@ pub struct EpochParseError {
     pub reason: String,
 }
 
+/// The calendar form of an ordinal date `YYYY-DDD…` (the rest unchanged), or `None`
+/// when `s` is not one.
+fn calendar_of_ordinal(s: &str, text: &str) -> Result<Option<String>, EpochParseError> {
+    let b = s.as_bytes();
+    let ordinal = b.len() >= 17
+        && b[4] == b'-'
+        && (b[8] == b'T' || b[8] == b' ')
+        && b[5..8].iter().all(u8::is_ascii_digit)
+        && b[..4].iter().all(u8::is_ascii_digit);
+    if !ordinal {
+        return Ok(None);
+    }
+    let year: i32 = s[..4].parse().map_err(|_| parse_error(text, "bad year"))?;
+    let doy: i64 = s[5..8]
+        .parse()
+        .map_err(|_| parse_error(text, "bad day of year"))?;
+    let leap = (year % 4 == 0 && year % 100 != 0) || year % 400 == 0;
+    if !(1..=if leap { 366 } else { 365 }).contains(&doy) {
+        return Err(parse_error(text, "day of year out of range"));
+    }
+    let (y, m, d) = civil_from_days(days_from_civil(year, 1, 1) + doy - 1);
+    Ok(Some(format!("{y:04}-{m:02}-{d:02}{}", &s[8..])))
+}
+
+/// Nanoseconds of the fraction after the seconds of `s` (`.d` to `.ddddddddd`; 0 when
+/// there is none).
+fn fraction_ns(s: &str, text: &str) -> Result<u32, EpochParseError> {
+    let b = s.as_bytes();
+    if b.len() <= 19 {
+        return Ok(0);
+    }
+    if b[19] != b'.' {
+        return Err(parse_error(text, "unexpected text after the seconds"));
+    }
+    let frac = &s[20..];
+    if frac.is_empty() || frac.len() > 9 || !frac.bytes().all(|c| c.is_ascii_digit()) {
+        return Err(parse_error(
+            text,
+            "fraction of a second must be 1 to 9 digits",
+        ));
+    }
+    format!("{frac:0<9}")
+        .parse()
+        .map_err(|_| parse_error(text, "bad fraction"))
+}
+
 fn parse_error(text: &str, reason: impl Into<String>) -> EpochParseError {
     EpochParseError {
         text: text.to_string(),
@@ -73,28 +119,8 @@ impl Epoch {
         }
         // Day-of-year form `YYYY-DDDThh:mm:ss` (ISO 8601 ordinal dates, used in CCSDS
         // messages): rewritten as the calendar date, then read as usual.
-        let ordinal;
-        let s = match s.as_bytes() {
-            b if b.len() >= 17
-                && b[4] == b'-'
-                && (b[8] == b'T' || b[8] == b' ')
-                && b[5..8].iter().all(u8::is_ascii_digit)
-                && b[..4].iter().all(u8::is_ascii_digit) =>
-            {
-                let year: i32 = s[..4].parse().map_err(|_| parse_error(text, "bad year"))?;
-                let doy: i64 = s[5..8]
-                    .parse()
-                    .map_err(|_| parse_error(text, "bad day of year"))?;
-                let leap = (year % 4 == 0 && year % 100 != 0) || year % 400 == 0;
-                if !(1..=if leap { 366 } else { 365 }).contains(&doy) {
-                    return Err(parse_error(text, "day of year out of range"));
-                }
-                let (y, m, d) = civil_from_days(days_from_civil(year, 1, 1) + doy - 1);
-                ordinal = format!("{y:04}-{m:02}-{d:02}{}", &s[8..]);
-                ordinal.as_str()
-            }
-            _ => s,
-        };
+        let ordinal = calendar_of_ordinal(s, text)?;
+        let s = ordinal.as_deref().unwrap_or(s);
         let b = s.as_bytes();
         if b.len() < 19 {
             return Err(parse_error(text, "too short"));
@@ -124,23 +150,7 @@ impl Epoch {
         let hour = num(11..13, "hour")?;
         let minute = num(14..16, "minute")?;
         let second = num(17..19, "second")?;
-        let mut nanos: u32 = 0;
-        if b.len() > 19 {
-            if b[19] != b'.' {
-                return Err(parse_error(text, "unexpected text after the seconds"));
-            }
-            let frac = &s[20..];
-            if frac.is_empty() || frac.len() > 9 || !frac.bytes().all(|c| c.is_ascii_digit()) {
-                return Err(parse_error(
-                    text,
-                    "fraction of a second must be 1 to 9 digits",
-                ));
-            }
-            let padded = format!("{frac:0<9}");
-            nanos = padded
-                .parse()
-                .map_err(|_| parse_error(text, "bad fraction"))?;
-        }
+        let nanos = fraction_ns(s, text)?;
         if !(1..=12).contains(&month) {
             return Err(parse_error(text, "month out of range"));
         }
