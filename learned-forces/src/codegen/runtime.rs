@@ -17,6 +17,8 @@ pub trait Num:
     + Div<Output = Self>
     + Neg<Output = Self>
 {
+    /// Whether the number carries derivatives (what needs a density's gradient).
+    const DERIVATIVES: bool;
     fn cst(v: f64) -> Self;
     fn val(&self) -> f64;
     fn sin(self) -> Self;
@@ -28,6 +30,7 @@ pub trait Num:
 }
 
 impl Num for f64 {
+    const DERIVATIVES: bool = false;
     fn cst(v: f64) -> Self {
         v
     }
@@ -124,6 +127,7 @@ impl Neg for Dual {
     }
 }
 impl Num for Dual {
+    const DERIVATIVES: bool = true;
     fn cst(v: f64) -> Self {
         Dual { v, d: [0.0; 6] }
     }

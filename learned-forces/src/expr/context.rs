@@ -21,6 +21,10 @@ impl HostDensity {
     /// host's own drag then fails with the reason).
     fn rho<N: Num>(&self, t: f64, r: [N; 3]) -> N {
         let rv = nalgebra::Vector3::new(r[0].val(), r[1].val(), r[2].val());
+        // The gradient costs a second model call: only numbers with derivatives need it.
+        if !N::DERIVATIVES {
+            return N::cst(self.0.density(t, &rv).unwrap_or(f64::NAN));
+        }
         match self.0.density_and_gradient(t, &rv) {
             Ok((rho, g)) => crate::codegen::runtime::host_rho(rho, [g[0], g[1], g[2]], r),
             Err(_) => N::cst(f64::NAN),

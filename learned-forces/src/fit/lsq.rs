@@ -7,17 +7,19 @@ use nalgebra::{DMatrix, DVector};
 /// so that ‖J y − z‖² = ‖R y − Qᵀz‖² + a constant. The decompositions below then work on
 /// n × n instead of m × n (thousands of rows): an SVD of the tall matrix spent most of a
 /// learn's time rotating its m-row U.
-struct Reduced {
+pub(super) struct Reduced {
     /// Column norms of `jac` (the scaling).
     scale: Vec<f64>,
     /// R, n × n.
     r: DMatrix<f64>,
-    /// The first n entries of Qᵀz.
+    /// The first n entries of Qᵀz (zero when no `z` was given).
     qtz: DVector<f64>,
 }
 
 impl Reduced {
-    fn new(jac: &DMatrix<f64>, z: &DVector<f64>) -> Reduced {
+    /// The factor of `jac`, and Qᵀz when the residual `z` is given (a covariance needs
+    /// none).
+    pub(super) fn new(jac: &DMatrix<f64>, z: Option<&DVector<f64>>) -> Reduced {
         let n = jac.ncols();
         let scale: Vec<f64> = (0..n).map(|j| jac.column(j).norm().max(1e-300)).collect();
         let mut a = jac.clone();
@@ -25,73 +27,81 @@ impl Reduced {
             a.column_mut(j).scale_mut(1.0 / scale[j]);
         }
         let qr = a.qr();
-        let mut qtz = z.clone();
-        qr.q_tr_mul(&mut qtz);
         let r = qr.r();
-        let mut square = DMatrix::zeros(n, n);
         let k = r.nrows().min(n);
+        let mut square = DMatrix::zeros(n, n);
         square.rows_mut(0, k).copy_from(&r.rows(0, k));
+        let mut qtz_n = DVector::zeros(n);
+        if let Some(z) = z {
+            let mut qtz = z.clone();
+            qr.q_tr_mul(&mut qtz);
+            qtz_n.rows_mut(0, k).copy_from(&qtz.rows(0, k));
+        }
         Reduced {
             scale,
             r: square,
-            qtz: DVector::from_iterator(n, (0..n).map(|i| if i < k { qtz[i] } else { 0.0 })),
+            qtz: qtz_n,
         }
     }
-}
 
-/// Solves the damped normal equations by SVD of the column-scaled, augmented system
-/// [R; √λ I] y = [Qᵀz; 0].
-pub(super) fn damped_step(
-    jac: &DMatrix<f64>,
-    z: &DVector<f64>,
-    lambda: f64,
-) -> Option<DVector<f64>> {
-    let n = jac.ncols();
-    let red = Reduced::new(jac, z);
-    let mut a = DMatrix::zeros(2 * n, n);
-    a.rows_mut(0, n).copy_from(&red.r);
-    for j in 0..n {
-        a[(n + j, j)] = lambda.sqrt();
-    }
-    let mut b = DVector::zeros(2 * n);
-    b.rows_mut(0, n).copy_from(&red.qtz);
-    let svd = a.svd(true, true);
-    let y = svd.solve(&b, 1e-14).ok()?;
-    Some(DVector::from_iterator(
-        n,
-        (0..n).map(|j| y[j] / red.scale[j]),
-    ))
-}
-
-/// Rank and covariance (JᵀJ)⁻¹ of a weighted Jacobian, by SVD of the column-scaled J's
-/// triangular factor (the same singular values and right vectors).
-pub(super) fn covariance(jac: &DMatrix<f64>) -> (usize, DMatrix<f64>) {
-    let n = jac.ncols();
-    let red = Reduced::new(jac, &DVector::zeros(jac.nrows()));
-    let scale = red.scale;
-    let svd = red.r.svd(false, true);
-    let smax = svd.singular_values.max();
-    let rank = svd
-        .singular_values
-        .iter()
-        .filter(|&&s| s > 1e-10 * smax)
-        .count();
-    let Some(v_t) = svd.v_t else {
-        return (0, DMatrix::zeros(n, n));
-    };
-    let mut cov = DMatrix::zeros(n, n);
-    for (k, &s) in svd.singular_values.iter().enumerate() {
-        if s > 1e-10 * smax {
-            let v = v_t.row(k).transpose();
-            cov += (&v * v.transpose()) / (s * s);
-        }
-    }
-    for i in 0..n {
+    /// The damped step: SVD of the column-scaled, augmented system
+    /// [R; √λ I] y = [Qᵀz; 0], unscaled.
+    pub(super) fn step(&self, lambda: f64) -> Option<DVector<f64>> {
+        let n = self.r.ncols();
+        let mut a = DMatrix::zeros(2 * n, n);
+        a.rows_mut(0, n).copy_from(&self.r);
         for j in 0..n {
-            cov[(i, j)] /= scale[i] * scale[j];
+            a[(n + j, j)] = lambda.sqrt();
         }
+        let mut b = DVector::zeros(2 * n);
+        b.rows_mut(0, n).copy_from(&self.qtz);
+        let svd = a.svd(true, true);
+        let y = svd.solve(&b, 1e-14).ok()?;
+        Some(DVector::from_iterator(
+            n,
+            (0..n).map(|j| y[j] / self.scale[j]),
+        ))
     }
-    (rank, cov)
+
+    /// Rank and covariance (JᵀJ)⁻¹, by SVD of R (the same singular values and right
+    /// vectors as the column-scaled J).
+    pub(super) fn covariance(&self) -> (usize, DMatrix<f64>) {
+        let n = self.r.ncols();
+        let svd = self.r.clone().svd(false, true);
+        let smax = svd.singular_values.max();
+        let rank = svd
+            .singular_values
+            .iter()
+            .filter(|&&s| s > 1e-10 * smax)
+            .count();
+        let Some(v_t) = svd.v_t else {
+            return (0, DMatrix::zeros(n, n));
+        };
+        let mut cov = DMatrix::zeros(n, n);
+        for (k, &s) in svd.singular_values.iter().enumerate() {
+            if s > 1e-10 * smax {
+                let v = v_t.row(k).transpose();
+                cov += (&v * v.transpose()) / (s * s);
+            }
+        }
+        for i in 0..n {
+            for j in 0..n {
+                cov[(i, j)] /= self.scale[i] * self.scale[j];
+            }
+        }
+        (rank, cov)
+    }
+}
+
+/// The damped step for `jac` and `z` (see [`Reduced::step`]).
+#[cfg(test)]
+fn damped_step(jac: &DMatrix<f64>, z: &DVector<f64>, lambda: f64) -> Option<DVector<f64>> {
+    Reduced::new(jac, Some(z)).step(lambda)
+}
+
+/// Rank and covariance of a weighted Jacobian (see [`Reduced::covariance`]).
+pub(super) fn covariance(jac: &DMatrix<f64>) -> (usize, DMatrix<f64>) {
+    Reduced::new(jac, None).covariance()
 }
 
 #[cfg(test)]

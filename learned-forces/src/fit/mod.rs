@@ -15,7 +15,7 @@ pub mod stats;
 
 use anomaly::verdict;
 use edit::edit;
-use lsq::{covariance, damped_step};
+use lsq::{covariance, Reduced};
 pub use result::*;
 
 use crate::arc::Arc;
@@ -270,7 +270,6 @@ pub fn fit(
         options,
     };
     let mut fm = model;
-    let start_values = fm.values.clone();
     let mut x0 = match options.initial_state {
         Some(x) => x,
         None => initial_guess(arc, &t)?,
@@ -284,7 +283,7 @@ pub fn fit(
         &problem,
         &mut fm,
         &mut x0,
-        (&stage_ends, &start_values),
+        &stage_ends,
         &mut editing,
         observer,
     )?;
@@ -367,18 +366,19 @@ struct Editing {
     reasons: Vec<Option<String>>,
 }
 
-/// The stages of the fit: the state alone over the early stages, then the state and the
-/// parameters (from `start_values`) over the whole arc, with robust editing; returns the
-/// final linearization, the iterations and why the last stage stopped.
+/// The stages of the fit: the state alone over the early stages (the parameters held at
+/// rest, their values untouched), then the state and the parameters, from `fm.values`,
+/// over the whole arc, with robust editing; returns the final linearization, the
+/// iterations and why the last stage stopped.
 fn run_stages(
     problem: &Problem,
     fm: &mut FitModel,
     x0: &mut StateVector,
-    (stage_ends, start_values): (&[usize], &[f64]),
+    stage_ends: &[usize],
     editing: &mut Editing,
     observer: &mut dyn FitObserver,
 ) -> Result<(Linearized, usize, Termination), FitError> {
-    let n_params = start_values.len();
+    let n_params = fm.values.len();
     let stages = stage_ends.len();
     let mut iterations = 0;
     let mut termination = Termination::IterationLimit;
@@ -386,11 +386,8 @@ fn run_stages(
     for (si, &last) in stage_ends.iter().enumerate() {
         let final_stage = si + 1 == stages;
         let n_here = if final_stage { 6 + n_params } else { 6 };
-        // The parameters join in the last stage only, from their start.
+        // The parameters join in the last stage only.
         fm.set_estimating(final_stage);
-        if final_stage {
-            fm.values = start_values.to_vec();
-        }
         let mut edit_passes = 0;
         loop {
             let (l, it, conv) = solve_stage(
@@ -480,6 +477,8 @@ fn solve_stage(
     observer: &mut dyn FitObserver,
 ) -> Result<(Linearized, usize, Termination), FitError> {
     let mut lin = problem.linearize(fm, x0, last, used, n_est)?;
+    // One factorization per linearization serves every damping tried and the covariance.
+    let mut reduced = Reduced::new(&lin.jac, Some(&lin.z));
     let mut lambda = 1e-6;
     let mut stop: Option<Termination> = None;
     let mut it = 0;
@@ -487,7 +486,7 @@ fn solve_stage(
         it += 1;
         let mut accepted = false;
         for _ in 0..12 {
-            let Some(delta) = damped_step(&lin.jac, &lin.z, lambda) else {
+            let Some(delta) = reduced.step(lambda) else {
                 lambda *= 10.0;
                 continue;
             };
@@ -503,12 +502,14 @@ fn solve_stage(
                 Ok(l) if l.cost <= lin.cost => {
                     let improvement = (lin.cost - l.cost) / lin.cost.max(1e-300);
                     // Converged when the step is tiny against the formal uncertainty.
-                    let (_, cov) = covariance(&l.jac);
+                    let next = Reduced::new(&l.jac, Some(&l.z));
+                    let (_, cov) = next.covariance();
                     let step_sigma = (0..n_est)
                         .map(|j| (delta[j] / cov[(j, j)].sqrt().max(1e-300)).abs())
                         .fold(0.0, f64::max);
                     *x0 = x_try;
                     lin = l;
+                    reduced = next;
                     lambda = (lambda / 10.0).max(1e-12);
                     accepted = true;
                     let rms = (lin.cost / lin.z.len().max(1) as f64).sqrt();
