@@ -9,10 +9,13 @@
 //! Coefficients: sequentially thresholded least squares on significance |c|/σ on
 //! column-scaled matrices; nonlinear constants by variable projection.
 
-use crate::expr::{Context, Node, Terminals};
+use crate::expr::{Context, Node, Terminals, Value};
 use nalgebra::{DMatrix, DVector, Matrix6};
 use std::collections::HashMap;
-use std::sync::Mutex;
+use std::sync::{Arc, Mutex};
+
+/// A formula's values at every grid point.
+type Track = Vec<Value<f64>>;
 
 /// One used observation's place in the linearized problem.
 #[derive(Clone, Debug)]
@@ -46,6 +49,9 @@ pub struct Problem {
     /// Terminal constants.
     pub context: Context,
     cache: Mutex<HashMap<String, DVector<f64>>>,
+    /// Tracks of constant-free subtrees (`rho * norm(vrel)^2` …), shared by every
+    /// candidate and every trial of the constants around them.
+    tracks: Mutex<HashMap<String, Arc<Track>>>,
 }
 
 /// A solved candidate.
@@ -60,6 +66,8 @@ pub struct Solution {
 }
 
 const CACHE_LIMIT: usize = 3000;
+/// Most cached subtree tracks (about 100 kB each on a day's 20-s grid).
+const TRACK_LIMIT: usize = 400;
 
 impl Problem {
     /// Assembles the problem. `phi_grid[k]` is Φ at `grid_t[k]`; `states[k]` the reference
@@ -100,6 +108,7 @@ impl Problem {
             z,
             context,
             cache: Mutex::new(HashMap::new()),
+            tracks: Mutex::new(HashMap::new()),
         };
         let z = problem.project(problem.z.clone());
         problem.z = z;
@@ -142,11 +151,46 @@ impl Problem {
         Some(cum)
     }
 
+    /// The values of `node` along the grid with constants `k`, one operator at a time
+    /// over the whole grid (the operator tables' own arithmetic, so the same numbers as
+    /// a point-by-point evaluation); subtrees without constants are cached.
+    fn track(&self, node: &Node, k: &[f64]) -> Arc<Track> {
+        let n = self.terminals.len();
+        let cacheable =
+            matches!(node, Node::Unary(..) | Node::Binary(..)) && node.n_params() == 0;
+        let key = cacheable.then(|| node.to_string());
+        if let Some(key) = &key {
+            if let Some(t) = self.tracks.lock().ok().and_then(|c| c.get(key).cloned()) {
+                return t;
+            }
+        }
+        let track: Track = match node {
+            Node::Term(t) => self.terminals.iter().map(|p| t.value(p)).collect(),
+            Node::Const(c) => vec![Value::S(*c); n],
+            Node::Param(i) => vec![Value::S(k.get(*i).copied().unwrap_or(0.0)); n],
+            Node::Unary(op, a) => self.track(a, k).iter().map(|x| op.apply(x)).collect(),
+            Node::Binary(op, a, b) => {
+                let (a, b) = (self.track(a, k), self.track(b, k));
+                a.iter().zip(b.iter()).map(|(x, y)| op.apply(x, y)).collect()
+            }
+        };
+        let track = Arc::new(track);
+        if let Some(key) = key {
+            if let Ok(mut c) = self.tracks.lock() {
+                if c.len() < TRACK_LIMIT {
+                    c.insert(key, track.clone());
+                }
+            }
+        }
+        track
+    }
+
     /// The unprojected, weighted column of a formula with constants `k`; `None` if the
     /// formula is not finite along the trajectory.
     fn raw_column(&self, node: &Node, k: &[f64]) -> Option<DVector<f64>> {
+        let values = self.track(node, k);
         let cum = self.cumulative(|g| {
-            let v = node.eval(&self.terminals[g], k).vector();
+            let v = values[g].vector();
             (v[0].is_finite() && v[1].is_finite() && v[2].is_finite()).then_some(v)
         })?;
         Some(self.map_to_obs(|gi| cum[gi]))
