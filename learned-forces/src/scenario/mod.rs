@@ -76,6 +76,37 @@ pub enum TruthTerm {
         /// The multiplier.
         factor: f64,
     },
+    /// Drag multiplied by 1 + amplitude·sin(2π t/period + phase), t from the scenario
+    /// epoch (the cross-section of a tumbling body).
+    DragPeriodic {
+        /// Relative amplitude.
+        amplitude: f64,
+        /// Period, s.
+        period_s: f64,
+        /// Phase at the epoch, deg.
+        phase_deg: f64,
+    },
+    /// Drag multiplied by `factor` from an epoch on (a panel deploying).
+    DragStep {
+        /// The epoch, ISO 8601 UTC.
+        at_utc: String,
+        /// The multiplier after it.
+        factor: f64,
+    },
+    /// A constant RTN acceleration from an epoch on (a thruster switched on).
+    ThrustFrom {
+        /// Start, ISO 8601 UTC.
+        start_utc: String,
+        /// Acceleration, RTN, km/s².
+        accel_rtn_km_s2: [f64; 3],
+    },
+    /// Solar radiation pressure the known forces leave out (as forces.yaml's `srp`).
+    Srp(propagator::config::SrpSpec),
+    /// The truth's drag sees this atmosphere instead of the known model's (as
+    /// forces.yaml's `drag.atmosphere`): a density model wrong in shape.
+    Atmosphere(
+        #[serde(with = "serde_yaml::with::singleton_map")] propagator::config::AtmosphereSpec,
+    ),
     /// A once-per-revolution RTN acceleration A·cos(u + phase), u the argument of latitude.
     OncePerRev {
         /// Amplitudes along R, T, N, km/s².
@@ -261,6 +292,16 @@ impl ScenarioSpec {
         for t in &self.truth {
             match t {
                 TruthTerm::Maneuver(m) => truth_spec.maneuvers.push(m.clone()),
+                TruthTerm::Srp(srp) => {
+                    if truth_spec.srp.is_some() {
+                        return Err("truth.srp: the known forces already have srp".into());
+                    }
+                    truth_spec.srp = Some(srp.clone());
+                }
+                TruthTerm::Atmosphere(atmosphere) => match truth_spec.drag.as_mut() {
+                    Some(d) => d.atmosphere = atmosphere.clone(),
+                    None => return Err("truth.atmosphere needs drag in forces".into()),
+                },
                 TruthTerm::Thermosphere(weather) => {
                     weather
                         .validate()
@@ -316,6 +357,26 @@ impl ScenarioSpec {
                 )
                 .map_err(err)
         };
+        let positive = |v: f64, key: &str| {
+            if v.is_finite() && v > 0.0 {
+                Ok(v)
+            } else {
+                Err(err(format!("truth.{key} = {v}: must be positive")))
+            }
+        };
+        let extra_drag = |term: &str, shape: DragShape, factor: f64| {
+            if !factor.is_finite() {
+                return Err(err(format!(
+                    "truth.{term}: the factor {factor} is not finite"
+                )));
+            }
+            let drag = known_drag(term)?;
+            Ok(Box::new(ExtraDrag {
+                drag,
+                shape,
+                factor,
+            }) as Box<dyn Force>)
+        };
         for t in &self.truth {
             match t {
                 TruthTerm::DecayingPush {
@@ -334,27 +395,44 @@ impl ScenarioSpec {
                         time_constant_s: *time_constant_s,
                     }));
                 }
+                TruthTerm::ThrustFrom {
+                    start_utc,
+                    accel_rtn_km_s2,
+                } => truth.push(Box::new(DecayingPush {
+                    start_s: axis.seconds(&parse_epoch(start_utc, "thrust_from.start_utc")?),
+                    accel_rtn_km_s2: Vector3::from(*accel_rtn_km_s2),
+                    time_constant_s: f64::INFINITY,
+                })),
                 TruthTerm::DensityBump {
                     peak_utc,
                     width_s,
                     peak_factor,
                 } => {
-                    let drag = known_drag("density_bump")?;
-                    truth.push(Box::new(ExtraDrag {
-                        drag,
+                    let shape = DragShape::Bump {
                         peak_s: axis.seconds(&parse_epoch(peak_utc, "density_bump.peak_utc")?),
-                        width_s: *width_s,
-                        peak_factor: *peak_factor,
-                    }));
+                        width_s: positive(*width_s, "density_bump.width_s")?,
+                    };
+                    truth.push(extra_drag("density_bump", shape, *peak_factor)?);
                 }
                 TruthTerm::DragFactor { factor } => {
-                    let drag = known_drag("drag_factor")?;
-                    truth.push(Box::new(ExtraDrag {
-                        drag,
-                        peak_s: 0.0,
-                        width_s: f64::INFINITY,
-                        peak_factor: *factor,
-                    }));
+                    truth.push(extra_drag("drag_factor", DragShape::Constant, *factor)?);
+                }
+                TruthTerm::DragPeriodic {
+                    amplitude,
+                    period_s,
+                    phase_deg,
+                } => {
+                    let shape = DragShape::Periodic {
+                        period_s: positive(*period_s, "drag_periodic.period_s")?,
+                        phase_rad: phase_deg.to_radians(),
+                    };
+                    truth.push(extra_drag("drag_periodic", shape, 1.0 + amplitude)?);
+                }
+                TruthTerm::DragStep { at_utc, factor } => {
+                    let shape = DragShape::StepAt {
+                        at_s: axis.seconds(&parse_epoch(at_utc, "drag_step.at_utc")?),
+                    };
+                    truth.push(extra_drag("drag_step", shape, *factor)?);
                 }
                 TruthTerm::OncePerRev {
                     amplitude_rtn_km_s2,
@@ -380,7 +458,10 @@ impl ScenarioSpec {
                             .map_err(|e| err(format!("truth.formula: {e}")))?,
                     }));
                 }
-                TruthTerm::Maneuver(_) | TruthTerm::Thermosphere(_) => {}
+                TruthTerm::Maneuver(_)
+                | TruthTerm::Thermosphere(_)
+                | TruthTerm::Srp(_)
+                | TruthTerm::Atmosphere(_) => {}
             }
         }
         Ok(ScenarioModels {

@@ -1,5 +1,6 @@
-//! The truth's extra forces of a scenario: a formula, a decaying push, extra drag (a
-//! bump or a factor), a once-per-revolution term.
+//! The truth's extra forces of a scenario: a formula, a decaying push or a thrust from
+//! an epoch, extra drag (a bump, a factor, a periodic swing, a step), a once-per-revolution
+//! term.
 
 use super::*;
 
@@ -57,7 +58,7 @@ pub struct DecayingPush {
     pub start_s: f64,
     /// RTN acceleration at the start, km/s².
     pub accel_rtn_km_s2: Vector3<f64>,
-    /// e-folding time, s.
+    /// e-folding time, s (infinite: a constant thrust from the start).
     pub time_constant_s: f64,
 }
 
@@ -92,16 +93,62 @@ impl Force for DecayingPush {
     }
 }
 
-/// Extra drag (factor(t) − 1)·drag (truth only).
+/// How an [`ExtraDrag`]'s multiplier changes in time.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum DragShape {
+    /// Always on.
+    Constant,
+    /// exp(−((t − peak)/width)²) (a storm).
+    Bump {
+        /// Peak, s on the axis.
+        peak_s: f64,
+        /// Gaussian width, s.
+        width_s: f64,
+    },
+    /// sin(2π t/period + phase) (a tumbling body's area).
+    Periodic {
+        /// Period, s.
+        period_s: f64,
+        /// Phase at t = 0, rad.
+        phase_rad: f64,
+    },
+    /// 0 before `at_s`, 1 from it (a panel deploying).
+    StepAt {
+        /// The epoch, s on the axis.
+        at_s: f64,
+    },
+}
+
+/// Extra drag (factor − 1)·shape(t)·drag (truth only): the drag multiplied by
+/// 1 + (factor − 1)·shape(t).
 pub struct ExtraDrag {
     /// The modelled drag.
     pub drag: Drag,
-    /// Peak time, s (ignored when `width_s` is infinite).
-    pub peak_s: f64,
-    /// Gaussian width, s (infinite: a constant factor).
-    pub width_s: f64,
-    /// Multiplier at the peak.
-    pub peak_factor: f64,
+    /// The time dependence.
+    pub shape: DragShape,
+    /// Multiplier where the shape is 1.
+    pub factor: f64,
+}
+
+impl ExtraDrag {
+    fn extra(&self, t_s: f64, x: &StateVector, shape: f64) -> Result<Vector3<f64>, ForceError> {
+        if shape == 0.0 {
+            return Ok(Vector3::zeros());
+        }
+        Ok(self.drag.acceleration(t_s, x)? * ((self.factor - 1.0) * shape))
+    }
+
+    fn shape_at(&self, t_s: f64, after_step: bool) -> f64 {
+        match self.shape {
+            DragShape::Constant => 1.0,
+            DragShape::Bump { peak_s, width_s } => (-((t_s - peak_s) / width_s).powi(2)).exp(),
+            DragShape::Periodic {
+                period_s,
+                phase_rad,
+            } => (std::f64::consts::TAU * t_s / period_s + phase_rad).sin(),
+            DragShape::StepAt { .. } => f64::from(u8::from(after_step)),
+        }
+    }
 }
 
 impl Force for ExtraDrag {
@@ -109,12 +156,23 @@ impl Force for ExtraDrag {
         "truth_extra_drag"
     }
     fn acceleration(&self, t_s: f64, x: &StateVector) -> Result<Vector3<f64>, ForceError> {
-        let shape = if self.width_s.is_finite() {
-            (-((t_s - self.peak_s) / self.width_s).powi(2)).exp()
-        } else {
-            1.0
-        };
-        Ok(self.drag.acceleration(t_s, x)? * ((self.peak_factor - 1.0) * shape))
+        let after = matches!(self.shape, DragShape::StepAt { at_s } if t_s >= at_s);
+        self.extra(t_s, x, self.shape_at(t_s, after))
+    }
+    fn acceleration_in(
+        &self,
+        t_s: f64,
+        x: &StateVector,
+        seg: Segment,
+    ) -> Result<Vector3<f64>, ForceError> {
+        let after = matches!(self.shape, DragShape::StepAt { at_s } if seg.mid_s() >= at_s);
+        self.extra(t_s, x, self.shape_at(t_s, after))
+    }
+    fn discontinuities_s(&self) -> Vec<f64> {
+        match self.shape {
+            DragShape::StepAt { at_s } => vec![at_s],
+            _ => vec![],
+        }
     }
 }
 

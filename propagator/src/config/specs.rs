@@ -3,7 +3,7 @@
 use super::*;
 
 /// `srp:` block.
-#[derive(Clone, Debug, Deserialize)]
+#[derive(Clone, Debug, Deserialize, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct SrpSpec {
     /// Radiation-pressure coefficient, dimensionless (1 absorbing … 2 mirror).
