@@ -56,6 +56,7 @@ fn file() -> LearnedFile {
             name: "k0".into(),
             value: 21600.0,
             sigma: 10.0,
+            unit: Some("s".into()),
         }],
         validity: ValidityEntry {
             start_utc: EPOCH.into(),

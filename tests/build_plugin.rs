@@ -387,11 +387,13 @@ fn the_shipped_scenarios_learned_forces_agree_three_ways() {
             name: "k0".into(),
             value: 50431.0,
             sigma: 20.0,
+            unit: Some("s".into()),
         },
         ConstantEntry {
             name: "k1".into(),
             value: 10801.0,
             sigma: 30.0,
+            unit: Some("s".into()),
         },
     ];
     storm.checksum = storm.compute_checksum();

@@ -14,8 +14,8 @@ pub struct Args {
     /// Output folder for every file, report and plot.
     #[arg(long, default_value = "demo-out", value_name = "DIR")]
     out: PathBuf,
-    /// Generations of the search (fewer is faster).
-    #[arg(long, default_value_t = 16)]
+    /// Generations of the search, per seed (fewer is faster).
+    #[arg(long, default_value_t = learned_forces::learn::search::SearchOptions::default().generations)]
     generations: usize,
 }
 

@@ -38,9 +38,13 @@ pub struct Args {
     /// Write plots (SVG) into this folder.
     #[arg(long, value_name = "DIR")]
     plot: Option<PathBuf>,
-    /// Search seed.
+    /// Search seed (the first, with --seeds above 1).
     #[arg(long, default_value_t = 1)]
     seed: u64,
+    /// Searches run, with seeds --seed, --seed + 1, …: the model most of them agree on
+    /// is chosen, and a disagreement is reported.
+    #[arg(long, default_value_t = learned_forces::learn::DEFAULT_SEEDS)]
+    seeds: usize,
     /// Wall-clock budget of the search, s (stops at a generation boundary; results then
     /// depend on the machine's speed).
     #[arg(long, value_name = "SECONDS")]
@@ -48,11 +52,11 @@ pub struct Args {
     /// Threads for the search (default: all cores). Results do not depend on it.
     #[arg(long)]
     threads: Option<usize>,
-    /// Generations of the search.
-    #[arg(long, default_value_t = 16)]
+    /// Generations of the search (per seed).
+    #[arg(long, default_value_t = SearchOptions::default().generations)]
     generations: usize,
     /// Individuals per generation.
-    #[arg(long, default_value_t = 96)]
+    #[arg(long, default_value_t = SearchOptions::default().population)]
     population: usize,
     /// Classical parameters estimated with the state in every fit (comma-separated): drag_scale, srp_scale,
     /// emp_const_rtn, emp_1rev_rtn, emp_lin_rtn.
@@ -117,6 +121,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
             time_limit: a.time_limit.map(Duration::from_secs_f64),
             ..SearchOptions::default()
         },
+        seeds: a.seeds,
         ..LearnOptions::default()
     };
     let pool = thread_pool(a.threads)?;
@@ -175,6 +180,12 @@ fn checked_options(a: &Args) -> Result<OutsidePolicy, CliError> {
             )))
         }
     };
+    if !(1..=MAX_SEEDS).contains(&a.seeds) {
+        return Err(CliError::input(format!(
+            "--seeds {}: expected 1 to {MAX_SEEDS}",
+            a.seeds
+        )));
+    }
     if a.generations == 0 || a.population < 8 {
         return Err(CliError::input(
             "--generations must be at least 1 and --population at least 8",
@@ -247,6 +258,9 @@ fn learned_file(
     ))
 }
 
+/// Most search seeds one learn may run.
+const MAX_SEEDS: usize = 64;
+
 fn summarize(l: &Learned, out: &Path) {
     let v = &l.base.verdict;
     println!(
@@ -259,10 +273,30 @@ fn summarize(l: &Learned, out: &Path) {
     if let Some(st) = l.search_stats {
         let (n, g, s) = (st.evaluations, st.generations, st.seconds);
         println!(
-            "search: {n} candidates in {g} generations, {s:.1} s ({:.0} per second), stopped by {}",
+            "search: {n} candidates in {g} generations over {} seed(s), {s:.1} s ({:.0} per second), stopped by {}",
+            st.runs,
             n as f64 / s.max(1e-9),
             st.termination.as_str().replace('_', " ")
         );
+    }
+    let agreeing = l.seed_runs.iter().filter(|r| r.agrees).count();
+    if !l.seed_runs.is_empty() {
+        if agreeing == l.seed_runs.len() {
+            println!("seeds: {agreeing} of {agreeing} chose the reported model");
+        } else {
+            println!(
+                "seeds: DISAGREE — {agreeing} of {} chose the reported model:",
+                l.seed_runs.len()
+            );
+            for r in &l.seed_runs {
+                println!(
+                    "  seed {}{}: {}",
+                    r.seed,
+                    if r.agrees { " (agrees)" } else { "" },
+                    r.formula.as_deref().unwrap_or("nothing")
+                );
+            }
+        }
     }
     for f in &l.front {
         let held = f
@@ -292,6 +326,7 @@ fn summarize(l: &Learned, out: &Path) {
             {
                 println!("  {n}: {v:.6e} ± {s:.2e} km/s² per unit");
             }
+            let units = learned_forces::expr::units::constant_units(&c.terms.nodes);
             for (i, (v, s)) in c
                 .terms
                 .constants
@@ -299,8 +334,12 @@ fn summarize(l: &Learned, out: &Path) {
                 .zip(&c.terms.constant_sigmas)
                 .enumerate()
             {
+                let unit = match units.get(i).cloned().flatten() {
+                    Some(u) if u != "1" => format!(" {u}"),
+                    _ => String::new(),
+                };
                 if v.is_finite() {
-                    println!("  k{i} = {v:.6e} ± {s:.2e}");
+                    println!("  k{i} = {v:.6e} ± {s:.2e}{unit}");
                 }
             }
         }
@@ -353,7 +392,7 @@ fn report(a: &Args, l: &Learned, file: &LearnedFile) -> serde_json::Value {
             "formula": t.formula, "coefficient": t.coefficient, "sigma": t.sigma,
             "absorbed_by_initial_state": chosen.and_then(|c| c.absorbed.get(i)).copied(),
         })).collect::<Vec<_>>(),
-        "constants": file.constants.iter().map(|c| serde_json::json!({"name": c.name, "value": c.value, "sigma": c.sigma})).collect::<Vec<_>>(),
+        "constants": file.constants.iter().map(|c| serde_json::json!({"name": c.name, "value": c.value, "sigma": c.sigma, "unit": c.unit})).collect::<Vec<_>>(),
         "rms_km_before": l.base.rms_km,
         "rms_km_after": chosen.map(|c| c.fit.rms_km).unwrap_or(l.base.rms_km),
         "held_out_rms_km": chosen.map(|c| c.held_out_rms_km),
@@ -367,6 +406,16 @@ fn report(a: &Args, l: &Learned, file: &LearnedFile) -> serde_json::Value {
             "seconds": s.seconds,
             "stopped_by": s.termination.as_str(),
         })),
+        // One entry per search seed: what it chose and whether that is equivalent to
+        // the reported model.
+        "seeds": {
+            "runs": l.seed_runs.len(),
+            "agreeing": l.seed_runs.iter().filter(|r| r.agrees).count(),
+            "per_seed": l.seed_runs.iter().map(|r| serde_json::json!({
+                "seed": r.seed, "formula": r.formula, "held_out_rms_km": r.held_out_rms_km,
+                "agrees": r.agrees,
+            })).collect::<Vec<_>>(),
+        },
         "notes": l.notes,
         "learned_fit": chosen.map(|c| fit_json(&c.fit)),
     })

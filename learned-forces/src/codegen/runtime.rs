@@ -189,6 +189,16 @@ pub fn cross3<N: Num>(a: [N; 3], b: [N; 3]) -> [N; 3] {
 pub fn norm3<N: Num>(a: [N; 3]) -> N {
     dot3(a, a).sqrt()
 }
+/// The smooth step 1 / (1 + e^(−x)), written so that neither branch overflows: far from
+/// the switch e^(−x) is infinite and a dual number's derivative would be ∞/∞.
+pub fn logistic<N: Num>(x: N) -> N {
+    if x.val() >= 0.0 {
+        N::cst(1.0) / (N::cst(1.0) + (-x).exp())
+    } else {
+        let e = x.exp();
+        e / (N::cst(1.0) + e)
+    }
+}
 
 // The handbook piecewise-exponential atmosphere (Vallado, Table 8-4, from memory):
 // base altitude km, density kg/m³, scale height km.

@@ -20,6 +20,7 @@ pub mod num;
 pub mod ops;
 pub mod parse;
 pub mod random;
+pub mod units;
 
 pub use context::{Altitude, Context, Density, Environment, HostDensity, Terminals, HANDBOOK_ENV};
 pub use ops::{Op1, Op2, Spelling, Terminal};
@@ -133,6 +134,26 @@ impl Node {
         }
     }
 
+    /// The same tree with every `k<i>` renamed `k<i + offset>` (a tree joining a model
+    /// whose constants already use `k0`…`k<offset − 1>`).
+    pub fn shift_params(&self, offset: usize) -> Node {
+        self.rename_params(&|i| i + offset)
+    }
+
+    /// The same tree with every `k<i>` renamed `k<f(i)>`.
+    pub fn rename_params(&self, f: &dyn Fn(usize) -> usize) -> Node {
+        match self {
+            Node::Param(i) => Node::Param(f(*i)),
+            Node::Term(_) | Node::Const(_) => self.clone(),
+            Node::Unary(op, a) => Node::Unary(*op, Box::new(a.rename_params(f))),
+            Node::Binary(op, a, c) => Node::Binary(
+                *op,
+                Box::new(a.rename_params(f)),
+                Box::new(c.rename_params(f)),
+            ),
+        }
+    }
+
     /// Children, for the search's tree operators.
     pub fn children(&self) -> Vec<&Node> {
         match self.shape() {
@@ -236,6 +257,18 @@ impl Node {
         }
     }
 
+    /// `b` when this node is `-b`, a negative number `-|b|` or `-|c| * x` (then `b` = `|c| * x`).
+    pub(crate) fn negated(&self) -> Option<Node> {
+        match self {
+            Node::Unary(Op1::Neg, b) => Some((**b).clone()),
+            Node::Const(c) if *c < 0.0 => Some(Node::Const(-c)),
+            Node::Binary(Op2::Mul, a, x) if matches!(**a, Node::Const(c) if c < 0.0) => a
+                .negated()
+                .map(|a| Node::binary(Op2::Mul, a, (**x).clone())),
+            _ => None,
+        }
+    }
+
     /// Evaluates at one point (`params` are the values of `k0`, `k1`, …).
     pub fn eval<N: Num>(&self, p: &Terminals<N>, params: &[f64]) -> Value<N> {
         match self {
@@ -276,6 +309,7 @@ fn prec(n: &Node) -> u8 {
         },
         Node::Unary(op, _) => op.precedence(),
         Node::Const(c) if *c < 0.0 => 3,
+        Node::Const(c) if *c == std::f64::consts::TAU => 2,
         Node::Term(_) | Node::Const(_) | Node::Param(_) => 5,
     }
 }
@@ -302,8 +336,19 @@ impl fmt::Display for Node {
         };
         match self {
             Node::Term(t) => f.write_str(t.name()),
+            Node::Const(c) if *c == std::f64::consts::PI => f.write_str("pi"),
+            Node::Const(c) if *c == std::f64::consts::TAU => f.write_str("2 * pi"),
             Node::Const(c) => f.write_str(&fmt_num(*c)),
             Node::Param(i) => write!(f, "k{i}"),
+            // `a + -b` reads `a - b`.
+            Node::Binary(Op2::Add, a, c) if c.negated().is_some() => {
+                wrap(a, 1, f)?;
+                f.write_str(" - ")?;
+                match c.negated() {
+                    Some(b) => wrap(&b, 2, f),
+                    None => wrap(c, 2, f),
+                }
+            }
             Node::Binary(op, a, c) => match op.spelling() {
                 // Left-associative: the right operand binds one step tighter.
                 Spelling::Infix(symbol, strength) => {

@@ -3,7 +3,7 @@
 //! learned force come out of the same evaluation, exactly.
 
 // One implementation serves the library and every generated plugin: the runtime.
-pub use crate::codegen::runtime::{add3, cross3, dot3, norm3, scale3, sub3, Dual, Num};
+pub use crate::codegen::runtime::{add3, cross3, dot3, logistic, norm3, scale3, sub3, Dual, Num};
 
 /// A 3-vector of numbers.
 pub type V3<N> = [N; 3];

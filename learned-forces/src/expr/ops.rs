@@ -8,7 +8,7 @@
 //! the compiled evaluator and the code generator only dispatch to these tables.
 
 use super::compiled::Needs;
-use super::num::{add3, cross3, dot3, norm3, scale3, sub3, Num};
+use super::num::{add3, cross3, dot3, logistic, norm3, scale3, sub3, Num};
 use super::{Node, Terminals, Ty, Value};
 
 /// A quantity of the state, time or environment (units in the module above).
@@ -182,6 +182,9 @@ impl Terminal {
     }
 }
 
+/// The largest |n| of a power `x^n` (folded powers included).
+pub const MAX_POWER: i32 = 16;
+
 /// An operator over one operand.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 pub enum Op1 {
@@ -258,17 +261,21 @@ impl Op1 {
             (Sqrt, S(x)) => S(x.sqrt()),
             (Pow(n), S(x)) => S(x.powi(n)),
             (Norm, V(x)) => S(norm3(*x)),
-            (Step, S(x)) => S(N::cst(1.0) / (N::cst(1.0) + (-*x).exp())),
+            (Step, S(x)) => S(logistic(*x)),
             (Sin | Cos | Exp | Sqrt | Step | Pow(_), V(_)) | (Norm, S(_)) => nan,
         }
     }
 
     /// The simplified `op a`, `a` already simplified: constants folded, −(−x) = x,
-    /// x^1 = x, and the norm of a unit vector is 1.
+    /// x^1 = x, (x^a)^b = x^(ab) (up to the language's largest power), and the norm of a
+    /// unit vector is 1.
     pub fn simplified(self, a: Node) -> Node {
         use Op1::*;
         match (self, a) {
             (Pow(1), x) => x,
+            (Pow(b), Node::Unary(Pow(a), x)) if (a * b).abs() <= MAX_POWER => {
+                Pow(a * b).simplified(*x)
+            }
             (Neg, Node::Unary(Neg, inner)) => *inner,
             (Norm, Node::Term(t)) if t.is_unit() => Node::Const(1.0),
             (op @ (Neg | Sin | Cos | Exp | Sqrt | Step | Pow(_)), Node::Const(x)) => {
@@ -303,7 +310,7 @@ impl Op1 {
             (Sqrt, _) => format!("{a}.sqrt()"),
             (Pow(n), _) => format!("{a}.powi({n})"),
             (Norm, _) => format!("norm3({a})"),
-            (Step, _) => format!("N::cst(1.0) / (N::cst(1.0) + (-{a}).exp())"),
+            (Step, _) => format!("logistic({a})"),
         }
     }
 
@@ -430,6 +437,11 @@ impl Op2 {
             (Add, Some(x), Some(y)) => Const(x + y),
             (Add, Some(0.0), _) => c,
             (Add, _, Some(0.0)) => a,
+            // `a + -b` is `a - b`.
+            (Add, _, _) if c.negated().is_some() => match c.negated() {
+                Some(b) => Node::Binary(Sub, Box::new(a), Box::new(b)),
+                None => Node::Binary(Add, Box::new(a), Box::new(c)),
+            },
             (Sub, Some(x), Some(y)) => Const(x - y),
             (Sub, _, Some(0.0)) => a,
             (Sub, _, _) if a == c && scalar(&a) => Const(0.0),

@@ -4,6 +4,7 @@
 //! `unary := '-' unary | power`, `power := atom ('^' int | '^(' int ')')?`,
 //! `atom := number | name | function '(' args ')' | '(' sum ')'`.
 
+use super::ops::MAX_POWER;
 use super::{Node, Op1, Op2, Terminal, Ty};
 
 /// A formula that does not parse or type-check, with the character position.
@@ -169,10 +170,10 @@ impl Parser<'_> {
                 .trim()
                 .parse()
                 .map_err(|_| self.err_at(start, "expected an integer power".into()))?;
-            if !(-4..=4).contains(&n) || n == 0 {
+            if n == 0 || n.abs() > MAX_POWER {
                 return Err(self.err_at(
                     start,
-                    format!("power {n}: only small non-zero integers (−4…4)"),
+                    format!("power {n}: only small non-zero integers (−{MAX_POWER}…{MAX_POWER})"),
                 ));
             }
             if paren {
@@ -231,6 +232,9 @@ impl Parser<'_> {
         let name: String = self.chars[start..self.pos].iter().collect();
         if let Some(t) = Terminal::from_name(&name) {
             return Ok(Node::Term(t));
+        }
+        if name == "pi" {
+            return Ok(Node::Const(std::f64::consts::PI));
         }
         if let Some(d) = name.strip_prefix('k') {
             if let Ok(i) = d.parse::<usize>() {

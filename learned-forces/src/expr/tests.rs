@@ -26,10 +26,15 @@ fn parses_prints_and_round_trips() {
         "-(cos(u) * R)",
         "t^(-2) * R",
         "step((t - k0) / k1) * T",
+        "sin(2 * pi * t / k0 + k1) * rho * norm(vrel) * vrel",
+        "T + -(cos(u) * R)",
+        "exp(-t / k0) * T + -2 * N",
+        "(((t / k0)^2)^2)^3 * T",
     ] {
         let n = parse(text).unwrap().simplify();
         let printed = n.to_string();
-        let again = parse(&printed).unwrap();
+        // Read back, the same tree once simplified (`2 * pi` reads as a product).
+        let again = parse(&printed).unwrap().simplify();
         assert_eq!(again, n, "{text} → {printed}");
         assert_eq!(again.to_string(), printed);
     }
@@ -45,7 +50,7 @@ fn type_and_syntax_errors_are_named() {
         ("foo * T", "unknown name `foo`"),
         ("exp(t * T", "expected `)`"),
         ("T / R", "dividing by a vector"),
-        ("t^9 * T", "small non-zero"),
+        ("t^17 * T", "small non-zero"),
         ("", "end of the formula"),
         ("T $", "unexpected `$`"),
         ("step(T) * R", "needs a scalar"),
@@ -58,6 +63,29 @@ fn type_and_syntax_errors_are_named() {
         .unwrap_err()
         .to_string()
         .contains("nested deeper"));
+}
+
+#[test]
+fn formulas_read_as_written_by_hand() {
+    let read = |text: &str| parse(text).unwrap().simplify().to_string();
+    // Powers fold: ((x²)²)³ = x¹²; past the largest power they stay apart.
+    assert_eq!(read("((t^2)^2)^3 * T"), "t^12 * T");
+    assert_eq!(read("((t^4)^4)^2 * T"), "(t^16)^2 * T");
+    // `a + -b` prints as `a - b`, for numbers and negations alike.
+    assert_eq!(read("T + -(cos(u) * R)"), "T - cos(u) * R");
+    assert_eq!(read("T + -2 * N"), "T - 2 * N");
+    assert_eq!(read("(t + -2) * T"), "(t - 2) * T");
+    // π by name, and a full turn as 2π.
+    assert_eq!(read("sin(2 * pi * t / k0) * T"), "sin(2 * pi * t / k0) * T");
+    assert_eq!(read("cos(pi * t) * T"), "cos(pi * t) * T");
+    let n = parse("sin(2 * pi * t / 100) * T").unwrap();
+    let p = Terminals::of_state(
+        25.0,
+        &StateVector::new(7000.0, 0.0, 0.0, 0.0, 7.5, 0.0),
+        &ctx(),
+    );
+    // A quarter period: sin(π/2) = 1, along T.
+    assert!((n.eval(&p, &[]).vector()[1] - 1.0).abs() < 1e-12);
 }
 
 #[test]
@@ -243,8 +271,19 @@ fn the_smooth_step_switches_on_with_exact_partials() {
         parse("step(0) * T").unwrap().simplify().to_string(),
         "0.5 * T"
     );
-    assert_eq!(
-        Op1::Step.code(Ty::Scalar, "x0"),
-        "N::cst(1.0) / (N::cst(1.0) + (-x0).exp())"
-    );
+    assert_eq!(Op1::Step.code(Ty::Scalar, "x0"), "logistic(x0)");
+    // Far from the switch, on either side, the partials stay finite (e^(−x) overflows
+    // there; a naive 1/(1 + e^(−x)) gives a dual number ∞/∞ = NaN).
+    for x0 in [-800.0f64, -40.0, 0.3, 40.0, 800.0] {
+        let d = num::logistic(num::Dual::var(x0, 0));
+        assert!(
+            d.v.is_finite() && d.d.iter().all(|v| v.is_finite()),
+            "{x0}: {d:?}"
+        );
+        let exact = (-x0.abs()).exp() / (1.0 + (-x0.abs()).exp()).powi(2);
+        assert!(
+            (d.d[0] - exact).abs() <= 1e-15 + 1e-12 * exact,
+            "{x0}: {d:?}"
+        );
+    }
 }

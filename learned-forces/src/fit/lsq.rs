@@ -3,6 +3,10 @@
 
 use nalgebra::{DMatrix, DVector};
 
+/// Most sweeps an n × n SVD may take (it needs a few per singular value; the bound only
+/// stops a matrix that would never converge).
+const SVD_ITERATIONS: usize = 1000;
+
 /// The column-scaled `jac` reduced to its triangular factor: `jac·diag(1/scale) = Q R`,
 /// so that ‖J y − z‖² = ‖R y − Qᵀz‖² + a constant. The decompositions below then work on
 /// n × n instead of m × n (thousands of rows): an SVD of the tall matrix spent most of a
@@ -55,7 +59,7 @@ impl Reduced {
         }
         let mut b = DVector::zeros(2 * n);
         b.rows_mut(0, n).copy_from(&self.qtz);
-        let svd = a.svd(true, true);
+        let svd = a.try_svd(true, true, f64::EPSILON, SVD_ITERATIONS)?;
         let y = svd.solve(&b, 1e-14).ok()?;
         Some(DVector::from_iterator(
             n,
@@ -67,7 +71,13 @@ impl Reduced {
     /// vectors as the column-scaled J).
     pub(super) fn covariance(&self) -> (usize, DMatrix<f64>) {
         let n = self.r.ncols();
-        let svd = self.r.clone().svd(false, true);
+        let Some(svd) = self
+            .r
+            .clone()
+            .try_svd(false, true, f64::EPSILON, SVD_ITERATIONS)
+        else {
+            return (0, DMatrix::zeros(n, n));
+        };
         let smax = svd.singular_values.max();
         let rank = svd
             .singular_values
@@ -107,6 +117,19 @@ pub(super) fn covariance(jac: &DMatrix<f64>) -> (usize, DMatrix<f64>) {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_jacobian_with_a_nan_gives_no_step_and_no_hang() {
+        let mut jac = DMatrix::from_fn(40, 3, |i, j| ((i * 3 + j) as f64).sin());
+        jac[(7, 1)] = f64::NAN;
+        let z = DVector::from_element(40, 1.0);
+        let reduced = Reduced::new(&jac, Some(&z));
+        assert!(reduced
+            .step(1e-3)
+            .is_none_or(|s| s.iter().any(|v| !v.is_finite())));
+        let (rank, _) = reduced.covariance();
+        assert!(rank < 3);
+    }
 
     /// A tall, badly scaled Jacobian (columns spanning 21 orders of magnitude; with
     /// `near`, two nearly dependent) and a residual, from a fixed generator.

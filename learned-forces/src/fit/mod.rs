@@ -186,6 +186,14 @@ impl Problem<'_> {
         if !cost.is_finite() {
             return Err(FitError::Propagation("non-finite residuals".into()));
         }
+        // A NaN partial would stall the step's decomposition; the model is not
+        // differentiable at this iterate (an overflowing learned term, say).
+        if jac.iter().any(|v| !v.is_finite()) {
+            return Err(FitError::Propagation(
+                "non-finite partials of the residuals (the model is not differentiable here)"
+                    .into(),
+            ));
+        }
         Ok(Linearized {
             cost,
             jac,

@@ -15,9 +15,12 @@ mod predict;
 pub mod rank;
 mod refine;
 pub mod search;
+mod seeds;
 mod select;
 mod sensitivities;
+pub mod timing;
 pub use outcome::*;
+pub use seeds::SeedRun;
 
 use crate::arc::Arc;
 use crate::expr::{Context, Node};
@@ -26,12 +29,16 @@ use crate::fit::{fit, FitError, FitObserver, FitOptions, FitResult};
 use crate::terms::Terms;
 use linearized::{Problem, Solution};
 use propagator::{Epoch, ForceModel};
-use search::{search, SearchObserver, SearchOptions};
+use search::{SearchObserver, SearchOptions};
 
 use equivalent::sign_invisible;
 pub use equivalent::{canonical_key, EQUIVALENT_DCHI2};
 pub use predict::{prediction_rms, trajectory};
 pub use select::{predicts_as_well, HELD_OUT_DCHI2};
+
+/// Search seeds run by default: enough to see a disagreement, within the time an
+/// analyst waits for one arc (the venting scenario's learn stays under 20 s on 2 cores).
+pub const DEFAULT_SEEDS: usize = 3;
 
 /// Options of the learner.
 #[derive(Clone, Debug)]
@@ -52,6 +59,9 @@ pub struct LearnOptions {
     pub selection_tolerance: f64,
     /// Grid spacing of the linearized problem, s.
     pub grid_step_s: f64,
+    /// How many search seeds (`search.seed`, `search.seed + 1`, …) are run; the chosen
+    /// model is the one most of them agree on.
+    pub seeds: usize,
 }
 
 impl Default for LearnOptions {
@@ -64,6 +74,7 @@ impl Default for LearnOptions {
             refine_top: 5,
             selection_tolerance: 0.15,
             grid_step_s: 20.0,
+            seeds: DEFAULT_SEEDS,
         }
     }
 }
@@ -203,17 +214,18 @@ pub fn learn(
             short.span()
         ));
     }
-    let nothing = |base, front, held_out_rms_base_km, notes, search_stats| Learned {
+    let nothing = |base, front, held_out_rms_base_km, notes, search_stats, seed_runs| Learned {
         base,
         chosen: None,
         front,
         held_out_rms_base_km,
         notes,
         search_stats,
+        seed_runs,
     };
     if !base.verdict.anomaly {
         notes.push("the base fit's verdict is no_anomaly: the known forces explain the arc; nothing was learned".into());
-        return Ok(nothing(base, vec![], None, notes, None));
+        return Ok(nothing(base, vec![], None, notes, None, vec![]));
     }
     // 2. Hold-out: train on the early part, keep the tail for selection.
     let split = holdout::HoldOut::split(arc, options.holdout_fraction)?;
@@ -221,31 +233,28 @@ pub fn learn(
     let held_out_base = l.predict_rms(&base_train, &[], &split.held)?;
     // 3. Linearized sensitivities of the training fit.
     let problem = l.problem(&split.train, &base_train)?;
-    // 4. Search over formulas in the linearized problem.
-    let sopts = SearchOptions {
-        span_s: split.cut_s,
-        ..options.search.clone()
-    };
-    let found = search(&problem, &sopts, search_observer);
-    let mut front = front_entries(&found.front);
-    let stats = Some(SearchStats {
-        evaluations: found.evaluations,
-        generations: found.generations,
-        seconds: found.seconds,
-        termination: found.termination,
-    });
-    // 5. Refinement of the most promising with the force in the dynamics.
-    let refined = l.refine_front(&found.front, &problem, &split, &base_train, fit_observer)?;
-    for r in &refined {
-        if let Some(f) = front.iter_mut().find(|f| f.complexity == r.complexity) {
-            f.held_out_rms_km = Some(r.held_out_rms_km);
-        }
+    // 4–6. Search over formulas in the linearized problem, refinement of the most
+    // promising with the force in the dynamics, selection of the simplest that predicts
+    // the tail as well as the best: once per seed, then the seeds' agreement.
+    let seeded =
+        l.search_every_seed(&problem, &split, &base_train, fit_observer, search_observer)?;
+    let front = front_entries(&seeded);
+    let stats = Some(SearchStats::of(&seeded.searches));
+    if let Some(note) = disagreement(&seeded.runs) {
+        notes.push(note);
     }
-    // 6. Selection: the simplest that predicts the tail as well as the best.
-    let best = select::best_held_out(&refined);
-    let Some(chosen) = select::simplest_as_good(&refined, best, &split.held, options) else {
+    let best = select::best_held_out(&seeded.refined);
+    let runs = seeded.runs;
+    let Some(chosen) = seeded.chosen else {
         notes.push("no candidate survived refinement with significant terms".into());
-        return Ok(nothing(base, front, Some(held_out_base), notes, stats));
+        return Ok(nothing(
+            base,
+            front,
+            Some(held_out_base),
+            notes,
+            stats,
+            runs,
+        ));
     };
     if chosen.held_out_rms_km >= held_out_base {
         notes.push(format!(
@@ -253,7 +262,14 @@ pub fn learn(
             chosen.held_out_rms_km * 1e3,
             held_out_base * 1e3
         ));
-        return Ok(nothing(base, front, Some(held_out_base), notes, stats));
+        return Ok(nothing(
+            base,
+            front,
+            Some(held_out_base),
+            notes,
+            stats,
+            runs,
+        ));
     }
     // 7. Equivalent forms: among forms the arc cannot tell apart, the canonical one, so
     // that the formula does not flip with the noise.
@@ -282,20 +298,60 @@ pub fn learn(
         held_out_rms_base_km: Some(held_out_base),
         notes,
         search_stats: stats,
+        seed_runs: runs,
     })
 }
 
-/// The search's front as the report lists it (held-out errors filled in by refinement).
-fn front_entries(front: &[Solution]) -> Vec<FrontEntry> {
-    front
+/// The seeds' fronts merged as the report lists them (the best at each complexity
+/// that beats every simpler one), with the held-out errors of the refined members.
+fn front_entries(seeded: &seeds::Seeded) -> Vec<FrontEntry> {
+    let mut archive: std::collections::BTreeMap<usize, Solution> = Default::default();
+    for s in seeded.searches.iter().flat_map(|f| &f.front) {
+        if archive.get(&s.complexity).is_none_or(|b| s.cost < b.cost) {
+            archive.insert(s.complexity, s.clone());
+        }
+    }
+    search::pareto(&archive)
         .iter()
-        .map(|s| FrontEntry {
-            complexity: s.complexity,
-            formula: s.terms.text(),
-            cost: s.cost,
-            held_out_rms_km: None,
+        .map(|s| {
+            let formula = s.terms.text();
+            let held_out_rms_km = seeded
+                .refined
+                .iter()
+                .find(|r| r.member == formula)
+                .map(|r| r.held_out_rms_km);
+            FrontEntry {
+                complexity: s.complexity,
+                formula,
+                cost: s.cost,
+                held_out_rms_km,
+            }
         })
         .collect()
+}
+
+/// A note when the seeds did not all choose the same model.
+fn disagreement(runs: &[SeedRun]) -> Option<String> {
+    let agreeing = runs.iter().filter(|r| r.agrees).count();
+    if agreeing == runs.len() {
+        return None;
+    }
+    let others: Vec<String> = runs
+        .iter()
+        .filter(|r| !r.agrees)
+        .map(|r| {
+            format!(
+                "seed {}: {}",
+                r.seed,
+                r.formula.as_deref().unwrap_or("nothing")
+            )
+        })
+        .collect();
+    Some(format!(
+        "the search seeds DISAGREE: {agreeing} of {} chose the reported model; {}. Treat the form as uncertain",
+        runs.len(),
+        others.join("; ")
+    ))
 }
 
 #[cfg(test)]

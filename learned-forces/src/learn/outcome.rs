@@ -44,19 +44,40 @@ pub struct Learned {
     pub notes: Vec<String>,
     /// Candidate evaluations, generations, seconds of the search.
     pub search_stats: Option<SearchStats>,
+    /// What each search seed chose (empty when nothing was searched).
+    pub seed_runs: Vec<SeedRun>,
 }
 
-/// How the search went: its size, its time and why it stopped.
+/// How the search went: its size, its time and why it stopped (summed over the seeds).
 #[derive(Clone, Copy, Debug)]
 pub struct SearchStats {
+    /// Searches run (one per seed).
+    pub runs: usize,
     /// Candidate evaluations.
     pub evaluations: usize,
     /// Generations run.
     pub generations: usize,
     /// Wall time, s.
     pub seconds: f64,
-    /// Why the search stopped.
+    /// Why the last search stopped.
     pub termination: crate::termination::Termination,
+}
+
+impl SearchStats {
+    /// The statistics of several seeds' searches, summed.
+    pub fn of(searches: &[search::SearchResult]) -> SearchStats {
+        SearchStats {
+            runs: searches.len(),
+            evaluations: searches.iter().map(|s| s.evaluations).sum(),
+            generations: searches.iter().map(|s| s.generations).sum(),
+            seconds: searches.iter().map(|s| s.seconds).sum(),
+            termination: searches
+                .last()
+                .map_or(crate::termination::Termination::Generations, |s| {
+                    s.termination
+                }),
+        }
+    }
 }
 
 /// What learning concluded about the arc.

@@ -5,12 +5,15 @@
 use super::holdout::HoldOut;
 use super::linearized::{Problem, Solution};
 use super::{FitObserver, FitResult, LearnError, Learner};
+use std::collections::HashMap;
 
 /// A front member after refinement.
 #[derive(Clone)]
 pub(super) struct Refined {
-    /// The front member's complexity (its key in the report's front).
+    /// The front member's complexity.
     pub(super) complexity: usize,
+    /// The front member's text (its key in the report's front).
+    pub(super) member: String,
     /// Its terms after pruning.
     pub(super) solution: Solution,
     /// The training arc fitted with them.
@@ -21,27 +24,47 @@ pub(super) struct Refined {
 
 impl Learner<'_> {
     /// Refines the members of `front` worth refining ([`worth_refining`]), in front
-    /// order; members that lose every term, or whose fit fails, drop out.
-    pub(super) fn refine_front(
+    /// order; members that lose every term, or whose fit fails, drop out. A member
+    /// already in `cache` (met in another seed's front) is not refined again.
+    pub(super) fn refine_front_shared(
         &self,
         front: &[Solution],
         problem: &Problem,
         split: &HoldOut,
         base_train: &FitResult,
+        cache: &mut HashMap<String, Option<Refined>>,
         observer: &mut dyn FitObserver,
     ) -> Result<Vec<Refined>, LearnError> {
         let mut refined = Vec::new();
         for idx in worth_refining(front, problem.rows(), self.options.refine_top) {
-            let Some((solution, fit)) = self.prune(&front[idx], split, base_train, observer) else {
+            // Seeds meet the same member with rounding-level differences.
+            let key = front[idx].terms.text();
+            if let Some(done) = cache.get(&key) {
+                refined.extend(done.clone());
                 continue;
+            }
+            let t0 = std::time::Instant::now();
+            let r = match self.prune(&front[idx], split, base_train, observer) {
+                None => None,
+                Some((solution, fit)) => Some(Refined {
+                    complexity: front[idx].complexity,
+                    member: front[idx].terms.text(),
+                    held_out_rms_km: self.predict_rms(&fit, &solution.terms.nodes, &split.held)?,
+                    solution,
+                    fit,
+                }),
             };
-            let held_out_rms_km = self.predict_rms(&fit, &solution.terms.nodes, &split.held)?;
-            refined.push(Refined {
-                complexity: front[idx].complexity,
-                solution,
-                fit,
-                held_out_rms_km,
-            });
+            if std::env::var("ARCWISE_DEBUG_REFINE").is_ok() {
+                eprintln!(
+                    "DEBUG refine {:.2}s {} -> {:?}",
+                    t0.elapsed().as_secs_f64(),
+                    front[idx].terms.text(),
+                    r.as_ref()
+                        .map(|r| (r.solution.terms.text(), r.held_out_rms_km))
+                );
+            }
+            refined.extend(r.clone());
+            cache.insert(key, r);
         }
         Ok(refined)
     }
@@ -93,9 +116,12 @@ impl Learner<'_> {
 }
 
 /// The front members worth refining, in front order: the `top` best by BIC
-/// (χ² + k ln m, k coefficients and constants, m rows) and the best by χ² alone. By χ²
-/// alone the most complex members always win, and a simpler one only a fraction of a χ²
-/// unit worse was never refined.
+/// (χ² + k ln m, k coefficients and constants, m rows) within [`BIC_MARGIN`] of the best,
+/// and the best by χ² alone when it beats the best by BIC by more than that margin in χ²
+/// (linearization error can hide the right model's BIC). By χ² alone the most complex members always win, and a
+/// simpler one only a fraction of a χ² unit worse was never refined; past the margin a
+/// member's extra constants buy nothing (they were the most expensive refinements of the
+/// venting scenario, each pruned back to the simple member).
 fn worth_refining(front: &[Solution], rows: usize, top: usize) -> Vec<usize> {
     let ln_m = (rows.max(2) as f64).ln();
     let bic = |s: &Solution| {
@@ -103,14 +129,23 @@ fn worth_refining(front: &[Solution], rows: usize, top: usize) -> Vec<usize> {
     };
     let mut order: Vec<usize> = (0..front.len()).collect();
     order.sort_by(|&a, &b| bic(&front[a]).total_cmp(&bic(&front[b])));
+    if let Some(&first) = order.first() {
+        let limit = bic(&front[first]) + BIC_MARGIN;
+        order.retain(|&i| bic(&front[i]) <= limit);
+    }
     order.truncate(top);
-    if let Some(best_fit) =
-        (0..front.len()).min_by(|&a, &b| front[a].cost.total_cmp(&front[b].cost))
-    {
-        if !order.contains(&best_fit) {
+    let best_fit = (0..front.len()).min_by(|&a, &b| front[a].cost.total_cmp(&front[b].cost));
+    if let (Some(best_fit), Some(&first)) = (best_fit, order.first()) {
+        // Only when its χ² gain is worth a look: a few χ² units bought with several
+        // constants is the noise.
+        if !order.contains(&best_fit) && front[first].cost - front[best_fit].cost > BIC_MARGIN {
             order.push(best_fit);
         }
     }
     order.sort();
     order
 }
+
+/// BIC above the front's best past which a member is not refined: 10 is "very strong"
+/// evidence against it on the Kass & Raftery (1995) scale.
+const BIC_MARGIN: f64 = 10.0;

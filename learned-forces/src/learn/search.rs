@@ -65,7 +65,7 @@ impl Default for SearchOptions {
     fn default() -> Self {
         Self {
             population: 96,
-            generations: 16,
+            generations: 12,
             seed: 1,
             threshold: 5.0,
             max_terms: 3,
@@ -100,7 +100,8 @@ pub struct SearchResult {
     /// Best solution at each complexity that beats every simpler one (the Pareto front),
     /// by increasing complexity.
     pub front: Vec<Solution>,
-    /// Candidate evaluations (solves) made.
+    /// Candidate evaluations (solves) made; with several seeds, each candidate is
+    /// counted by the first seed that met it.
     pub evaluations: usize,
     /// Generations run.
     pub generations: usize,
@@ -110,7 +111,7 @@ pub struct SearchResult {
     pub termination: Termination,
 }
 
-const VECTORS: [&str; 4] = ["R", "T", "N", "vrel / norm(vrel)"];
+const VECTORS: [&str; 5] = ["R", "T", "N", "vrel / norm(vrel)", "lit * sun"];
 const MODULATORS: [&str; 10] = [
     "1",
     "exp(-t / k0)",
@@ -124,8 +125,16 @@ const MODULATORS: [&str; 10] = [
     "lit",
 ];
 
-/// The seed library: physically plain single-term candidates.
-fn library(span: f64) -> Vec<Individual> {
+/// The seed library: physically plain single-term candidates, and the periodic and
+/// switch-on blocks with their scanned timing ([`super::timing`]).
+fn library(problem: &Problem, span: f64) -> Vec<Individual> {
+    let mut out = plain_library(span);
+    out.extend(super::timing::seeded(problem, span));
+    out
+}
+
+/// The library's single-term candidates with fixed starting constants.
+fn plain_library(span: f64) -> Vec<Individual> {
     let mut out = Vec::new();
     for m in MODULATORS {
         for v in VECTORS {
@@ -231,11 +240,21 @@ fn point_mutate(g: &mut Gen, n: &Node) -> Node {
                 Node::Term(group[g.below(group.len())])
             }
         }
-        Node::Const(c) => Node::Const(c * (0.5 * g.normal()).exp()),
+        // Two significant digits: a literal a reader can take in (`41`, not `40.96337…`).
+        Node::Const(c) => Node::Const(two_digits(c * (0.5 * g.normal()).exp())),
         Node::Param(_) => n.clone(),
         Node::Unary(op, a) => Node::Unary(op.sibling().unwrap_or(*op), a.clone()),
         Node::Binary(op, a, b) => Node::Binary(op.sibling().unwrap_or(*op), a.clone(), b.clone()),
     }
+}
+
+/// `x` rounded to two significant digits.
+fn two_digits(x: f64) -> f64 {
+    if x == 0.0 || !x.is_finite() {
+        return x;
+    }
+    let scale = 10f64.powi(1 - x.abs().log10().floor() as i32);
+    (x * scale).round() / scale
 }
 
 /// Breed one child from the current generation's survivors.
@@ -305,13 +324,12 @@ fn breed(g: &mut Gen, parents: &[Individual], opts: &SearchOptions) -> Individua
                 *k *= (0.4 * g.normal()).exp();
             }
         }
-        // Add a tree from the library.
+        // Add a tree from the library (its constants renumbered after the child's).
         74..=87 => {
             if child.trees.len() < opts.max_terms {
                 let l = &g.lib[g.below(g.lib.len())];
-                child.trees.push(l.trees[0].clone());
-                if l.k.len() > child.k.len() {
-                    child.k.extend_from_slice(&l.k[child.k.len()..]);
+                if let Some(tree) = with_own_constants(&mut child.k, l) {
+                    child.trees.push(tree);
                 }
             }
         }
@@ -327,9 +345,8 @@ fn breed(g: &mut Gen, parents: &[Individual], opts: &SearchOptions) -> Individua
             if !child.trees.is_empty() {
                 let i = g.below(child.trees.len());
                 let l = &g.lib[g.below(g.lib.len())];
-                child.trees[i] = l.trees[0].clone();
-                if l.k.len() > child.k.len() {
-                    child.k.extend_from_slice(&l.k[child.k.len()..]);
+                if let Some(tree) = with_own_constants(&mut child.k, l) {
+                    child.trees[i] = tree;
                 }
             }
         }
@@ -339,6 +356,31 @@ fn breed(g: &mut Gen, parents: &[Individual], opts: &SearchOptions) -> Individua
         child = pick(g);
     }
     child
+}
+
+/// Most constants a model may use (`k0`…`k9`).
+const MAX_CONSTANTS: usize = 10;
+
+/// A library member's tree, its constants appended to `k` and renumbered to match, so
+/// that a period and an onset in one model are separate constants; `None` when the model
+/// would need more than [`MAX_CONSTANTS`].
+fn with_own_constants(k: &mut Vec<f64>, l: &Individual) -> Option<Node> {
+    let tree = &l.trees[0];
+    let needs = tree.n_params();
+    if needs == 0 {
+        return Some(tree.clone());
+    }
+    let offset = k.len();
+    if offset + needs > MAX_CONSTANTS {
+        return None;
+    }
+    k.extend(
+        l.k.iter()
+            .copied()
+            .chain(std::iter::repeat(1.0))
+            .take(needs),
+    );
+    Some(tree.shift_params(offset))
 }
 
 fn score(s: &Solution, m: usize) -> f64 {
@@ -353,42 +395,80 @@ fn stream(seed: u64, generation: usize, slot: usize) -> ChaCha8Rng {
     ChaCha8Rng::seed_from_u64(key)
 }
 
-/// Runs the search on `problem`.
+/// Candidates already solved, by key: a candidate's solution depends only on the
+/// problem and on the candidate, so every seed's search shares them.
+type Memo = HashMap<String, Option<Solution>>;
+
+/// Runs the search on `problem` with `opts.seed`.
 pub fn search(
     problem: &Problem,
     opts: &SearchOptions,
     observer: &dyn SearchObserver,
 ) -> SearchResult {
+    let lib = library(problem, opts.span_s);
+    search_from(problem, opts, &lib, &mut Memo::new(), observer)
+}
+
+/// Runs the search once per seed in `seeds` (each as [`search`] with that seed would),
+/// sharing the library's timing scan and every candidate already solved.
+pub fn search_seeds(
+    problem: &Problem,
+    opts: &SearchOptions,
+    seeds: &[u64],
+    observer: &dyn SearchObserver,
+) -> Vec<SearchResult> {
+    let lib = library(problem, opts.span_s);
+    let mut memo = Memo::new();
+    seeds
+        .iter()
+        .map(|&seed| {
+            let o = SearchOptions {
+                seed,
+                ..opts.clone()
+            };
+            search_from(problem, &o, &lib, &mut memo, observer)
+        })
+        .collect()
+}
+
+fn search_from(
+    problem: &Problem,
+    opts: &SearchOptions,
+    lib: &[Individual],
+    seen: &mut Memo,
+    observer: &dyn SearchObserver,
+) -> SearchResult {
     let started = Instant::now();
-    let lib = library(opts.span_s);
     let m = problem.rows();
-    let mut population: Vec<Individual> = lib.clone();
+    let mut population: Vec<Individual> = lib.to_vec();
     let mut archive: BTreeMap<usize, Solution> = BTreeMap::new();
-    let mut seen: HashMap<String, Option<Solution>> = HashMap::new();
+    let mut visited = std::collections::HashSet::new();
     let mut evaluations = 0;
     let mut generations = 0;
     let mut termination = Termination::Generations;
     for gen in 0..opts.generations.max(1) {
         generations = gen + 1;
-        // Evaluate the new individuals in parallel, in a fixed order.
-        let fresh: Vec<(String, Individual)> = {
-            let mut v = Vec::new();
-            let mut keys = std::collections::HashSet::new();
-            for ind in &population {
-                let k = ind.key();
-                if !seen.contains_key(&k) && keys.insert(k.clone()) {
-                    v.push((k, ind.clone()));
-                }
+        // This run's new individuals, in population order; solved in parallel unless
+        // another seed's run already solved them.
+        let mut new: Vec<(String, Individual)> = Vec::new();
+        for ind in &population {
+            let k = ind.key();
+            if visited.insert(k.clone()) {
+                new.push((k, ind.clone()));
             }
-            v
-        };
-        let solved: Vec<Option<Solution>> = fresh
+        }
+        let to_solve: Vec<&(String, Individual)> =
+            new.iter().filter(|(k, _)| !seen.contains_key(k)).collect();
+        let solved: Vec<Option<Solution>> = to_solve
             .par_iter()
             .map(|(_, ind)| problem.solve(&ind.trees, &ind.k, opts.threshold))
             .collect();
-        evaluations += fresh.len();
-        for ((k, _), s) in fresh.into_iter().zip(solved) {
-            if let Some(sol) = &s {
+        evaluations += to_solve.len();
+        for ((k, _), s) in to_solve.into_iter().zip(solved) {
+            seen.insert(k.clone(), s);
+        }
+        for (k, _) in &new {
+            if let Some(Some(sol)) = seen.get(k) {
                 let better = archive
                     .get(&sol.complexity)
                     .is_none_or(|b| sol.cost < b.cost);
@@ -396,7 +476,6 @@ pub fn search(
                     archive.insert(sol.complexity, sol.clone());
                 }
             }
-            seen.insert(k, s);
         }
         // Survivors: best by penalized score (ties broken by key, for determinism).
         let mut ranked: Vec<(f64, String, Individual)> = population
@@ -445,7 +524,7 @@ pub fn search(
             .map(|slot| {
                 let mut g = Gen {
                     rng: stream(opts.seed, gen, slot),
-                    lib: &lib,
+                    lib,
                 };
                 breed(&mut g, &survivors, opts)
             })
@@ -463,7 +542,7 @@ pub fn search(
 }
 
 /// The archive entries not dominated by a simpler one.
-fn pareto(archive: &BTreeMap<usize, Solution>) -> Vec<Solution> {
+pub(super) fn pareto(archive: &BTreeMap<usize, Solution>) -> Vec<Solution> {
     let mut out: Vec<Solution> = Vec::new();
     for s in archive.values() {
         if out.last().is_none_or(|b| s.cost < b.cost) {
@@ -471,4 +550,17 @@ fn pareto(archive: &BTreeMap<usize, Solution>) -> Vec<Solution> {
         }
     }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::two_digits;
+
+    #[test]
+    fn jittered_literals_keep_two_significant_digits() {
+        assert_eq!(two_digits(40.963378353988794), 41.0);
+        assert_eq!(two_digits(-0.0012345), -0.0012);
+        assert_eq!(two_digits(98765.0), 99000.0);
+        assert_eq!(two_digits(0.0), 0.0);
+    }
 }

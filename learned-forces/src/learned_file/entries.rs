@@ -25,6 +25,11 @@ pub struct ConstantEntry {
     pub value: f64,
     /// Its 1σ.
     pub sigma: f64,
+    /// Its unit as the formulas use it (`s`, `km`, `rad`, …; see
+    /// [`crate::expr::units`]). Absent where the formulas do not pin it down, and in
+    /// files written before it existed (their checksum does not cover it).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub unit: Option<String>,
 }
 
 /// Where the force was learned, and what to do outside.

@@ -436,6 +436,7 @@ fn entries(terms: &crate::terms::Terms) -> (Vec<TermEntry>, Vec<ConstantEntry>) 
             sigma: *s,
         })
         .collect();
+    let units = crate::expr::units::constant_units(&terms.nodes);
     let k = terms
         .constants
         .iter()
@@ -446,6 +447,7 @@ fn entries(terms: &crate::terms::Terms) -> (Vec<TermEntry>, Vec<ConstantEntry>) 
             name: format!("k{i}"),
             value: *v,
             sigma: *s,
+            unit: units.get(i).cloned().flatten(),
         })
         .collect();
     (t, k)
@@ -457,6 +459,7 @@ fn known_parameters(fit: &crate::fit::FitResult) -> Vec<ConstantEntry> {
         .iter()
         .filter(|e| !e.parameter.is_term())
         .map(|e| ConstantEntry {
+            unit: None,
             name: e.parameter.name(),
             value: e.value,
             sigma: e.sigma,
