@@ -43,7 +43,6 @@ impl Learner<'_> {
                 refined.extend(done.clone());
                 continue;
             }
-            let t0 = std::time::Instant::now();
             let r = match self.prune(&front[idx], split, base_train, observer) {
                 None => None,
                 Some((solution, fit)) => Some(Refined {
@@ -54,15 +53,6 @@ impl Learner<'_> {
                     fit,
                 }),
             };
-            if std::env::var("ARCWISE_DEBUG_REFINE").is_ok() {
-                eprintln!(
-                    "DEBUG refine {:.2}s {} -> {:?}",
-                    t0.elapsed().as_secs_f64(),
-                    front[idx].terms.text(),
-                    r.as_ref()
-                        .map(|r| (r.solution.terms.text(), r.held_out_rms_km))
-                );
-            }
             refined.extend(r.clone());
             cache.insert(key, r);
         }
