@@ -318,4 +318,3 @@ fn a_wrong_scale_height_is_corrected_to_predict_within_twice_the_true_refit() {
     );
     assert!(learned <= 2.0 * best, "{learned} vs {best}");
 }
-

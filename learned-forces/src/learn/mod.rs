@@ -361,6 +361,29 @@ mod tests {
     use propagator::solar_system::CenturyClock;
 
     #[test]
+    fn a_disagreement_of_the_seeds_is_said_and_an_agreement_is_not() {
+        let run = |seed, formula: Option<&str>, agrees| SeedRun {
+            seed,
+            formula: formula.map(str::to_string),
+            held_out_rms_km: None,
+            agrees,
+        };
+        let all = [run(1, Some("a"), true), run(2, Some("a"), true)];
+        assert_eq!(disagreement(&all), None);
+        let split = [
+            run(1, Some("a"), true),
+            run(2, Some("b"), false),
+            run(3, None, false),
+        ];
+        let note = disagreement(&split).unwrap();
+        assert!(note.contains("DISAGREE: 1 of 3"), "{note}");
+        assert!(
+            note.contains("seed 2: b") && note.contains("seed 3: nothing"),
+            "{note}"
+        );
+    }
+
+    #[test]
     fn the_outcome_is_the_written_models_verdict_not_the_base_fits() {
         assert_eq!(Outcome::from_verdicts(false, None), Outcome::NoAnomaly);
         assert_eq!(

@@ -110,10 +110,14 @@ impl Learner<'_> {
             .map(|c| c.as_ref().and_then(|c| prediction(problem, &c.solution)))
             .collect();
         let group = groups(&predictions);
-        let chosen_group = most_agreed(&choices, &group);
+        let held: Vec<Option<f64>> = choices
+            .iter()
+            .map(|c| c.as_ref().map(|c| c.held_out_rms_km))
+            .collect();
+        let chosen_group = most_agreed(&held, &group);
         let chosen = chosen_group
-            .and_then(|g| best_in(&choices, &group, g))
-            .cloned();
+            .and_then(|g| best_in(&held, &group, g))
+            .and_then(|i| choices[i].clone());
         let runs = seeds
             .iter()
             .zip(&choices)
@@ -164,26 +168,59 @@ fn groups(predictions: &[Option<DVector<f64>>]) -> Vec<Option<usize>> {
     out
 }
 
-/// The best held-out member of group `g`.
-fn best_in<'a>(
-    choices: &'a [Option<Refined>],
-    group: &[Option<usize>],
-    g: usize,
-) -> Option<&'a Refined> {
-    choices
-        .iter()
-        .zip(group)
-        .filter(|(_, h)| **h == Some(g))
-        .filter_map(|(c, _)| c.as_ref())
-        .min_by(|a, b| a.held_out_rms_km.total_cmp(&b.held_out_rms_km))
+/// The index of group `g`'s member with the best held-out RMS (`held`, km).
+fn best_in(held: &[Option<f64>], group: &[Option<usize>], g: usize) -> Option<usize> {
+    (0..held.len())
+        .filter(|&i| group[i] == Some(g))
+        .filter_map(|i| held[i].map(|h| (i, h)))
+        .min_by(|a, b| a.1.total_cmp(&b.1))
+        .map(|(i, _)| i)
 }
 
 /// The group most choices fall in; among groups of one size, the one whose best member
-/// predicts the held-out tail best.
-fn most_agreed(choices: &[Option<Refined>], group: &[Option<usize>]) -> Option<usize> {
+/// predicts the held-out tail best (`held`: each choice's held-out RMS, km).
+fn most_agreed(held: &[Option<f64>], group: &[Option<usize>]) -> Option<usize> {
     let n_groups = group.iter().flatten().max().map_or(0, |m| m + 1);
     let size = |g: usize| group.iter().filter(|h| **h == Some(g)).count();
-    let rms = |g: usize| best_in(choices, group, g).map_or(f64::INFINITY, |r| r.held_out_rms_km);
+    let rms = |g: usize| {
+        best_in(held, group, g)
+            .and_then(|i| held[i])
+            .unwrap_or(f64::INFINITY)
+    };
     // More seeds first; then fewer metres (b against a).
     (0..n_groups).max_by(|&a, &b| size(a).cmp(&size(b)).then(rms(b).total_cmp(&rms(a))))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn v(x: &[f64]) -> Option<DVector<f64>> {
+        Some(DVector::from_column_slice(x))
+    }
+
+    #[test]
+    fn choices_agree_when_their_predictions_are_within_the_threshold() {
+        // Seeds 1 and 3 predict alike (χ² apart 9 < 16), seed 2 differently (χ² 400),
+        // seed 4 chose nothing.
+        let p = [v(&[0.0, 10.0]), v(&[20.0, 10.0]), v(&[3.0, 10.0]), None];
+        let g = groups(&p);
+        assert_eq!(g, vec![Some(0), Some(1), Some(0), None]);
+        let held = [Some(0.0090), Some(0.0050), Some(0.0085), None];
+        // Two seeds beat one even when the one predicts the tail better; the group's
+        // best member is the one returned.
+        let chosen = most_agreed(&held, &g);
+        assert_eq!(chosen, Some(0));
+        assert_eq!(best_in(&held, &g, 0), Some(2));
+    }
+
+    #[test]
+    fn a_tie_goes_to_the_better_held_out_prediction_and_nothing_chosen_is_no_group() {
+        let p = [v(&[0.0]), v(&[100.0])];
+        let g = groups(&p);
+        assert_eq!(g, vec![Some(0), Some(1)]);
+        assert_eq!(most_agreed(&[Some(0.009), Some(0.008)], &g), Some(1));
+        assert_eq!(most_agreed(&[Some(0.007), Some(0.008)], &g), Some(0));
+        assert_eq!(most_agreed(&[None, None], &[None, None]), None);
+    }
 }
