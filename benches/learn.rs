@@ -1,6 +1,8 @@
 //! Linearized candidate evaluations on the venting arc: a candidate without constants
 //! (columns cached after the first call, so this is the least-squares solve and the
-//! significance test) and one with a time constant (variable projection included).
+//! significance test), one with a time constant and one periodic with a period and a
+//! phase (variable projection included), and the timing scan that seeds the periodic
+//! and switch-on blocks (once per learn).
 
 use criterion::{criterion_group, criterion_main, Criterion};
 use learned_forces::expr::{parse, Context};
@@ -56,6 +58,15 @@ fn bench(c: &mut Criterion) {
     g.sample_size(20);
     g.bench_function("exp(-t/k0) * T with variable projection", |b| {
         b.iter(|| p.solve(black_box(&decay), &[20000.0], 5.0))
+    });
+    let periodic = vec![parse(&learned_forces::learn::timing::periodic("T")).unwrap()];
+    g.bench_function("sin(2 pi t/k0 + k1) * T with variable projection", |b| {
+        b.iter(|| p.solve(black_box(&periodic), &[11880.0, 0.7], 5.0))
+    });
+    g.sample_size(10);
+    // Once per learn: the periodogram and onset scan of every block.
+    g.bench_function("timing scan of every block (periods and onsets)", |b| {
+        b.iter(|| learned_forces::learn::timing::seeded(black_box(&p), 64800.0))
     });
     g.finish();
 }
