@@ -276,6 +276,7 @@ fn missing_srp_is_found_along_the_sun_direction_gated_by_the_shadow() {
     );
     // Against the propagator's SRP model (truth minus known)…
     let ratio = c.size_ratio(|_| true);
+    eprintln!("srp: size ratio {ratio:.4}");
     assert!((ratio - 1.0).abs() < 0.05, "size ratio {ratio}");
     // …and against Cr·(A/m)·P with P = 4.56e-6 N/m² at 1 AU (common practice; the
     // Earth–Sun distance in May changes it by under 2 %), in sunlight.
