@@ -148,18 +148,33 @@ pub(super) fn sign_invisible(
     span_s: f64,
     context: &Context,
 ) -> bool {
-    let mut flipped = constants.to_vec();
-    flipped[j] = -flipped[j];
+    let value = -constants[j];
+    invisible(nodes, constants, (j, value), states, span_s, context, 1e-12)
+}
+
+/// Whether k`j` may be `value` instead without changing any formula (to `tolerance` of
+/// the largest component) at five times across the span and at each of `states`.
+pub(super) fn invisible(
+    nodes: &[Node],
+    constants: &[f64],
+    (j, value): (usize, f64),
+    states: &[propagator::StateVector],
+    span_s: f64,
+    context: &Context,
+    tolerance: f64,
+) -> bool {
+    let mut changed = constants.to_vec();
+    changed[j] = value;
     [0.0, 0.31, 0.5, 0.77, 1.0].iter().all(|f| {
         states.iter().all(|x| {
             let p = crate::expr::Terminals::of_state(f * span_s, x, context);
             nodes.iter().all(|n| {
                 let (a, b) = (
                     n.eval(&p, constants).vector(),
-                    n.eval(&p, &flipped).vector(),
+                    n.eval(&p, &changed).vector(),
                 );
                 let scale = a.iter().map(|v| v.abs()).fold(0.0, f64::max);
-                (0..3).all(|i| (a[i] - b[i]).abs() <= 1e-12 * scale)
+                (0..3).all(|i| (a[i] - b[i]).abs() <= tolerance * scale)
             })
         })
     })

@@ -3,9 +3,11 @@
 //! sign-blind constant reported positive, and how much of each term the initial state
 //! absorbs.
 
+use super::equivalent::invisible;
 use super::linearized::{Problem, Solution};
 use super::{sign_invisible, Chosen, FitObserver, FitResult, LearnError, Learner};
 use crate::fit::model::Parameter;
+use std::f64::consts::{PI, TAU};
 
 impl Learner<'_> {
     /// The chosen model fitted on the whole arc (from `base`'s state and values and
@@ -93,6 +95,25 @@ impl Learner<'_> {
                 )
             {
                 constants[j] = -constants[j];
+            }
+        }
+        // A phase is reported in (−π, π], where the formulas cannot tell the difference.
+        let units = crate::expr::units::constant_units(&sol.terms.nodes);
+        for j in 0..constants.len() {
+            let wrapped = constants[j] - TAU * ((constants[j] + PI) / TAU).floor();
+            if units.get(j).cloned().flatten().as_deref() == Some("rad")
+                && wrapped != constants[j]
+                && invisible(
+                    &sol.terms.nodes,
+                    &constants,
+                    (j, wrapped),
+                    &[full.x0, full.x_last],
+                    span_s,
+                    &self.context,
+                    1e-9,
+                )
+            {
+                constants[j] = wrapped;
             }
         }
         let absorbed: Vec<f64> = sol
