@@ -804,6 +804,37 @@ fn bad_inputs(d: &Path, good: &Inputs) -> Vec<Bad> {
             "truth: [{ drag_factor: { factor: 2.0, start_utc: \"2031-05-04T06:00:00Z\" } }]",
         )),
     );
+    for (what, name, term) in [
+        (
+            "zero period of a periodic drag",
+            "period-scenario.yaml",
+            "{ drag_periodic: { amplitude: 0.5, period_s: 0, phase_deg: 0 } }",
+        ),
+        (
+            "NaN factor of a drag step",
+            "step-factor-scenario.yaml",
+            "{ drag_step: { at_utc: \"2031-05-04T06:00:00Z\", factor: .nan } }",
+        ),
+        (
+            "negative scale height of the truth's atmosphere",
+            "atmosphere-scenario.yaml",
+            "{ atmosphere: { exponential: { rho0_kg_m3: 1.0e-12, h0_km: 400, scale_height_km: -60 } } }",
+        ),
+        (
+            "a thrust's start that is not an epoch",
+            "thrust-scenario.yaml",
+            "{ thrust_from: { start_utc: \"yesterday\", accel_rtn_km_s2: [0, 1.0e-9, 0] } }",
+        ),
+    ] {
+        add(
+            &mut bad,
+            d,
+            Scenario,
+            what,
+            name,
+            Some(scenario.replace("truth: []", &format!("truth: [{term}]"))),
+        );
+    }
     add(
         &mut bad,
         d,
