@@ -53,6 +53,22 @@ fn known_forces(
     (Box::new(make), context)
 }
 
+/// The linearized problem around the base fit of a scenario's training arc.
+fn linearized(name: &str) -> learned_forces::learn::linearized::Problem {
+    let (spec, path) = scenario(name);
+    let sim = spec.simulate(&path).unwrap();
+    let (make, context) = known_forces(&spec, &path, &sim.train.start());
+    let (_, problem) = learned_forces::learn::linearize(
+        &sim.train,
+        &*make,
+        context,
+        &LearnOptions::default(),
+        &mut QuietFit,
+    )
+    .unwrap();
+    problem
+}
+
 fn run(spec: ScenarioSpec, path: PathBuf, options: &LearnOptions) -> Run {
     let sim = spec.simulate(&path).unwrap();
     let (make, context) = known_forces(&spec, &path, &sim.train.start());
@@ -314,17 +330,7 @@ fn a_constant_radial_term_is_reported_as_absorbed_by_the_initial_state() {
     // initial-state directions are projected out, is almost nothing; a decaying
     // along-track push keeps its curvature (a quadratic along-track drift that no
     // initial state gives). The learner notes terms beyond 99.9 % absorbed.
-    let (spec, path) = scenario("quiet.yaml");
-    let sim = spec.simulate(&path).unwrap();
-    let (make, context) = known_forces(&spec, &path, &sim.train.start());
-    let (_, problem) = learned_forces::learn::linearize(
-        &sim.train,
-        &*make,
-        context,
-        &LearnOptions::default(),
-        &mut QuietFit,
-    )
-    .unwrap();
+    let problem = linearized("quiet.yaml");
     let radial = problem.absorbed_fraction(&parse("R").unwrap(), &[]);
     let push = problem.absorbed_fraction(&parse("exp(-t / k0) * T").unwrap(), &[21600.0]);
     eprintln!("absorbed: R {radial:.6}, exp(-t/k0)·T {push:.4}");
@@ -337,17 +343,7 @@ fn each_seed_of_a_shared_search_finds_what_it_finds_alone() {
     // The seeds share solved candidates (a memo) and the timing scan; that must not
     // change any seed's front: seed 2 run after seed 1 equals seed 2 run alone.
     use learned_forces::learn::search::{search, search_seeds};
-    let (spec, path) = scenario("venting.yaml");
-    let sim = spec.simulate(&path).unwrap();
-    let (make, context) = known_forces(&spec, &path, &sim.train.start());
-    let (_, problem) = learned_forces::learn::linearize(
-        &sim.train,
-        &*make,
-        context,
-        &LearnOptions::default(),
-        &mut QuietFit,
-    )
-    .unwrap();
+    let problem = linearized("venting.yaml");
     let opts = SearchOptions {
         generations: 4,
         span_s: 64800.0,

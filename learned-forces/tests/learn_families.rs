@@ -319,3 +319,43 @@ fn a_wrong_scale_height_is_corrected_to_predict_within_twice_the_true_refit() {
     );
     assert!(learned <= 2.0 * best, "{learned} vs {best}");
 }
+
+#[test]
+fn a_force_that_starts_in_the_held_out_tail_is_not_explained_and_says_where_it_is() {
+    // switch_on.yaml with the thruster on at 17:30, inside the held-out last quarter
+    // (the training part ends at 18:00 and shows 30 min of it, under the noise): the
+    // learner must not claim a model, and must say where the anomaly is.
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/scenarios/switch_on.yaml");
+    let mut spec = ScenarioSpec::load(&path).unwrap();
+    spec.truth = vec![learned_forces::scenario::TruthTerm::ThrustFrom {
+        start_utc: "2031-05-04T17:30:00Z".into(),
+        accel_rtn_km_s2: [0.0, 1e-9, 0.0],
+    }];
+    let sim = spec.simulate(&path).unwrap();
+    let models = spec.models(&path).unwrap();
+    let context = Context::of_model(&models.known, &path, &sim.train.start()).unwrap();
+    let (spec2, path2) = (spec.clone(), path.clone());
+    let make = move |e: propagator::Epoch| Ok(known_model(&spec2, &path2, e));
+    let l = learn(
+        &sim.train,
+        &make,
+        context,
+        &LearnOptions::default(),
+        &mut QuietFit,
+        &QuietSearch,
+    )
+    .unwrap();
+    assert!(l.base.verdict.anomaly);
+    assert!(
+        !l.outcome().is_explained(),
+        "{:?}",
+        l.chosen.map(|c| c.terms.text())
+    );
+    assert!(
+        l.notes
+            .iter()
+            .any(|n| n.contains("held-out tail") && n.contains("18.0 h")),
+        "{:?}",
+        l.notes
+    );
+}

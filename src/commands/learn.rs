@@ -281,7 +281,9 @@ fn summarize(l: &Learned, out: &Path) {
     }
     let agreeing = l.seed_runs.iter().filter(|r| r.agrees).count();
     if !l.seed_runs.is_empty() {
-        if agreeing == l.seed_runs.len() {
+        if l.seed_runs.iter().all(|r| r.formula.is_none()) {
+            println!("seeds: none of {} chose a model", l.seed_runs.len());
+        } else if agreeing == l.seed_runs.len() {
             println!("seeds: {agreeing} of {agreeing} chose the reported model");
         } else {
             println!(

@@ -230,6 +230,13 @@ pub fn learn(
     // 2. Hold-out: train on the early part, keep the tail for selection.
     let split = holdout::HoldOut::split(arc, options.holdout_fraction)?;
     let base_train = l.train_fit(&split, &base, fit_observer)?;
+    if !base_train.verdict.anomaly {
+        notes.push(format!(
+            "the known forces explain the first {:.0} % of the arc (the training part, to {:.1} h): the anomaly is in the held-out tail, where nothing can be learned and tested at once; learn on an arc that goes on past it, or test `thrust_from`/`impulsive` hypotheses with `arcwise rank`",
+            (1.0 - options.holdout_fraction) * 100.0,
+            split.cut_s / 3600.0
+        ));
+    }
     let held_out_base = l.predict_rms(&base_train, &[], &split.held)?;
     // 3. Linearized sensitivities of the training fit.
     let problem = l.problem(&split.train, &base_train)?;
@@ -245,32 +252,20 @@ pub fn learn(
     }
     let best = select::best_held_out(&seeded.refined);
     let runs = seeded.runs;
-    let Some(chosen) = seeded.chosen else {
-        notes.push("no candidate survived refinement with significant terms".into());
-        return Ok(nothing(
-            base,
-            front,
-            Some(held_out_base),
-            notes,
-            stats,
-            runs,
-        ));
-    };
-    if chosen.held_out_rms_km >= held_out_base {
-        notes.push(format!(
+    let declined = match &seeded.chosen {
+        None => Some("no candidate survived refinement with significant terms".to_string()),
+        Some(c) if c.held_out_rms_km >= held_out_base => Some(format!(
             "the best model predicts the held-out tail no better than the known forces ({:.1} m vs {:.1} m): nothing learned",
-            chosen.held_out_rms_km * 1e3,
+            c.held_out_rms_km * 1e3,
             held_out_base * 1e3
-        ));
-        return Ok(nothing(
-            base,
-            front,
-            Some(held_out_base),
-            notes,
-            stats,
-            runs,
-        ));
-    }
+        )),
+        Some(_) => None,
+    };
+    let (Some(chosen), None) = (seeded.chosen, declined.clone()) else {
+        notes.extend(declined);
+        let held = Some(held_out_base);
+        return Ok(nothing(base, front, held, notes, stats, runs));
+    };
     // 7. Equivalent forms: among forms the arc cannot tell apart, the canonical one, so
     // that the formula does not flip with the noise.
     let (sol, train_fit, rms) = l.canonical_equivalent(
@@ -333,7 +328,8 @@ fn front_entries(seeded: &seeds::Seeded) -> Vec<FrontEntry> {
 /// A note when the seeds did not all choose the same model.
 fn disagreement(runs: &[SeedRun]) -> Option<String> {
     let agreeing = runs.iter().filter(|r| r.agrees).count();
-    if agreeing == runs.len() {
+    // All agree, or none chose anything (said by the outcome): nothing to add.
+    if agreeing == runs.len() || runs.iter().all(|r| r.formula.is_none()) {
         return None;
     }
     let others: Vec<String> = runs
