@@ -66,7 +66,7 @@ fn bench(c: &mut Criterion) {
     g.sample_size(10);
     // Once per learn: the periodogram and onset scan of every block.
     g.bench_function("timing scan of every block (periods and onsets)", |b| {
-        b.iter(|| learned_forces::learn::timing::seeded(black_box(&p), 64800.0))
+        b.iter(|| learned_forces::learn::timing::scan(black_box(&p), 64800.0))
     });
     g.finish();
 }

@@ -43,11 +43,12 @@ fn tick_label(v: f64, span: f64) -> String {
 /// Width of the legend column beside each panel, px.
 const LEGEND_PX: u32 = 230;
 
-const COLOURS: [RGBColor; 4] = [
+const COLOURS: [RGBColor; 5] = [
     RGBColor(31, 100, 180),
     RGBColor(214, 94, 20),
     RGBColor(40, 150, 70),
     RGBColor(120, 60, 160),
+    RGBColor(150, 110, 20),
 ];
 
 /// Writes a stacked-panel SVG to `path` (through a temporary file and a rename).

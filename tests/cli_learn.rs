@@ -55,9 +55,21 @@ fn venting_learned_file_is_deterministic_and_usable() {
             "rms_km_after",
             "held_out_rms_km",
             "pareto_front",
+            "seeds",
+            "timing_scan",
         ] {
             assert!(!r[key].is_null(), "{key}");
         }
+        // Every seed agrees on the venting push, and the report says which it chose.
+        assert_eq!(r["seeds"]["agreeing"], r["seeds"]["runs"], "{}", r["seeds"]);
+        assert!(
+            stdout.contains("seeds: 3 of 3 chose the reported model"),
+            "{stdout}"
+        );
+        // The constants carry their unit: the decay's time constant is in seconds.
+        assert_eq!(r["constants"][0]["unit"], "s", "{}", r["constants"]);
+        // One periodogram and onset scan per physically shaped block.
+        assert_eq!(r["timing_scan"].as_array().unwrap().len(), 5);
         assert!(r["rms_km_after"].as_f64().unwrap() * 10.0 < r["rms_km_before"].as_f64().unwrap());
         // The decaying push keeps part of its signature from the initial state.
         let absorbed = r["terms"][0]["absorbed_by_initial_state"].as_f64().unwrap();
@@ -69,9 +81,14 @@ fn venting_learned_file_is_deterministic_and_usable() {
         "residuals_before.svg",
         "residuals_after.svg",
         "learned_acceleration.svg",
+        "period_scan.svg",
+        "onset_scan.svg",
     ] {
         assert!(v.join("plots").join(svg).exists(), "{svg}");
     }
+    // The scans name every block they scanned.
+    let periods = std::fs::read_to_string(v.join("plots/period_scan.svg")).unwrap();
+    assert!(periods.contains("lit * sun") && periods.contains("trial period (hours)"));
     // Residual plots carry the noise band and where the held-out part begins.
     let before = std::fs::read_to_string(v.join("plots/residuals_before.svg")).unwrap();
     assert!(before.contains("stated noise") && before.contains("held-out part begins"));

@@ -10,6 +10,7 @@ use clap::Args as ClapArgs;
 use learned_forces::arc::Arc;
 use learned_forces::expr::Context;
 use learned_forces::learn::search::SearchOptions;
+use learned_forces::learn::timing::{Scan, Timing};
 use learned_forces::learn::{learn, trajectory, LearnOptions, Learned, Outcome};
 use learned_forces::learned_file::{
     sha256_hex, LearnedFile, LearnedResolver, OutsidePolicy, ProvenanceEntry,
@@ -73,10 +74,12 @@ pub struct Args {
 }
 
 /// The plots `--plot DIR` writes.
-const PLOT_FILES: [&str; 3] = [
+const PLOT_FILES: [&str; 5] = [
     "residuals_before.svg",
     "residuals_after.svg",
     "learned_acceleration.svg",
+    "period_scan.svg",
+    "onset_scan.svg",
 ];
 
 /// Runs the command.
@@ -418,9 +421,56 @@ fn report(a: &Args, l: &Learned, file: &LearnedFile) -> serde_json::Value {
                 "agrees": r.agrees,
             })).collect::<Vec<_>>(),
         },
+        // The scans that seeded the periodic and switch-on blocks: per block, the best
+        // trial period (s, with its phase, rad) and onset (s from the arc's start), and
+        // how much each lowers the training χ².
+        "timing_scan": l.timing.as_ref().map(|(t, base)| t.periods.iter().zip(&t.onsets).map(|(p, o)| {
+            let (pb, ob) = (p.best(), o.best());
+            serde_json::json!({
+                "block": p.block,
+                "best_period_s": pb.map(|b| b.0),
+                "phase_rad": pb.map(|b| b.2),
+                "period_chi2_reduction": pb.map(|b| base - b.1),
+                "best_onset_s": ob.map(|b| b.0),
+                "onset_chi2_reduction": ob.map(|b| base - b.1),
+            })
+        }).collect::<Vec<_>>()),
         "notes": l.notes,
         "learned_fit": chosen.map(|c| fit_json(&c.fit)),
     })
+}
+
+/// The periodograms and the onset scans that seeded the search: per block, how much a
+/// periodic or switched-on form of it lowers the training χ² at each trial.
+fn plot_scans(dir: &Path, timing: &Timing, base_cost: f64) -> Result<(), CliError> {
+    let panel = |scans: &[Scan], y: &str| Panel {
+        y_label: y.into(),
+        series: scans
+            .iter()
+            .map(|s| Series {
+                name: s.block.clone(),
+                points: s
+                    .curve
+                    .iter()
+                    .map(|(x, c)| (x / 3600.0, base_cost - c))
+                    .collect(),
+                points_only: false,
+            })
+            .collect(),
+        ..Panel::default()
+    };
+    write_panels(
+        &dir.join(PLOT_FILES[3]),
+        "Periodogram of the training residual, per block (sin and cos at each period)",
+        "trial period (hours)",
+        &[panel(&timing.periods, "χ² reduction")],
+    )?;
+    write_panels(
+        &dir.join(PLOT_FILES[4]),
+        "Onset scan of the training residual, per block (switched on at each epoch)",
+        "trial onset (hours since the arc's start)",
+        &[panel(&timing.onsets, "χ² reduction")],
+    )
 }
 
 fn plots(
@@ -440,6 +490,9 @@ fn plots(
         &l.base,
         held_out_from,
     )?;
+    if let Some((timing, base_cost)) = &l.timing {
+        plot_scans(dir, timing, *base_cost)?;
+    }
     let Some(c) = &l.chosen else { return Ok(()) };
     plot_residuals(
         &dir.join(PLOT_FILES[1]),

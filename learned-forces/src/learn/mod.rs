@@ -214,18 +214,20 @@ pub fn learn(
             short.span()
         ));
     }
-    let nothing = |base, front, held_out_rms_base_km, notes, search_stats, seed_runs| Learned {
-        base,
-        chosen: None,
-        front,
-        held_out_rms_base_km,
-        notes,
-        search_stats,
-        seed_runs,
-    };
+    let nothing =
+        |base, front, held_out_rms_base_km, notes, search_stats, seed_runs, timing| Learned {
+            base,
+            chosen: None,
+            front,
+            held_out_rms_base_km,
+            notes,
+            search_stats,
+            seed_runs,
+            timing,
+        };
     if !base.verdict.anomaly {
         notes.push("the base fit's verdict is no_anomaly: the known forces explain the arc; nothing was learned".into());
-        return Ok(nothing(base, vec![], None, notes, None, vec![]));
+        return Ok(nothing(base, vec![], None, notes, None, vec![], None));
     }
     // 2. Hold-out: train on the early part, keep the tail for selection.
     let split = holdout::HoldOut::split(arc, options.holdout_fraction)?;
@@ -252,6 +254,7 @@ pub fn learn(
     }
     let best = select::best_held_out(&seeded.refined);
     let runs = seeded.runs;
+    let timing = Some((seeded.timing, problem.base_cost()));
     let declined = match &seeded.chosen {
         None => Some("no candidate survived refinement with significant terms".to_string()),
         Some(c) if c.held_out_rms_km >= held_out_base => Some(format!(
@@ -264,7 +267,7 @@ pub fn learn(
     let (Some(chosen), None) = (seeded.chosen, declined.clone()) else {
         notes.extend(declined);
         let held = Some(held_out_base);
-        return Ok(nothing(base, front, held, notes, stats, runs));
+        return Ok(nothing(base, front, held, notes, stats, runs, timing));
     };
     // 7. Equivalent forms: among forms the arc cannot tell apart, the canonical one, so
     // that the formula does not flip with the noise.
@@ -294,6 +297,7 @@ pub fn learn(
         notes,
         search_stats: stats,
         seed_runs: runs,
+        timing,
     })
 }
 

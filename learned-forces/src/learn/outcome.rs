@@ -46,6 +46,9 @@ pub struct Learned {
     pub search_stats: Option<SearchStats>,
     /// What each search seed chose (empty when nothing was searched).
     pub seed_runs: Vec<SeedRun>,
+    /// The periodograms and onset scans that seeded the search (empty when nothing was
+    /// searched), with the training residual's χ² before any term.
+    pub timing: Option<(timing::Timing, f64)>,
 }
 
 /// How the search went: its size, its time and why it stopped (summed over the seeds).

@@ -129,7 +129,7 @@ const MODULATORS: [&str; 10] = [
 /// switch-on blocks with their scanned timing ([`super::timing`]).
 fn library(problem: &Problem, span: f64) -> Vec<Individual> {
     let mut out = plain_library(span);
-    out.extend(super::timing::seeded(problem, span));
+    out.extend(super::timing::scan(problem, span).seeds);
     out
 }
 
@@ -417,7 +417,20 @@ pub fn search_seeds(
     seeds: &[u64],
     observer: &dyn SearchObserver,
 ) -> Vec<SearchResult> {
-    let lib = library(problem, opts.span_s);
+    let timing = super::timing::scan(problem, opts.span_s);
+    search_seeds_with(problem, opts, seeds, &timing, observer)
+}
+
+/// [`search_seeds`] with the timing scan already done.
+pub fn search_seeds_with(
+    problem: &Problem,
+    opts: &SearchOptions,
+    seeds: &[u64],
+    timing: &super::timing::Timing,
+    observer: &dyn SearchObserver,
+) -> Vec<SearchResult> {
+    let mut lib = plain_library(opts.span_s);
+    lib.extend(timing.seeds.iter().cloned());
     let mut memo = Memo::new();
     seeds
         .iter()

@@ -13,7 +13,8 @@
 use super::holdout::HoldOut;
 use super::linearized::{Problem, Solution};
 use super::refine::Refined;
-use super::search::{search_seeds, SearchObserver, SearchResult};
+use super::search::{search_seeds_with, SearchObserver, SearchResult};
+use super::timing::Timing;
 use super::{select, FitObserver, FitResult, LearnError, Learner};
 use nalgebra::DVector;
 use std::collections::HashMap;
@@ -41,6 +42,8 @@ pub(super) struct Seeded {
     pub(super) chosen: Option<Refined>,
     /// Each seed's choice.
     pub(super) runs: Vec<SeedRun>,
+    /// The timing scan the searches started from.
+    pub(super) timing: Timing,
 }
 
 /// Weighted squared distance between two choices' predictions below which they agree:
@@ -85,7 +88,8 @@ impl Learner<'_> {
         let seeds: Vec<u64> = (0..self.options.seeds.max(1) as u64)
             .map(|i| sopts.seed.wrapping_add(i))
             .collect();
-        let searches = search_seeds(problem, &sopts, &seeds, search_observer);
+        let timing = super::timing::scan(problem, sopts.span_s);
+        let searches = search_seeds_with(problem, &sopts, &seeds, &timing, search_observer);
         let mut cache: HashMap<String, Option<Refined>> = HashMap::new();
         let mut choices: Vec<Option<Refined>> = Vec::new();
         for found in &searches {
@@ -140,6 +144,7 @@ impl Learner<'_> {
             refined,
             chosen,
             runs,
+            timing,
         })
     }
 }

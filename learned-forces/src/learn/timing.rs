@@ -69,66 +69,121 @@ fn trial_onsets(span_s: f64) -> Vec<f64> {
     (0..=n).map(|i| lo + i as f64 * ONSET_STEP_S).collect()
 }
 
-/// The best period and phase of a block: (least χ², period s, phase rad).
-fn best_period(problem: &Problem, block: &str, periods: &[f64]) -> Option<(f64, f64, f64)> {
-    let sin = parse(&format!("sin(2 * pi * t / k0) * ({block})")).ok()?;
-    let cos = parse(&format!("cos(2 * pi * t / k0) * ({block})")).ok()?;
+/// What a scan of one block found: its χ² at every trial (period or epoch, s) and the
+/// best trial.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Scan {
+    /// The block scanned (formula text).
+    pub block: String,
+    /// (trial period or onset epoch s, least χ² with the block so timed), in trial
+    /// order; trials whose columns were not finite are left out.
+    pub curve: Vec<(f64, f64)>,
+    /// The phase at each trial period, rad (empty for an onset scan).
+    pub phases: Vec<f64>,
+}
+
+impl Scan {
+    /// The best trial: (period or epoch s, χ², phase rad or 0).
+    pub fn best(&self) -> Option<(f64, f64, f64)> {
+        self.curve
+            .iter()
+            .enumerate()
+            .min_by(|a, b| a.1 .1.total_cmp(&b.1 .1))
+            .map(|(i, &(x, c))| (x, c, self.phases.get(i).copied().unwrap_or(0.0)))
+    }
+}
+
+/// The periodogram of a block: the fit of its sine and cosine at every trial period.
+fn period_scan(problem: &Problem, block: &str, periods: &[f64]) -> Scan {
+    let forms = (
+        parse(&format!("sin(2 * pi * t / k0) * ({block})")),
+        parse(&format!("cos(2 * pi * t / k0) * ({block})")),
+    );
+    let (Ok(sin), Ok(cos)) = forms else {
+        return Scan {
+            block: block.into(),
+            curve: vec![],
+            phases: vec![],
+        };
+    };
     let fits: Vec<Option<(f64, f64, f64)>> = periods
         .par_iter()
         .map(|&p| {
             let cols = [problem.column(&sin, &[p])?, problem.column(&cos, &[p])?];
             let (c, _, cost) = problem.fit_columns(&cols)?;
             // a sin x + b cos x = A sin(x + φ), φ = atan2(b, a).
-            Some((cost, p, c[1].atan2(c[0])))
+            Some((p, cost, c[1].atan2(c[0])))
         })
         .collect();
-    fits.into_iter()
-        .flatten()
-        .min_by(|a, b| a.0.total_cmp(&b.0))
+    let kept: Vec<(f64, f64, f64)> = fits.into_iter().flatten().collect();
+    Scan {
+        block: block.into(),
+        curve: kept.iter().map(|&(p, c, _)| (p, c)).collect(),
+        phases: kept.iter().map(|&(_, _, f)| f).collect(),
+    }
 }
 
-/// The best onset epoch of a block: (least χ², epoch s).
-fn best_onset(problem: &Problem, block: &str, onsets: &[f64]) -> Option<(f64, f64)> {
-    let node = parse(&onset(block)).ok()?;
+/// The onset scan of a block: the fit of its switch-on form at every trial epoch.
+fn onset_scan(problem: &Problem, block: &str, onsets: &[f64]) -> Scan {
+    let Ok(node) = parse(&onset(block)) else {
+        return Scan {
+            block: block.into(),
+            curve: vec![],
+            phases: vec![],
+        };
+    };
     let fits: Vec<Option<(f64, f64)>> = onsets
         .par_iter()
         .map(|&e| {
             let col = problem.column(&node, &[e])?;
             let (_, _, cost) = problem.fit_columns(&[col])?;
-            Some((cost, e))
+            Some((e, cost))
         })
         .collect();
-    fits.into_iter()
-        .flatten()
-        .min_by(|a, b| a.0.total_cmp(&b.0))
+    Scan {
+        block: block.into(),
+        curve: fits.into_iter().flatten().collect(),
+        phases: vec![],
+    }
 }
 
-/// The seeded building blocks for a training span of `span_s` seconds: one periodic and
-/// one switch-on form per block, each with its scanned constants. Blocks whose columns
-/// are not finite along the arc (no density model, say) are left out.
-pub fn seeded(problem: &Problem, span_s: f64) -> Vec<Individual> {
+/// Every block's periodogram and onset scan, and the building blocks they seed.
+#[derive(Clone, Debug, Default)]
+pub struct Timing {
+    /// One per block.
+    pub periods: Vec<Scan>,
+    /// One per block.
+    pub onsets: Vec<Scan>,
+    /// The periodic and switch-on forms with their scanned constants.
+    pub seeds: Vec<Individual>,
+}
+
+/// Scans every block for a training span of `span_s` seconds: one periodic and one
+/// switch-on form per block, each seeded with its best trial. Blocks whose columns are
+/// not finite along the arc (no density model, say) seed nothing.
+pub fn scan(problem: &Problem, span_s: f64) -> Timing {
     let periods = trial_periods(span_s);
     let onsets = trial_onsets(span_s);
-    let mut out = Vec::new();
+    let mut t = Timing::default();
     for block in BLOCKS {
-        if let Some((_, p, phase)) = best_period(problem, block, &periods) {
-            if let Ok(node) = parse(&periodic(block)) {
-                out.push(Individual {
-                    trees: vec![node],
-                    k: vec![p, phase],
-                });
-            }
+        let p = period_scan(problem, block, &periods);
+        if let (Some((period, _, phase)), Ok(node)) = (p.best(), parse(&periodic(block))) {
+            t.seeds.push(Individual {
+                trees: vec![node],
+                k: vec![period, phase],
+            });
         }
-        if let Some((_, epoch)) = best_onset(problem, block, &onsets) {
-            if let Ok(node) = parse(&onset(block)) {
-                out.push(Individual {
-                    trees: vec![node],
-                    k: vec![epoch],
-                });
-            }
+        let o = onset_scan(problem, block, &onsets);
+        if let (Some((epoch, _, _)), Ok(node)) = (o.best(), parse(&onset(block))) {
+            t.seeds.push(Individual {
+                trees: vec![node],
+                k: vec![epoch],
+            });
         }
+        t.periods.push(p);
+        t.onsets.push(o);
     }
-    out
+    t
 }
 
 #[cfg(test)]
@@ -148,6 +203,22 @@ mod tests {
         // A span too short for any trial gives none, not a panic.
         assert!(trial_periods(600.0).is_empty());
         assert_eq!(trial_onsets(0.0).len(), 1);
+    }
+
+    #[test]
+    fn the_best_trial_is_the_least_chi2_with_its_phase() {
+        let s = Scan {
+            block: "T".into(),
+            curve: vec![(1200.0, 50.0), (1300.0, 20.0), (1400.0, 30.0)],
+            phases: vec![0.1, 0.2, 0.3],
+        };
+        assert_eq!(s.best(), Some((1300.0, 20.0, 0.2)));
+        let empty = Scan {
+            block: "T".into(),
+            curve: vec![],
+            phases: vec![],
+        };
+        assert_eq!(empty.best(), None);
     }
 
     #[test]
