@@ -79,43 +79,14 @@ impl Learner<'_> {
                     .join(" + ")
             )));
         }
-        // A constant whose sign the formulas cannot see (a width inside a square) is
-        // reported positive, as a reader expects of a width.
         let span_s = self.arc.end().seconds_since(&self.arc.start());
-        for j in 0..constants.len() {
-            let ends = [full.x0, full.x_last];
-            if constants[j] < 0.0
-                && sign_invisible(
-                    &sol.terms.nodes,
-                    &constants,
-                    j,
-                    &ends,
-                    span_s,
-                    &self.context,
-                )
-            {
-                constants[j] = -constants[j];
-            }
-        }
-        // A phase is reported in (−π, π], where the formulas cannot tell the difference.
-        let units = crate::expr::units::constant_units(&sol.terms.nodes);
-        for j in 0..constants.len() {
-            let wrapped = constants[j] - TAU * ((constants[j] + PI) / TAU).floor();
-            if units.get(j).cloned().flatten().as_deref() == Some("rad")
-                && wrapped != constants[j]
-                && invisible(
-                    &sol.terms.nodes,
-                    &constants,
-                    (j, wrapped),
-                    &[full.x0, full.x_last],
-                    span_s,
-                    &self.context,
-                    1e-9,
-                )
-            {
-                constants[j] = wrapped;
-            }
-        }
+        tidy_constants(
+            &sol.terms.nodes,
+            &mut constants,
+            &[full.x0, full.x_last],
+            span_s,
+            &self.context,
+        );
         let absorbed: Vec<f64> = sol
             .terms
             .nodes
@@ -142,5 +113,40 @@ impl Learner<'_> {
             held_out_rms_km,
             absorbed,
         })
+    }
+}
+
+/// The constants as a reader expects them, where the formulas cannot tell the
+/// difference (checked at `states` across `span_s`): a width inside a square positive,
+/// a phase in (−π, π].
+fn tidy_constants(
+    nodes: &[crate::expr::Node],
+    constants: &mut [f64],
+    states: &[propagator::StateVector],
+    span_s: f64,
+    context: &crate::expr::Context,
+) {
+    for j in 0..constants.len() {
+        if constants[j] < 0.0 && sign_invisible(nodes, constants, j, states, span_s, context) {
+            constants[j] = -constants[j];
+        }
+    }
+    let units = crate::expr::units::constant_units(nodes);
+    for j in 0..constants.len() {
+        let wrapped = constants[j] - TAU * ((constants[j] + PI) / TAU).floor();
+        if units.get(j).cloned().flatten().as_deref() == Some("rad")
+            && wrapped != constants[j]
+            && invisible(
+                nodes,
+                constants,
+                (j, wrapped),
+                states,
+                span_s,
+                context,
+                1e-9,
+            )
+        {
+            constants[j] = wrapped;
+        }
     }
 }

@@ -341,127 +341,15 @@ impl ScenarioSpec {
             .build(path, initial.epoch)
             .map_err(|e| err(e.to_string()))?
             .model;
-        let parse_epoch =
-            |s: &str, key: &str| Epoch::parse_utc(s).map_err(|e| err(format!("truth.{key}: {e}")));
-        // The known model's drag, for a truth term that changes it.
-        let known_drag = |term: &str| {
-            known
-                .drag
-                .as_ref()
-                .ok_or_else(|| err(format!("truth.{term} needs drag in forces")))?
-                .build(
-                    &known.central_body,
-                    path,
-                    &initial.epoch,
-                    known.earth_orientation.as_ref(),
-                )
-                .map_err(err)
-        };
-        let positive = |v: f64, key: &str| {
-            if v.is_finite() && v > 0.0 {
-                Ok(v)
-            } else {
-                Err(err(format!("truth.{key} = {v}: must be positive")))
-            }
-        };
-        let extra_drag = |term: &str, shape: DragShape, factor: f64| {
-            if !factor.is_finite() {
-                return Err(err(format!(
-                    "truth.{term}: the factor {factor} is not finite"
-                )));
-            }
-            let drag = known_drag(term)?;
-            Ok(Box::new(ExtraDrag {
-                drag,
-                shape,
-                factor,
-            }) as Box<dyn Force>)
+        let place = TruthPlace {
+            known: &known,
+            path,
+            epoch: initial.epoch,
+            axis,
         };
         for t in &self.truth {
-            match t {
-                TruthTerm::DecayingPush {
-                    start_utc,
-                    accel_rtn_km_s2,
-                    time_constant_s,
-                } => {
-                    if !(time_constant_s.is_finite() && *time_constant_s > 0.0) {
-                        return Err(err(
-                            "truth.decaying_push.time_constant_s must be positive".into()
-                        ));
-                    }
-                    truth.push(Box::new(DecayingPush {
-                        start_s: axis.seconds(&parse_epoch(start_utc, "decaying_push.start_utc")?),
-                        accel_rtn_km_s2: Vector3::from(*accel_rtn_km_s2),
-                        time_constant_s: *time_constant_s,
-                    }));
-                }
-                TruthTerm::ThrustFrom {
-                    start_utc,
-                    accel_rtn_km_s2,
-                } => truth.push(Box::new(DecayingPush {
-                    start_s: axis.seconds(&parse_epoch(start_utc, "thrust_from.start_utc")?),
-                    accel_rtn_km_s2: Vector3::from(*accel_rtn_km_s2),
-                    time_constant_s: f64::INFINITY,
-                })),
-                TruthTerm::DensityBump {
-                    peak_utc,
-                    width_s,
-                    peak_factor,
-                } => {
-                    let shape = DragShape::Bump {
-                        peak_s: axis.seconds(&parse_epoch(peak_utc, "density_bump.peak_utc")?),
-                        width_s: positive(*width_s, "density_bump.width_s")?,
-                    };
-                    truth.push(extra_drag("density_bump", shape, *peak_factor)?);
-                }
-                TruthTerm::DragFactor { factor } => {
-                    truth.push(extra_drag("drag_factor", DragShape::Constant, *factor)?);
-                }
-                TruthTerm::DragPeriodic {
-                    amplitude,
-                    period_s,
-                    phase_deg,
-                } => {
-                    let shape = DragShape::Periodic {
-                        period_s: positive(*period_s, "drag_periodic.period_s")?,
-                        phase_rad: phase_deg.to_radians(),
-                    };
-                    truth.push(extra_drag("drag_periodic", shape, 1.0 + amplitude)?);
-                }
-                TruthTerm::DragStep { at_utc, factor } => {
-                    let shape = DragShape::StepAt {
-                        at_s: axis.seconds(&parse_epoch(at_utc, "drag_step.at_utc")?),
-                    };
-                    truth.push(extra_drag("drag_step", shape, *factor)?);
-                }
-                TruthTerm::OncePerRev {
-                    amplitude_rtn_km_s2,
-                    phase_deg,
-                } => truth.push(Box::new(OncePerRev {
-                    amplitude_rtn_km_s2: Vector3::from(*amplitude_rtn_km_s2),
-                    phase_rad: phase_deg.to_radians(),
-                })),
-                TruthTerm::Formula { text } => {
-                    let node =
-                        crate::expr::parse(text).map_err(|e| err(format!("truth.formula: {e}")))?;
-                    if node.n_params() > 0 {
-                        return Err(err(
-                            "truth.formula: write numbers, not k-constants, in a truth formula"
-                                .into(),
-                        ));
-                    }
-                    let program = crate::expr::compiled::Program::compile(&[node], &[1.0], &[]);
-                    truth.push(Box::new(FormulaForce {
-                        needs: program.needs(),
-                        program,
-                        context: crate::expr::Context::of_model(&known, path, &initial.epoch)
-                            .map_err(|e| err(format!("truth.formula: {e}")))?,
-                    }));
-                }
-                TruthTerm::Maneuver(_)
-                | TruthTerm::Thermosphere(_)
-                | TruthTerm::Srp(_)
-                | TruthTerm::Atmosphere(_) => {}
+            if let Some(force) = place.extra_force(t).map_err(err)? {
+                truth.push(force);
             }
         }
         Ok(ScenarioModels {

@@ -198,3 +198,146 @@ impl Force for OncePerRev {
         )
     }
 }
+
+/// What a truth term is built against: the known model, the scenario file, its epoch.
+pub(super) struct TruthPlace<'a> {
+    pub(super) known: &'a ForcesFile,
+    pub(super) path: &'a Path,
+    pub(super) epoch: Epoch,
+    pub(super) axis: TimeAxis,
+}
+
+impl TruthPlace<'_> {
+    /// The extra force a truth term adds (`None` for the terms that change the known
+    /// model's own forces instead: maneuvers, SRP, atmosphere, thermosphere).
+    pub(super) fn extra_force(&self, term: &TruthTerm) -> Result<Option<Box<dyn Force>>, String> {
+        let at = |s: &str, key: &str| -> Result<f64, String> {
+            Epoch::parse_utc(s)
+                .map(|e| self.axis.seconds(&e))
+                .map_err(|e| format!("truth.{key}: {e}"))
+        };
+        let positive = |v: f64, key: &str| {
+            if v.is_finite() && v > 0.0 {
+                Ok(v)
+            } else {
+                Err(format!("truth.{key} = {v}: must be positive"))
+            }
+        };
+        let push =
+            |start_s: f64, accel: &[f64; 3], time_constant_s: f64| -> Option<Box<dyn Force>> {
+                Some(Box::new(DecayingPush {
+                    start_s,
+                    accel_rtn_km_s2: Vector3::from(*accel),
+                    time_constant_s,
+                }))
+            };
+        Ok(match term {
+            TruthTerm::DecayingPush {
+                start_utc,
+                accel_rtn_km_s2,
+                time_constant_s,
+            } => {
+                let tau = positive(*time_constant_s, "decaying_push.time_constant_s")?;
+                push(
+                    at(start_utc, "decaying_push.start_utc")?,
+                    accel_rtn_km_s2,
+                    tau,
+                )
+            }
+            TruthTerm::ThrustFrom {
+                start_utc,
+                accel_rtn_km_s2,
+            } => push(
+                at(start_utc, "thrust_from.start_utc")?,
+                accel_rtn_km_s2,
+                f64::INFINITY,
+            ),
+            TruthTerm::DensityBump {
+                peak_utc,
+                width_s,
+                peak_factor,
+            } => {
+                let shape = DragShape::Bump {
+                    peak_s: at(peak_utc, "density_bump.peak_utc")?,
+                    width_s: positive(*width_s, "density_bump.width_s")?,
+                };
+                Some(self.extra_drag("density_bump", shape, *peak_factor)?)
+            }
+            TruthTerm::DragFactor { factor } => {
+                Some(self.extra_drag("drag_factor", DragShape::Constant, *factor)?)
+            }
+            TruthTerm::DragPeriodic {
+                amplitude,
+                period_s,
+                phase_deg,
+            } => {
+                let shape = DragShape::Periodic {
+                    period_s: positive(*period_s, "drag_periodic.period_s")?,
+                    phase_rad: phase_deg.to_radians(),
+                };
+                Some(self.extra_drag("drag_periodic", shape, 1.0 + amplitude)?)
+            }
+            TruthTerm::DragStep { at_utc, factor } => {
+                let shape = DragShape::StepAt {
+                    at_s: at(at_utc, "drag_step.at_utc")?,
+                };
+                Some(self.extra_drag("drag_step", shape, *factor)?)
+            }
+            TruthTerm::OncePerRev {
+                amplitude_rtn_km_s2,
+                phase_deg,
+            } => Some(Box::new(OncePerRev {
+                amplitude_rtn_km_s2: Vector3::from(*amplitude_rtn_km_s2),
+                phase_rad: phase_deg.to_radians(),
+            })),
+            TruthTerm::Formula { text } => Some(self.formula(text)?),
+            TruthTerm::Maneuver(_)
+            | TruthTerm::Thermosphere(_)
+            | TruthTerm::Srp(_)
+            | TruthTerm::Atmosphere(_) => None,
+        })
+    }
+
+    /// (factor − 1)·shape(t) times the known model's drag.
+    fn extra_drag(
+        &self,
+        term: &str,
+        shape: DragShape,
+        factor: f64,
+    ) -> Result<Box<dyn Force>, String> {
+        if !factor.is_finite() {
+            return Err(format!("truth.{term}: the factor {factor} is not finite"));
+        }
+        let drag = self
+            .known
+            .drag
+            .as_ref()
+            .ok_or_else(|| format!("truth.{term} needs drag in forces"))?
+            .build(
+                &self.known.central_body,
+                self.path,
+                &self.epoch,
+                self.known.earth_orientation.as_ref(),
+            )?;
+        Ok(Box::new(ExtraDrag {
+            drag,
+            shape,
+            factor,
+        }))
+    }
+
+    /// A truth force written as a formula (numbers only, no k-constants).
+    fn formula(&self, text: &str) -> Result<Box<dyn Force>, String> {
+        let node = crate::expr::parse(text).map_err(|e| format!("truth.formula: {e}"))?;
+        if node.n_params() > 0 {
+            return Err("truth.formula: write numbers, not k-constants, in a truth formula".into());
+        }
+        let program = crate::expr::compiled::Program::compile(&[node], &[1.0], &[]);
+        Ok(Box::new(FormulaForce {
+            needs: program.needs(),
+            program,
+            context: crate::expr::Context::of_model(self.known, self.path, &self.epoch)
+                .map_err(|e| format!("truth.formula: {e}"))?,
+        }))
+    }
+}
