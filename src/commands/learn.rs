@@ -129,7 +129,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
     };
     let pool = thread_pool(a.threads)?;
     let mut fit_progress = FitProgress::new("learn: fit");
-    let search_progress = SearchProgress::new("learn: search", a.generations);
+    let search_progress = SearchProgress::new("learn: search", a.generations * a.seeds);
     let learned = pool.install(|| {
         learn(
             &arc,

@@ -90,6 +90,20 @@ pub trait SearchObserver: Sync {
     }
 }
 
+/// An observer that reports one seed's generations as part of all seeds'.
+struct Counted<'a> {
+    inner: &'a dyn SearchObserver,
+    before: usize,
+    total: usize,
+}
+
+impl SearchObserver for Counted<'_> {
+    fn on_generation(&self, g: usize, _: usize, best: f64, front: usize, rate: f64) {
+        self.inner
+            .on_generation(self.before + g, self.total, best, front, rate);
+    }
+}
+
 /// An observer that ignores everything.
 pub struct QuietSearch;
 impl SearchObserver for QuietSearch {}
@@ -432,14 +446,22 @@ pub fn search_seeds_with(
     let mut lib = plain_library(opts.span_s);
     lib.extend(timing.seeds.iter().cloned());
     let mut memo = Memo::new();
+    let total = opts.generations.max(1) * seeds.len();
     seeds
         .iter()
-        .map(|&seed| {
+        .enumerate()
+        .map(|(i, &seed)| {
             let o = SearchOptions {
                 seed,
                 ..opts.clone()
             };
-            search_from(problem, &o, &lib, &mut memo, observer)
+            // Progress counts the generations of every seed as one run.
+            let counted = Counted {
+                inner: observer,
+                before: i * opts.generations.max(1),
+                total,
+            };
+            search_from(problem, &o, &lib, &mut memo, &counted)
         })
         .collect()
 }
