@@ -34,6 +34,7 @@ pub mod solar_system;
 pub mod state;
 pub mod text;
 pub mod time;
+pub mod tracking;
 pub mod variational;
 
 pub use body::CentralBody;

@@ -45,6 +45,8 @@ pub enum Input {
     Sp3,
     /// A space-weather table (`nrlmsise00: { space_weather: … }`).
     SpaceWeather,
+    /// A CCSDS Tracking Data Message (KVN).
+    Tdm,
 }
 
 /// The epoch of the examples.
@@ -52,7 +54,7 @@ pub const EPOCH: &str = "2031-05-04T00:00:00Z";
 
 impl Input {
     /// Every kind.
-    pub const ALL: [Input; 13] = [
+    pub const ALL: [Input; 14] = [
         Input::ArcCsv,
         Input::ArcOem,
         Input::EphemerisCsv,
@@ -66,6 +68,7 @@ impl Input {
         Input::Eop,
         Input::Sp3,
         Input::SpaceWeather,
+        Input::Tdm,
     ];
 
     /// The file name errors must carry.
@@ -83,6 +86,7 @@ impl Input {
             Input::Eop => "eop.txt",
             Input::Sp3 => "orbit.sp3",
             Input::SpaceWeather => "space_weather.csv",
+            Input::Tdm => "tracking.tdm",
         }
     }
 
@@ -115,6 +119,7 @@ impl Input {
             }
             Input::Hypotheses => include_str!("../../examples/hypotheses/maneuver_day.yaml").into(),
             Input::Eop => include_str!("../data/eop/finals2000A_2021-04.txt").into(),
+            Input::Tdm => include_str!("../data/ccsds/ccsds_tdm_503_b2_figE9.tdm").into(),
             Input::SpaceWeather => {
                 include_str!("../../examples/space_weather/storm_ap200.csv").into()
             }
@@ -165,6 +170,9 @@ impl Input {
                     .map(|_| ())
             }
             Input::Eop => propagator::earth::EopTable::parse(text, self.file_name()).map(|_| ()),
+            Input::Tdm => propagator::tracking::tdm::read(text, path)
+                .map(|_| ())
+                .map_err(|e| e.to_string()),
             Input::SpaceWeather => propagator::atmosphere::space_weather::SpaceWeatherTable::parse(
                 text,
                 self.file_name(),
