@@ -423,18 +423,19 @@ fn report(a: &Args, l: &Learned, file: &LearnedFile) -> serde_json::Value {
         },
         // The scans that seeded the periodic and switch-on blocks: per block, the best
         // trial period (s, with its phase, rad) and onset (s from the arc's start), and
-        // how much each lowers the training χ².
-        "timing_scan": l.timing.as_ref().map(|(t, base)| t.periods.iter().zip(&t.onsets).map(|(p, o)| {
-            let (pb, ob) = (p.best(), o.best());
-            serde_json::json!({
+        // how much each lowers the training χ² (empty when nothing was searched; a
+        // block whose columns are not finite on the arc is left out).
+        "timing_scan": l.timing.as_ref().map(|(t, base)| t.periods.iter().zip(&t.onsets).filter_map(|(p, o)| {
+            let ((period, pc, phase), (onset, oc, _)) = (p.best()?, o.best()?);
+            Some(serde_json::json!({
                 "block": p.block,
-                "best_period_s": pb.map(|b| b.0),
-                "phase_rad": pb.map(|b| b.2),
-                "period_chi2_reduction": pb.map(|b| base - b.1),
-                "best_onset_s": ob.map(|b| b.0),
-                "onset_chi2_reduction": ob.map(|b| base - b.1),
-            })
-        }).collect::<Vec<_>>()),
+                "best_period_s": period,
+                "phase_rad": phase,
+                "period_chi2_reduction": base - pc,
+                "best_onset_s": onset,
+                "onset_chi2_reduction": base - oc,
+            }))
+        }).collect::<Vec<_>>()).unwrap_or_default(),
         "notes": l.notes,
         "learned_fit": chosen.map(|c| fit_json(&c.fit)),
     })

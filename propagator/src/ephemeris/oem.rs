@@ -77,7 +77,7 @@ pub fn format(eph: &Ephemeris) -> String {
 /// `CREATION_DATE`: the current UTC time, or `SOURCE_DATE_EPOCH` (seconds since 1970,
 /// the reproducible-builds convention) when set, so that a file can be made byte for byte
 /// the same again.
-fn creation_date() -> String {
+pub(crate) fn creation_date() -> String {
     let unix_s = std::env::var("SOURCE_DATE_EPOCH")
         .ok()
         .and_then(|v| v.trim().parse::<i64>().ok())

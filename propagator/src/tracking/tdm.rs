@@ -11,6 +11,11 @@
 //! `DOPPLER_INSTANTANEOUS` (km/s), `ANGLE_1`, `ANGLE_2` (degrees). Anything else is
 //! refused with the keyword and line named, never skipped: a measurement misread is
 //! worse than none.
+//!
+//! Written ([`format`]): version 2.0, `CREATION_DATE` as in arcwise's OEMs (now, or
+//! `SOURCE_DATE_EPOCH`), every segment on `TIME_SYSTEM = UTC` (epochs converted), the
+//! metadata above that applies, and the values at full precision (shortest text that
+//! reads back to the same number).
 
 use crate::ephemeris::{file_error_at, FileError};
 use crate::text::sanitized;
@@ -116,6 +121,84 @@ pub struct Tdm {
     pub creation_date: Option<String>,
     /// The segments.
     pub segments: Vec<Segment>,
+}
+
+/// Writes `tdm` in keyword-value notation (see the module's header).
+pub fn format(tdm: &Tdm) -> String {
+    let mut s = String::from("CCSDS_TDM_VERS = 2.0\nCOMMENT Written by arcwise\n");
+    s.push_str(&format!(
+        "CREATION_DATE = {}\nORIGINATOR = ARCWISE\n",
+        crate::ephemeris::oem::creation_date()
+    ));
+    for seg in &tdm.segments {
+        s.push_str(&format_meta(seg));
+        s.push_str("DATA_START\n");
+        for m in &seg.measurements {
+            let keyword = Observable::KEYWORDS
+                .iter()
+                .find(|(_, o)| *o == m.observable)
+                .map_or("RANGE", |(k, _)| k);
+            s.push_str(&format!(
+                "{keyword} = {} {}\n",
+                m.epoch.to_utc_string_no_zone(),
+                m.value
+            ));
+        }
+        s.push_str("DATA_STOP\n");
+    }
+    s
+}
+
+/// A segment's `META_START … META_STOP` block.
+fn format_meta(seg: &Segment) -> String {
+    let mut s = String::from("\nMETA_START\nTIME_SYSTEM = UTC\n");
+    for (i, p) in seg.participants.iter().enumerate() {
+        // Names are checked where they are read; one handed in by other code is made
+        // harmless here, so it can never add a line.
+        s.push_str(&format!("PARTICIPANT_{} = {}\n", i + 1, sanitized(p)));
+    }
+    if !seg.path.is_empty() {
+        let path: Vec<String> = seg.path.iter().map(|p| p.to_string()).collect();
+        s.push_str(&format!("MODE = SEQUENTIAL\nPATH = {}\n", path.join(",")));
+    }
+    let tag = match seg.timetag_ref {
+        TimetagRef::Transmit => "TRANSMIT",
+        TimetagRef::Receive => "RECEIVE",
+    };
+    s.push_str(&format!("TIMETAG_REF = {tag}\n"));
+    match seg.angle_type {
+        Some(AngleType::AzEl) => s.push_str("ANGLE_TYPE = AZEL\n"),
+        Some(AngleType::RaDec) => s.push_str("ANGLE_TYPE = RADEC\n"),
+        None => {}
+    }
+    if let Some(f) = &seg.reference_frame {
+        s.push_str(&format!("REFERENCE_FRAME = {}\n", sanitized(f)));
+    }
+    if seg
+        .measurements
+        .iter()
+        .any(|m| m.observable == Observable::Range)
+    {
+        s.push_str("RANGE_UNITS = km\n");
+    }
+    if let Some(m) = seg.range_modulus_km {
+        s.push_str(&format!("RANGE_MODE = CONSTANT\nRANGE_MODULUS = {m}\n"));
+    }
+    for (o, c) in &seg.corrections {
+        let k = match o {
+            Observable::Range => "CORRECTION_RANGE",
+            Observable::RangeRate => "CORRECTION_DOPPLER",
+            Observable::Angle1 => "CORRECTION_ANGLE_1",
+            Observable::Angle2 => "CORRECTION_ANGLE_2",
+        };
+        s.push_str(&format!("{k} = {c}\n"));
+    }
+    if !seg.corrections.is_empty() {
+        let applied = if seg.corrections_applied { "YES" } else { "NO" };
+        s.push_str(&format!("CORRECTIONS_APPLIED = {applied}\n"));
+    }
+    s.push_str("META_STOP\n");
+    s
 }
 
 /// Reads a TDM in keyword-value notation; errors name `path` and the line.
@@ -611,6 +694,55 @@ mod tests {
             .unwrap_err()
             .to_string()
             .contains("not a TDM"));
+    }
+
+    #[test]
+    fn what_is_written_reads_back_the_same() {
+        let mut t = read_text(EXAMPLE).unwrap();
+        // Angles too, in a second segment on GPS time (written back on UTC).
+        let gps = EXAMPLE
+            .replace("TIME_SYSTEM = UTC", "TIME_SYSTEM = GPS")
+            .replace(
+                "RANGE_UNITS = km",
+                "RANGE_UNITS = km\nANGLE_TYPE = RADEC\nREFERENCE_FRAME = EME2000",
+            )
+            .replace(
+                "RANGE = 2005-09-17T00:41:38.000000 3198.03679519614",
+                "ANGLE_1 = 2005-09-17T00:41:38.5 359.99999999999994",
+            )
+            .replace(
+                "RANGE = 2005-09-17T00:41:40.000000 3199.82505720811",
+                "ANGLE_2 = 2005-09-17T00:41:38.5 -12.345678901234567",
+            );
+        t.segments.extend(read_text(&gps).unwrap().segments);
+        let again = read_text(&format(&t)).unwrap();
+        assert_eq!(again.segments.len(), 2);
+        for (a, b) in t.segments.iter().zip(&again.segments) {
+            assert_eq!(b.time_system, Scale::Utc);
+            assert_eq!(
+                (&a.participants, &a.path, a.timetag_ref),
+                (&b.participants, &b.path, b.timetag_ref)
+            );
+            assert_eq!(
+                (a.angle_type, &a.reference_frame, a.range_modulus_km),
+                (b.angle_type, &b.reference_frame, b.range_modulus_km)
+            );
+            assert_eq!(
+                (&a.corrections, a.corrections_applied),
+                (&b.corrections, b.corrections_applied)
+            );
+            assert_eq!(a.measurements.len(), b.measurements.len());
+            for (m, n) in a.measurements.iter().zip(&b.measurements) {
+                assert_eq!((m.observable, m.value), (n.observable, n.value));
+                // Epochs to the microsecond the UTC text carries.
+                assert!(n.epoch.seconds_since(&m.epoch).abs() < 1e-6, "{m:?} {n:?}");
+            }
+        }
+        // A participant name handed in with a line break cannot add a keyword.
+        t.segments[0].participants[0] = "SAT\nPATH = 1,1".into();
+        let text = format(&t);
+        assert!(!text.contains("SAT\nPATH"));
+        assert!(text.contains("PARTICIPANT_1 = SAT?PATH = 1,1"));
     }
 
     #[test]
