@@ -23,6 +23,7 @@ import nrlmsise00  # noqa: E402
 import real_earth_trajectory  # noqa: E402
 import sun_moon  # noqa: E402
 import third_body_trajectories  # noqa: E402
+import tracking_geometry  # noqa: E402
 import trajectories  # noqa: E402
 import ussa1976_table  # noqa: E402
 
@@ -40,6 +41,7 @@ FILES = [
     "tests/data/reference/real_earth_trajectory.json",
     "propagator/src/atmosphere/nrlmsise00_tables.rs",
     "tests/data/reference/nrlmsise00_pymsis.json",
+    "tests/data/reference/tracking_geometry_astropy.json",
 ]
 
 
@@ -82,6 +84,7 @@ def main():
         gravity_field.main(tmp)
         real_earth_trajectory.main(tmp)
         nrlmsise00.main(tmp)
+        tracking_geometry.main(tmp)
         bad = 0
         for rel in FILES:
             new, old = (tmp / rel).read_text(), (ROOT / rel).read_text()

@@ -1,4 +1,6 @@
 //! Tracking data: what sensors measure of an object (ranges, range rates, angles), as
-//! opposed to its positions. Read from CCSDS Tracking Data Messages ([`tdm`]).
+//! opposed to its positions: read from CCSDS Tracking Data Messages ([`tdm`]), seen from
+//! sites on the Earth ([`site`]).
 
+pub mod site;
 pub mod tdm;

@@ -1,0 +1,133 @@
+//! A tracking site on the Earth and what it sees: its Earth-fixed (ITRF) position from
+//! geodetic coordinates on the WGS-84 ellipsoid, and the topocentric azimuth, elevation
+//! and range of an object given in ITRF. Geometric: no refraction, no light time, no
+//! aberration (the measurement models add light time where it matters).
+
+use nalgebra::{Matrix3, Vector3};
+
+/// WGS-84 semi-major axis, km (NIMA TR8350.2; from memory).
+pub const WGS84_A_KM: f64 = 6378.137;
+/// WGS-84 flattening (NIMA TR8350.2; from memory).
+pub const WGS84_F: f64 = 1.0 / 298.257_223_563;
+
+/// A site fixed to the Earth.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Site {
+    /// Its name.
+    pub name: String,
+    /// Geodetic latitude, rad.
+    pub lat_rad: f64,
+    /// Longitude, east, rad.
+    pub lon_rad: f64,
+    /// Height above the ellipsoid, km.
+    pub h_km: f64,
+    /// Position in ITRF, km.
+    pub itrf_km: Vector3<f64>,
+    /// ITRF → local east, north, up (rows).
+    enu: Matrix3<f64>,
+}
+
+/// Topocentric direction and distance of an object.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Look {
+    /// Azimuth from north through east, rad, in [0, 2π).
+    pub az_rad: f64,
+    /// Elevation above the local horizontal (the ellipsoid's tangent plane), rad.
+    pub el_rad: f64,
+    /// Distance, km.
+    pub range_km: f64,
+}
+
+impl Site {
+    /// A site at geodetic latitude and longitude (degrees) and height (km) on WGS-84.
+    /// Errors name the field that is out of range or not finite.
+    pub fn geodetic(name: &str, lat_deg: f64, lon_deg: f64, h_km: f64) -> Result<Site, String> {
+        if !(lat_deg.is_finite() && (-90.0..=90.0).contains(&lat_deg)) {
+            return Err(format!("latitude {lat_deg}°: expected −90 to 90"));
+        }
+        if !(lon_deg.is_finite() && (-360.0..=360.0).contains(&lon_deg)) {
+            return Err(format!("longitude {lon_deg}°: expected −360 to 360"));
+        }
+        // Below the deepest ocean trench or above any mountain is a unit error (metres?).
+        if !(h_km.is_finite() && (-12.0..=10.0).contains(&h_km)) {
+            return Err(format!(
+                "height {h_km} km: expected −12 to 10 km (metres given as km?)"
+            ));
+        }
+        crate::text::check_name("site name", name)?;
+        let (lat, lon) = (lat_deg.to_radians(), lon_deg.to_radians());
+        let (sl, cl) = lat.sin_cos();
+        let (so, co) = lon.sin_cos();
+        // Prime-vertical radius of curvature N = a / √(1 − e² sin²φ).
+        let e2 = WGS84_F * (2.0 - WGS84_F);
+        let n = WGS84_A_KM / (1.0 - e2 * sl * sl).sqrt();
+        let itrf_km = Vector3::new(
+            (n + h_km) * cl * co,
+            (n + h_km) * cl * so,
+            (n * (1.0 - e2) + h_km) * sl,
+        );
+        let enu = Matrix3::new(-so, co, 0.0, -sl * co, -sl * so, cl, cl * co, cl * so, sl);
+        Ok(Site {
+            name: name.to_string(),
+            lat_rad: lat,
+            lon_rad: lon,
+            h_km,
+            itrf_km,
+            enu,
+        })
+    }
+
+    /// The object at `r_itrf_km` as seen from the site.
+    pub fn look(&self, r_itrf_km: &Vector3<f64>) -> Look {
+        let rho = r_itrf_km - self.itrf_km;
+        let local = self.enu * rho;
+        let range_km = rho.norm();
+        let az = local[0].atan2(local[1]);
+        let horizontal = local[0].hypot(local[1]);
+        Look {
+            az_rad: if az < 0.0 {
+                az + std::f64::consts::TAU
+            } else {
+                az
+            },
+            el_rad: local[2].atan2(horizontal),
+            range_km,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_site_on_the_equator_and_at_a_pole_sits_where_the_ellipsoid_says() {
+        let eq = Site::geodetic("EQ", 0.0, 0.0, 0.0).unwrap();
+        assert!((eq.itrf_km - Vector3::new(WGS84_A_KM, 0.0, 0.0)).norm() < 1e-9);
+        let pole = Site::geodetic("NP", 90.0, 0.0, 0.0).unwrap();
+        let b = WGS84_A_KM * (1.0 - WGS84_F);
+        assert!((pole.itrf_km[2] - b).abs() < 1e-9 && pole.itrf_km.xy().norm() < 1e-9);
+        // Straight up from the equator site is elevation 90°, due north at the horizon
+        // azimuth 0, due east 90°.
+        let up = eq.look(&Vector3::new(WGS84_A_KM + 500.0, 0.0, 0.0));
+        assert!((up.el_rad.to_degrees() - 90.0).abs() < 1e-9 && (up.range_km - 500.0).abs() < 1e-9);
+        let north = eq.look(&Vector3::new(WGS84_A_KM, 0.0, 100.0));
+        assert!(north.az_rad.abs() < 1e-12 && north.el_rad.abs() < 1e-12);
+        let east = eq.look(&Vector3::new(WGS84_A_KM, 100.0, 0.0));
+        assert!((east.az_rad.to_degrees() - 90.0).abs() < 1e-9);
+    }
+
+    #[test]
+    fn impossible_sites_are_refused_naming_the_field() {
+        for (lat, lon, h, needle) in [
+            (91.0, 0.0, 0.0, "latitude"),
+            (f64::NAN, 0.0, 0.0, "latitude"),
+            (0.0, 400.0, 0.0, "longitude"),
+            (0.0, 0.0, 650.0, "metres given as km"),
+        ] {
+            let e = Site::geodetic("S", lat, lon, h).unwrap_err();
+            assert!(e.contains(needle), "{e}");
+        }
+        assert!(Site::geodetic("bad\nname", 0.0, 0.0, 0.0).is_err());
+    }
+}
