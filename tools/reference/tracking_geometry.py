@@ -4,6 +4,11 @@ gd2gc), object positions given in ITRS, the topocentric ITRS vector transformed 
 (astropy's direct ITRS -> observed transform: geometric, no refraction, no aberration).
 Positions are Earth-fixed, so no Earth-orientation data enter. Object positions are drawn
 from a fixed seed: 3 sites x (8 LEO + 4 GEO).
+
+And topocentric right ascension and declination, geometric (no light time, no
+aberration), in GCRS axes: the site's GCRS position at 2021-04-15T06:00 UTC by astropy
+(`EarthLocation.get_gcrs_posvel`: IAU 2006/2000A with the IERS data astropy ships),
+objects given in GCRS, RA/Dec of the difference vector.
 Writes ROOT/tests/data/reference/tracking_geometry_astropy.json."""
 import json
 import sys
@@ -26,6 +31,8 @@ warnings.simplefilter("ignore", erfa.ErfaWarning)
 # Latitude, longitude (deg), height (km) of three invented sites.
 SITES = [(40.43, -3.71, 0.655), (-31.87, 115.96, 0.024), (69.29, 16.03, 0.380)]
 EPOCH = "2031-05-04T00:00:00"
+# Inside the IERS data astropy ships (and arcwise's shipped table).
+RADEC_EPOCH = "2021-04-15T06:00:00"
 
 
 def objects(rng, site_itrs):
@@ -58,8 +65,22 @@ def main(root: Path):
                 "el_deg": aa.alt.to_value(u.deg),
                 "range_km": aa.distance.to_value(u.km),
             })
-    out = {"source": f"astropy {astropy.__version__}: EarthLocation.from_geodetic (WGS84), ITRS -> AltAz (topocentric, geometric)",
-           "sites": sites, "cases": cases}
+    t2 = Time(RADEC_EPOCH, scale="utc")
+    radec = []
+    for i, (lat, lon, h) in enumerate(SITES):
+        loc = EarthLocation.from_geodetic(lon * u.deg, lat * u.deg, h * u.km, ellipsoid="WGS84")
+        pos, _ = loc.get_gcrs_posvel(t2)
+        site = pos.xyz.to_value(u.km)
+        for r in objects(rng, site):
+            rho = r - site
+            radec.append({
+                "site": i,
+                "r_gcrf_km": r.tolist(),
+                "ra_deg": float(np.degrees(np.arctan2(rho[1], rho[0])) % 360.0),
+                "dec_deg": float(np.degrees(np.arcsin(rho[2] / np.linalg.norm(rho)))),
+            })
+    out = {"source": f"astropy {astropy.__version__}: EarthLocation.from_geodetic (WGS84), ITRS -> AltAz (topocentric, geometric); get_gcrs_posvel for RA/Dec",
+           "radec_epoch_utc": RADEC_EPOCH, "sites": sites, "cases": cases, "radec": radec}
     path = root / "tests" / "data" / "reference" / "tracking_geometry_astropy.json"
     path.parent.mkdir(parents=True, exist_ok=True)
     path.write_text(json.dumps(out, indent=1) + "\n")

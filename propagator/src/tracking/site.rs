@@ -1,8 +1,10 @@
 //! A tracking site on the Earth and what it sees: its Earth-fixed (ITRF) position from
 //! geodetic coordinates on the WGS-84 ellipsoid, and the topocentric azimuth, elevation
-//! and range of an object given in ITRF. Geometric: no refraction, no light time, no
+//! and range of an object given in ITRF, and its topocentric right ascension and
+//! declination from a GCRF position. Geometric: no refraction, no light time, no
 //! aberration (the measurement models add light time where it matters).
 
+use crate::earth::EarthRotation;
 use nalgebra::{Matrix3, Vector3};
 
 /// WGS-84 semi-major axis, km (NIMA TR8350.2; from memory).
@@ -75,6 +77,18 @@ impl Site {
             itrf_km,
             enu,
         })
+    }
+
+    /// Right ascension and declination (rad) and range (km) of the object at
+    /// `r_gcrf_km` from the site, with the Earth's orientation `rotation` at that instant:
+    /// topocentric and geometric (no light time, no aberration), in GCRF axes. RA in
+    /// [0, 2π).
+    pub fn radec(&self, r_gcrf_km: &Vector3<f64>, rotation: &EarthRotation) -> (f64, f64, f64) {
+        let site_gcrf = rotation.gcrf_to_itrf().transpose() * self.itrf_km;
+        let rho = r_gcrf_km - site_gcrf;
+        let range = rho.norm();
+        let ra = rho[1].atan2(rho[0]).rem_euclid(std::f64::consts::TAU);
+        (ra, (rho[2] / range).asin(), range)
     }
 
     /// The object at `r_itrf_km` as seen from the site.
