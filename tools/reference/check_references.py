@@ -19,6 +19,7 @@ import eop_table  # noqa: E402
 import gcrf_itrf  # noqa: E402
 import gravity_field  # noqa: E402
 import leap_seconds  # noqa: E402
+import light_time  # noqa: E402
 import nrlmsise00  # noqa: E402
 import real_earth_trajectory  # noqa: E402
 import sun_moon  # noqa: E402
@@ -42,6 +43,7 @@ FILES = [
     "propagator/src/atmosphere/nrlmsise00_tables.rs",
     "tests/data/reference/nrlmsise00_pymsis.json",
     "tests/data/reference/tracking_geometry_astropy.json",
+    "tests/data/reference/light_time.json",
 ]
 
 
@@ -85,6 +87,7 @@ def main():
         real_earth_trajectory.main(tmp)
         nrlmsise00.main(tmp)
         tracking_geometry.main(tmp)
+        light_time.main(tmp)
         bad = 0
         for rel in FILES:
             new, old = (tmp / rel).read_text(), (ROOT / rel).read_text()

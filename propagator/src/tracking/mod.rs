@@ -2,5 +2,6 @@
 //! opposed to its positions: read from CCSDS Tracking Data Messages ([`tdm`]), seen from
 //! sites on the Earth ([`site`]).
 
+pub mod light_time;
 pub mod site;
 pub mod tdm;
