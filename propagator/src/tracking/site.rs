@@ -110,9 +110,134 @@ impl Site {
     }
 }
 
+/// Partials of azimuth, elevation and range (rows; rad/km, rad/km, km/km) with respect to
+/// a topocentric vector `rho` (columns), in whatever axes `rho` is given: the chain rule
+/// through the site's ENU rotation is the caller's.
+fn az_el_range_partials(e: f64, n: f64, u: f64) -> Matrix3<f64> {
+    let h2 = e * e + n * n;
+    let h = h2.sqrt();
+    let r2 = h2 + u * u;
+    let r = r2.sqrt();
+    Matrix3::new(
+        n / h2,
+        -e / h2,
+        0.0,
+        -u * e / (r2 * h),
+        -u * n / (r2 * h),
+        h / r2,
+        e / r,
+        n / r,
+        u / r,
+    )
+}
+
+impl Site {
+    /// ∂(azimuth, elevation, range)/∂r_ITRF of the object at `r_itrf_km` (rows: rad/km,
+    /// rad/km, km/km). Undefined straight overhead (the azimuth is).
+    pub fn look_partials(&self, r_itrf_km: &Vector3<f64>) -> Matrix3<f64> {
+        let local = self.enu * (r_itrf_km - self.itrf_km);
+        az_el_range_partials(local[0], local[1], local[2]) * self.enu
+    }
+
+    /// ∂(RA, Dec, range)/∂r_GCRF of the object at `r_gcrf_km` (rows: rad/km, rad/km,
+    /// km/km), the Earth's orientation `rotation` at that instant.
+    pub fn radec_partials(
+        &self,
+        r_gcrf_km: &Vector3<f64>,
+        rotation: &EarthRotation,
+    ) -> Matrix3<f64> {
+        let rho = r_gcrf_km - rotation.gcrf_to_itrf().transpose() * self.itrf_km;
+        let (x, y, z) = (rho[0], rho[1], rho[2]);
+        let h2 = x * x + y * y;
+        let h = h2.sqrt();
+        let r2 = h2 + z * z;
+        let r = r2.sqrt();
+        Matrix3::new(
+            -y / h2,
+            x / h2,
+            0.0,
+            -z * x / (r2 * h),
+            -z * y / (r2 * h),
+            h / r2,
+            x / r,
+            y / r,
+            z / r,
+        )
+    }
+}
+
+/// The geometric range rate (km/s) between a site and an object, both given as GCRF
+/// positions and velocities, and its partials with respect to the object's position
+/// (1/s) and velocity (dimensionless).
+pub fn range_rate(
+    site: (&Vector3<f64>, &Vector3<f64>),
+    object: (&Vector3<f64>, &Vector3<f64>),
+) -> (f64, Vector3<f64>, Vector3<f64>) {
+    let rho = object.0 - site.0;
+    let dv = object.1 - site.1;
+    let r = rho.norm();
+    let unit = rho / r;
+    let rate = unit.dot(&dv);
+    // ∂(ρ̂·v)/∂ρ = (v − ρ̂ (ρ̂·v)) / |ρ|.
+    let d_pos = (dv - unit * rate) / r;
+    (rate, d_pos, unit)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Central differences of `f` (three outputs) at `x`, step `h` km.
+    fn numeric(
+        f: impl Fn(&Vector3<f64>) -> Vector3<f64>,
+        x: &Vector3<f64>,
+        h: f64,
+    ) -> Matrix3<f64> {
+        let mut m = Matrix3::zeros();
+        for j in 0..3 {
+            let mut up = *x;
+            let mut down = *x;
+            up[j] += h;
+            down[j] -= h;
+            m.set_column(j, &((f(&up) - f(&down)) / (2.0 * h)));
+        }
+        m
+    }
+
+    #[test]
+    fn partials_match_central_differences() {
+        let site = Site::geodetic("S", 35.0, 139.5, 0.05).unwrap();
+        let rotation = crate::earth::EarthOrientation::shipped().unwrap().at(6.7e8);
+        for r in [
+            Vector3::new(-3000.0, 2500.0, 5800.0),
+            Vector3::new(-30000.0, 28000.0, 9000.0),
+        ] {
+            let look = |x: &Vector3<f64>| {
+                let l = site.look(x);
+                Vector3::new(l.az_rad, l.el_rad, l.range_km)
+            };
+            let (a, b) = (site.look_partials(&r), numeric(look, &r, 1e-3));
+            assert!((a - b).norm() <= 1e-7 * b.norm(), "{a} {b}");
+            let radec = |x: &Vector3<f64>| {
+                let (ra, dec, range) = site.radec(x, &rotation);
+                Vector3::new(ra, dec, range)
+            };
+            let (a, b) = (site.radec_partials(&r, &rotation), numeric(radec, &r, 1e-3));
+            assert!((a - b).norm() <= 1e-7 * b.norm(), "{a} {b}");
+            // Range rate: position and velocity partials.
+            let (sp, sv) = (site.itrf_km, Vector3::new(-0.3, 0.2, 0.0));
+            let v = Vector3::new(1.0, -6.5, 3.0);
+            let (_, dp, dv) = range_rate((&sp, &sv), (&r, &v));
+            let rate_at = |x: &Vector3<f64>| Vector3::repeat(range_rate((&sp, &sv), (x, &v)).0);
+            let rate_dv = |x: &Vector3<f64>| Vector3::repeat(range_rate((&sp, &sv), (&r, x)).0);
+            let (np, nv) = (numeric(rate_at, &r, 1e-2), numeric(rate_dv, &v, 1e-5));
+            assert!(
+                (np.row(0).transpose() - dp).norm() <= 1e-8 * dp.norm(),
+                "{np} {dp}"
+            );
+            assert!((nv.row(0).transpose() - dv).norm() <= 1e-8, "{nv} {dv}");
+        }
+    }
 
     #[test]
     fn a_site_on_the_equator_and_at_a_pole_sits_where_the_ellipsoid_says() {
