@@ -103,6 +103,15 @@ impl std::fmt::Display for FileError {
     }
 }
 
+/// The lines of a CCSDS keyword-value message that carry content: trimmed, with their
+/// 1-based numbers, blank lines and `COMMENT` lines left out.
+pub(crate) fn kvn_lines(text: &str) -> impl Iterator<Item = (usize, &str)> {
+    text.lines()
+        .enumerate()
+        .map(|(i, raw)| (i + 1, raw.trim()))
+        .filter(|(_, l)| !(l.is_empty() || l.starts_with("COMMENT")))
+}
+
 /// A [`FileError`] for `path`, at `line` if known.
 pub fn file_error_at(path: &Path, line: Option<usize>, message: impl Into<String>) -> FileError {
     file_error(path, line, message)

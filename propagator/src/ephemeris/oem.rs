@@ -183,12 +183,8 @@ pub fn read_message(text: &str, path: &Path) -> Result<OemMessage, FileError> {
         header_keys: Vec::new(),
         meta_keys: Vec::new(),
     };
-    for (i, raw) in text.lines().enumerate() {
-        let l = raw.trim();
-        if l.is_empty() || l.starts_with("COMMENT") {
-            continue;
-        }
-        r.line(i + 1, l)?;
+    for (ln, l) in crate::ephemeris::kvn_lines(text) {
+        r.line(ln, l)?;
     }
     r.finish()
 }

@@ -147,22 +147,10 @@ impl Site {
         rotation: &EarthRotation,
     ) -> Matrix3<f64> {
         let rho = r_gcrf_km - rotation.gcrf_to_itrf().transpose() * self.itrf_km;
-        let (x, y, z) = (rho[0], rho[1], rho[2]);
-        let h2 = x * x + y * y;
-        let h = h2.sqrt();
-        let r2 = h2 + z * z;
-        let r = r2.sqrt();
-        Matrix3::new(
-            -y / h2,
-            x / h2,
-            0.0,
-            -z * x / (r2 * h),
-            -z * y / (r2 * h),
-            h / r2,
-            x / r,
-            y / r,
-            z / r,
-        )
+        // RA is to (x, y) what azimuth is to (north, east): the same partials with x and
+        // y exchanged.
+        let swap_xy = Matrix3::new(0.0, 1.0, 0.0, 1.0, 0.0, 0.0, 0.0, 0.0, 1.0);
+        az_el_range_partials(rho[1], rho[0], rho[2]) * swap_xy
     }
 }
 

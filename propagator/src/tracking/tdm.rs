@@ -215,12 +215,8 @@ pub fn read(text: &str, path: &Path) -> Result<Tdm, FileError> {
         keys: Vec::new(),
         path_line: None,
     };
-    for (i, raw) in text.lines().enumerate() {
-        let l = raw.trim();
-        if l.is_empty() || l.starts_with("COMMENT") {
-            continue;
-        }
-        r.line(i + 1, l)?;
+    for (ln, l) in crate::ephemeris::kvn_lines(text) {
+        r.line(ln, l)?;
     }
     r.finish()
 }
