@@ -47,6 +47,8 @@ pub enum Input {
     SpaceWeather,
     /// A CCSDS Tracking Data Message (KVN).
     Tdm,
+    /// A sites file (tracking sensors).
+    Sites,
 }
 
 /// The epoch of the examples.
@@ -54,7 +56,7 @@ pub const EPOCH: &str = "2031-05-04T00:00:00Z";
 
 impl Input {
     /// Every kind.
-    pub const ALL: [Input; 14] = [
+    pub const ALL: [Input; 15] = [
         Input::ArcCsv,
         Input::ArcOem,
         Input::EphemerisCsv,
@@ -69,6 +71,7 @@ impl Input {
         Input::Sp3,
         Input::SpaceWeather,
         Input::Tdm,
+        Input::Sites,
     ];
 
     /// The file name errors must carry.
@@ -87,6 +90,7 @@ impl Input {
             Input::Sp3 => "orbit.sp3",
             Input::SpaceWeather => "space_weather.csv",
             Input::Tdm => "tracking.tdm",
+            Input::Sites => "sites.yaml",
         }
     }
 
@@ -120,6 +124,7 @@ impl Input {
             Input::Hypotheses => include_str!("../../examples/hypotheses/maneuver_day.yaml").into(),
             Input::Eop => include_str!("../data/eop/finals2000A_2021-04.txt").into(),
             Input::Tdm => include_str!("../data/ccsds/ccsds_tdm_503_b2_figE9.tdm").into(),
+            Input::Sites => include_str!("../../examples/sites/three_sites.yaml").into(),
             Input::SpaceWeather => {
                 include_str!("../../examples/space_weather/storm_ap200.csv").into()
             }
@@ -170,6 +175,7 @@ impl Input {
                     .map(|_| ())
             }
             Input::Eop => propagator::earth::EopTable::parse(text, self.file_name()).map(|_| ()),
+            Input::Sites => propagator::tracking::sites_file::parse(text, path).map(|_| ()),
             Input::Tdm => propagator::tracking::tdm::read(text, path)
                 .map(|_| ())
                 .map_err(|e| e.to_string()),

@@ -4,4 +4,5 @@
 
 pub mod light_time;
 pub mod site;
+pub mod sites_file;
 pub mod tdm;

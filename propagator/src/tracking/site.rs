@@ -91,6 +91,27 @@ impl Site {
         (ra, (rho[2] / range).asin(), range)
     }
 
+    /// A site at an ITRF position (km), which must be within 12 km of the WGS-84
+    /// ellipsoid (metres given as km are refused).
+    pub fn itrf(name: &str, itrf_km: [f64; 3]) -> Result<Site, String> {
+        if !itrf_km.iter().all(|v| v.is_finite()) {
+            return Err("itrf_km: not finite".into());
+        }
+        let r = Vector3::from(itrf_km).norm();
+        if !(6300.0..=6400.0).contains(&r) {
+            return Err(format!(
+                "itrf_km: {r:.1} km from the geocentre, not on the Earth's surface (metres given as km?)"
+            ));
+        }
+        let (h, normal) = crate::atmosphere::ellipsoid_height(itrf_km, WGS84_A_KM, WGS84_F);
+        let lat = normal[2].clamp(-1.0, 1.0).asin().to_degrees();
+        let lon = normal[1].atan2(normal[0]).to_degrees();
+        let mut site = Site::geodetic(name, lat, lon, h)?;
+        // Exactly where the file says (the round trip through latitude is sub-millimetre).
+        site.itrf_km = Vector3::from(itrf_km);
+        Ok(site)
+    }
+
     /// The object at `r_itrf_km` as seen from the site.
     pub fn look(&self, r_itrf_km: &Vector3<f64>) -> Look {
         let rho = r_itrf_km - self.itrf_km;
@@ -242,6 +263,17 @@ mod tests {
         assert!(north.az_rad.abs() < 1e-12 && north.el_rad.abs() < 1e-12);
         let east = eq.look(&Vector3::new(WGS84_A_KM, 100.0, 0.0));
         assert!((east.az_rad.to_degrees() - 90.0).abs() < 1e-9);
+    }
+
+    #[test]
+    fn a_site_given_in_itrf_has_the_geodetic_coordinates_it_came_from() {
+        let g = Site::geodetic("G", -31.87, 115.96, 0.024).unwrap();
+        let x = Site::itrf("X", [g.itrf_km[0], g.itrf_km[1], g.itrf_km[2]]).unwrap();
+        assert!((x.lat_rad - g.lat_rad).abs() < 1e-12 && (x.lon_rad - g.lon_rad).abs() < 1e-12);
+        assert!((x.h_km - g.h_km).abs() < 1e-9);
+        assert!(Site::itrf("M", [4852188.0, -314627.0, 4114870.0])
+            .unwrap_err()
+            .contains("metres"));
     }
 
     #[test]
