@@ -7,10 +7,8 @@
 use crate::earth::EarthRotation;
 use nalgebra::{Matrix3, Vector3};
 
-/// WGS-84 semi-major axis, km (NIMA TR8350.2; from memory).
-pub const WGS84_A_KM: f64 = 6378.137;
-/// WGS-84 flattening (NIMA TR8350.2; from memory).
-pub const WGS84_F: f64 = 1.0 / 298.257_223_563;
+/// The WGS-84 ellipsoid the thermosphere's geodetic coordinates already use.
+pub use crate::atmosphere::thermosphere::{WGS84_A_KM, WGS84_F};
 
 /// A site fixed to the Earth.
 #[derive(Clone, Debug, PartialEq)]
