@@ -19,3 +19,4 @@ pub mod model_error;
 pub mod next_arc;
 pub mod termination;
 pub mod terms;
+pub mod tracking_arc;

@@ -62,11 +62,20 @@ pub fn default_for(arc: &Arc, loaded: &LoadedForces) -> ModelError {
             basis: "none: empty arc".into(),
         };
     };
-    let r = first.r_km;
-    let v = first.v_km_s.unwrap_or_else(|| match obs.get(1) {
-        Some(o) => (o.r_km - r) / o.epoch.seconds_since(&first.epoch).max(1e-3),
-        None => Vector3::zeros(),
-    });
+    let (Some(s0), false) = (first.as_state(), arc.tracking.is_some()) else {
+        return ModelError {
+            floor_km: 0.0,
+            acceleration_km_s2: None,
+            basis: "none: a tracking arc (the floor is a position σ; the sites file gives each measurement's σ)".into(),
+        };
+    };
+    let r = s0.r_km;
+    let v = s0
+        .v_km_s
+        .unwrap_or_else(|| match obs.get(1).and_then(|o| Some((o, o.as_state()?))) {
+            Some((o, s1)) => (s1.r_km - r) / o.epoch.seconds_since(&first.epoch).max(1e-3),
+            None => Vector3::zeros(),
+        });
     let x = StateVector::new(r[0], r[1], r[2], v[0], v[1], v[2]);
     let mut a = 0.0;
     for f in loaded.model.forces() {
@@ -115,7 +124,9 @@ pub fn given(floor_km: f64) -> ModelError {
 pub fn apply(arc: &mut Arc, e: &ModelError) {
     if e.floor_km > 0.0 {
         for o in &mut arc.observations {
-            o.sigma_km = o.sigma_km.hypot(e.floor_km);
+            if let crate::arc::Observed::State(s) = &mut o.observed {
+                s.sigma_km = s.sigma_km.hypot(e.floor_km);
+            }
         }
     }
 }

@@ -54,6 +54,9 @@ pub fn predict(
     x0: StateVector,
     arc: &Arc,
 ) -> Result<Prediction, String> {
+    if arc.tracking.is_some() {
+        return Err("the next-arc check compares positions: a tracking arc (measurements) is not supported by it yet".into());
+    }
     let axis = TimeAxis::new(*start);
     let times: Vec<f64> = arc
         .observations
@@ -86,7 +89,8 @@ pub fn predict(
     for ((_, x), o) in p.samples.iter().zip(&arc.observations) {
         let r = Vector3::new(x[0], x[1], x[2]);
         let v = Vector3::new(x[3], x[4], x[5]);
-        let d = o.r_km - r;
+        let Some(s) = o.as_state() else { continue };
+        let d = s.r_km - r;
         ss += d.norm_squared();
         mx = mx.max(d.norm());
         errors.push(eci_to_rtn(&r, &v).map(|m| m * d).unwrap_or(d));
@@ -104,7 +108,7 @@ pub fn noise_rms_km(arc: &Arc) -> f64 {
     let n = arc.observations.len().max(1) as f64;
     (arc.observations
         .iter()
-        .map(|o| 3.0 * o.sigma_km * o.sigma_km)
+        .filter_map(|o| o.as_state().map(|s| 3.0 * s.sigma_km * s.sigma_km))
         .sum::<f64>()
         / n)
         .sqrt()

@@ -4,7 +4,7 @@
 
 use learned_forces::arc::Arc;
 use learned_forces::fit::model::{FitModel, Parameter};
-use learned_forces::fit::{fit, FitOptions, FitResult, QuietFit};
+use learned_forces::fit::{fit, FitOptions, FitResult, QuietFit, ResidualValue};
 use learned_forces::scenario::{ScenarioSpec, TruthTerm};
 use propagator::integrator::{Method, Settings};
 use propagator::propagation::{Options, Request, Silent};
@@ -51,7 +51,7 @@ fn noise_free_arc_recovers_state_and_drag_scale() {
     );
     assert!(dr < 1e-5, "initial position off by {dr} km");
     assert!(((k - 1.3) / 1.3).abs() < 1e-6, "drag scale {k}");
-    assert!(!r.verdict.anomaly || r.rms_km < 1e-6);
+    assert!(!r.verdict.anomaly || r.rms_km.unwrap() < 1e-6);
 }
 
 #[test]
@@ -188,7 +188,7 @@ fn outliers_are_edited_and_reported() {
     let mut sim = spec.simulate(&path).unwrap();
     let bad = [100usize, 101, 500, 900, 1300];
     for &i in &bad {
-        sim.train.observations[i].r_km[1] += 0.3; // 300 m, 30σ
+        sim.train.observations[i].as_state_mut().unwrap().r_km[1] += 0.3; // 300 m, 30σ
     }
     let models = spec.models(&path).unwrap();
     let forces = models
@@ -223,6 +223,7 @@ fn too_short_or_degenerate_arcs_are_refused_clearly() {
     let models = spec.models(&path).unwrap();
     let two = Arc {
         observations: sim.train.observations[..2].to_vec(),
+        tracking: None,
     };
     let forces = models
         .known
@@ -266,7 +267,13 @@ fn velocity_observations_and_tracking_gaps() {
         dr < 5.0 * r.x0_sigma[..3].iter().map(|s| s * s).sum::<f64>().sqrt(),
         "{dr}"
     );
-    assert!(r.residuals.iter().all(|x| x.velocity_km_s.is_some()));
+    assert!(r.residuals.iter().all(|x| matches!(
+        x.value,
+        ResidualValue::State {
+            velocity_km_s: Some(_),
+            ..
+        }
+    )));
 }
 
 #[test]
@@ -307,7 +314,7 @@ fn fit_smooth(spec: &ScenarioSpec, path: &Path, sigma_km: f64) -> FitResult {
     let sim = spec.simulate(path).unwrap();
     let mut arc = sim.train.clone();
     for o in &mut arc.observations {
-        o.sigma_km = sigma_km;
+        o.as_state_mut().unwrap().sigma_km = sigma_km;
     }
     let forces = spec
         .models(path)
@@ -331,7 +338,7 @@ fn a_smooth_ephemeris_is_quiet_and_structure_that_matters_still_speaks() {
     // is. That must not be called an anomaly.
     let (spec, path) = scenario("quiet.yaml");
     let r = fit_smooth(&spec, &path, 0.01);
-    assert!(r.rms_km < 1e-5, "rms {} km", r.rms_km);
+    assert!(r.rms_km.unwrap() < 1e-5, "rms {:?} km", r.rms_km);
     assert!(!r.verdict.anomaly, "{:?}", r.verdict.reasons);
     assert!(r.verdict.structure.iter().all(|s| !s.counted));
 
@@ -340,7 +347,7 @@ fn a_smooth_ephemeris_is_quiet_and_structure_that_matters_still_speaks() {
     // alone (χ² is far below its dof there).
     let (vent, path) = scenario("venting.yaml");
     let probe = fit_smooth(&vent, &path, 0.01);
-    let rms_axis = probe.rms_km / 3f64.sqrt();
+    let rms_axis = probe.rms_km.unwrap() / 3f64.sqrt();
     let below = fit_smooth(&vent, &path, rms_axis / 0.2);
     assert!(!below.verdict.anomaly, "{:?}", below.verdict.reasons);
     let at = fit_smooth(&vent, &path, rms_axis / 0.7);

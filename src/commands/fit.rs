@@ -15,7 +15,8 @@ use std::path::{Path, PathBuf};
 /// Options of `arcwise fit`.
 #[derive(ClapArgs, Debug)]
 pub struct Args {
-    /// Observation arc (.csv, .oem or .sp3).
+    /// Observation arc (.csv, .oem or .sp3), or tracking measurements (.tdm, or .csv in
+    /// the measurement layout, with --sites).
     #[arg(long, value_name = "ARC.csv")]
     arc: PathBuf,
     /// Known force model.
@@ -83,10 +84,10 @@ pub fn load_and_fit(
 /// The JSON of a fit result (shared by `fit`, `learn` and `check`).
 pub fn fit_json(r: &FitResult) -> serde_json::Value {
     let v = &r.verdict;
-    serde_json::json!({
+    let mut j = serde_json::json!({
         "verdict": if v.anomaly { "anomaly" } else { "no_anomaly" },
         "verdict_reasons": v.reasons,
-        "rms_km": r.rms_km,
+        "rms_sigma": r.rms_sigma,
         "chi2": v.chi2,
         "dof": v.dof,
         "p_value": v.p_value,
@@ -109,7 +110,81 @@ pub fn fit_json(r: &FitResult) -> serde_json::Value {
         "parameters": r.estimates.iter().map(|e| serde_json::json!({
             "name": e.parameter.name(), "value": e.value, "sigma": e.sigma,
         })).collect::<Vec<_>>(),
+    });
+    if let Some(rms) = r.rms_km {
+        j["rms_km"] = rms.into();
+    }
+    j
+}
+
+/// The per-site, per-kind residual summary of a tracking fit (report block).
+pub fn tracking_json(r: &FitResult, arc: &Arc) -> serde_json::Value {
+    serde_json::json!({
+        "model": "two-way ranges with light time (site turning with the Earth); range rate at the down-leg instant; azimuth/elevation geometric, no refraction; RA/Dec astrometric (light time, no aberration), GCRF",
+        "residuals": r.channels(arc).iter().map(|c| {
+            let unit = c.kind.info().unit;
+            serde_json::json!({
+                "site": c.site, "measurement": c.kind.info().word, "unit": unit,
+                "count": c.count, "used": c.used, "mean": c.mean, "rms": c.rms,
+                "rms_sigma": c.rms_sigma,
+            })
+        }).collect::<Vec<_>>(),
     })
+}
+
+/// Draws a tracking fit's normalized residuals (residual / σ): one panel per kind of
+/// measurement, one series per site.
+pub fn plot_tracking_residuals(
+    path: &Path,
+    title: &str,
+    r: &FitResult,
+    arc: &Arc,
+) -> Result<(), CliError> {
+    use learned_forces::fit::ResidualValue;
+    let Some(t) = &arc.tracking else {
+        return Ok(());
+    };
+    let mut panels = Vec::new();
+    for info in propagator::tracking::measurement::Kind::TABLE {
+        let series: Vec<Series> = t
+            .sites
+            .iter()
+            .enumerate()
+            .filter_map(|(si, entry)| {
+                let points: Vec<(f64, f64)> = r
+                    .residuals
+                    .iter()
+                    .filter(|x| x.used)
+                    .filter_map(|x| match &x.value {
+                        ResidualValue::Tracking {
+                            site,
+                            kind,
+                            residual,
+                            sigma,
+                        } if *site == si && *kind == info.kind => {
+                            Some((x.t_s / 3600.0, residual / sigma))
+                        }
+                        _ => None,
+                    })
+                    .collect();
+                (!points.is_empty()).then(|| Series {
+                    name: entry.site.name.clone(),
+                    points,
+                    points_only: true,
+                })
+            })
+            .collect();
+        if series.is_empty() {
+            continue;
+        }
+        panels.push(Panel {
+            y_label: format!("{} residual / σ", info.word),
+            series,
+            levels: vec![("±1σ".to_string(), 1.0), ("±1σ".to_string(), -1.0)],
+            marks: vec![],
+        });
+    }
+    write_panels(path, title, &format!("hours since {}", r.epoch0), &panels)
 }
 
 /// Draws R, T, N residuals (m) against hours from the first observation.
@@ -122,8 +197,16 @@ pub fn plot_residuals(
     r: &FitResult,
     held_out_from_s: Option<f64>,
 ) -> Result<(), CliError> {
-    let used: Vec<_> = r.residuals.iter().filter(|x| x.used).collect();
-    let sigma_m = used.iter().map(|x| x.sigma_km).sum::<f64>() / used.len().max(1) as f64 * 1e3;
+    let sigmas: Vec<f64> = r
+        .residuals
+        .iter()
+        .filter(|x| x.used)
+        .filter_map(|x| match &x.value {
+            learned_forces::fit::ResidualValue::State { sigma_km, .. } => Some(*sigma_km),
+            learned_forces::fit::ResidualValue::Tracking { .. } => None,
+        })
+        .collect();
+    let sigma_m = sigmas.iter().sum::<f64>() / sigmas.len().max(1) as f64 * 1e3;
     let panels: Vec<Panel> = ["R", "T", "N"]
         .iter()
         .enumerate()
@@ -135,7 +218,7 @@ pub fn plot_residuals(
                     .residuals
                     .iter()
                     .filter(|x| x.used)
-                    .map(|x| (x.t_s / 3600.0, x.rtn_km[c] * 1e3))
+                    .filter_map(|x| Some((x.t_s / 3600.0, x.rtn_km()?[c] * 1e3)))
                     .collect(),
                 points_only: true,
             }],
@@ -155,7 +238,8 @@ pub fn plot_residuals(
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
     crate::paths::check_distinct(
-        &[("--arc", &a.arc), ("--forces", &a.forces)],
+        &a.arc_options
+            .inputs(&[("--arc", &a.arc), ("--forces", &a.forces)]),
         &crate::paths::given(&[
             ("--report", a.report.as_deref()),
             ("--plot", a.plot.as_deref()),
@@ -173,7 +257,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
     if !(a.alpha > 0.0 && a.alpha < 0.5) {
         return Err(CliError::input("--alpha must be between 0 and 0.5"));
     }
-    let (_, _, r, model_error) =
+    let (arc, _, r, model_error) =
         load_and_fit(&a.arc, &a.forces, &a.arc_options, (&estimate, &options))?;
     let v = &r.verdict;
     if model_error.floor_km > 0.0 {
@@ -183,10 +267,13 @@ pub fn run(a: Args) -> Result<(), CliError> {
             model_error.basis
         );
     }
+    let rms = match r.rms_km {
+        Some(km) => format!("RMS {:.2} m", km * 1e3),
+        None => format!("RMS {:.2} σ", r.rms_sigma),
+    };
     println!(
-        "fit of {} observations: RMS {:.2} m, χ² {:.1} on {} dof (p = {:.3}), {} edited, {} iterations{}",
+        "fit of {} observations: {rms}, χ² {:.1} on {} dof (p = {:.3}), {} edited, {} iterations{}",
         r.residuals.len(),
-        r.rms_km * 1e3,
         v.chi2,
         v.dof,
         v.p_value,
@@ -206,6 +293,19 @@ pub fn run(a: Args) -> Result<(), CliError> {
             e.sigma
         );
     }
+    for c in r.channels(&arc) {
+        println!(
+            "  {} {}: {} used of {}, mean {:+.3e}, RMS {:.3e} {} ({:.2} σ)",
+            c.site,
+            c.kind.info().word,
+            c.used,
+            c.count,
+            c.mean,
+            c.rms,
+            c.kind.info().unit,
+            c.rms_sigma
+        );
+    }
     if v.anomaly {
         println!("verdict: anomaly — the known forces do not explain this arc:");
         for reason in &v.reasons {
@@ -215,7 +315,12 @@ pub fn run(a: Args) -> Result<(), CliError> {
         println!("verdict: no_anomaly — the residuals are consistent with the stated noise");
     }
     if let Some(p) = &a.plot {
-        plot_residuals(p, &format!("Fit residuals, {}", a.arc.display()), &r, None)?;
+        let title = format!("Fit residuals, {}", a.arc.display());
+        if arc.tracking.is_some() {
+            plot_tracking_residuals(p, &title, &r, &arc)?;
+        } else {
+            plot_residuals(p, &title, &r, None)?;
+        }
     }
     if let Some(path) = &a.report {
         let mut j = fit_json(&r);
@@ -224,6 +329,9 @@ pub fn run(a: Args) -> Result<(), CliError> {
         j["arc_file"] = a.arc.display().to_string().into();
         j["forces_file"] = a.forces.display().to_string().into();
         j["model_error"] = super::model_error_json(&model_error);
+        if arc.tracking.is_some() {
+            j["tracking"] = tracking_json(&r, &arc);
+        }
         write_report(path, &j)?;
     }
     Ok(())

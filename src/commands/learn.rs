@@ -92,7 +92,11 @@ pub fn run(a: Args) -> Result<(), CliError> {
     let mut outputs: Vec<(&str, &Path)> = vec![("--out", &a.out)];
     outputs.extend(a.report.as_deref().map(|p| ("--report", p)));
     outputs.extend(plot_files.iter().map(|p| ("--plot", p.as_path())));
-    crate::paths::check_distinct(&[("--arc", &a.arc), ("--forces", &a.forces)], &outputs)?;
+    crate::paths::check_distinct(
+        &a.arc_options
+            .inputs(&[("--arc", &a.arc), ("--forces", &a.forces)]),
+        &outputs,
+    )?;
     let outside = checked_options(&a)?;
     let estimate = parse_estimate(&a.estimate)?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
@@ -268,7 +272,7 @@ fn summarize(l: &Learned, out: &Path) {
     let v = &l.base.verdict;
     println!(
         "base fit: RMS {:.2} m, χ² {:.1} on {} dof, verdict {}",
-        l.base.rms_km * 1e3,
+        l.base.rms_km.unwrap_or(f64::NAN) * 1e3,
         v.chi2,
         v.dof,
         if v.anomaly { "anomaly" } else { "no_anomaly" }
@@ -318,8 +322,8 @@ fn summarize(l: &Learned, out: &Path) {
             println!(
                 "learned: {}\n  RMS {:.2} m → {:.2} m; held-out {:.2} m (known forces: {:.2} m)",
                 c.terms.text(),
-                l.base.rms_km * 1e3,
-                c.fit.rms_km * 1e3,
+                l.base.rms_km.unwrap_or(f64::NAN) * 1e3,
+                c.fit.rms_km.unwrap_or(f64::NAN) * 1e3,
                 c.held_out_rms_km * 1e3,
                 l.held_out_rms_base_km.unwrap_or(f64::NAN) * 1e3
             );

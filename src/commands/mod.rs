@@ -32,6 +32,10 @@ pub struct ArcOptions {
     /// name their own frame; SP3 files are Earth-fixed.)
     #[arg(long, value_name = "FRAME", default_value = "GCRF")]
     pub frame: String,
+    /// The sensors of a tracking arc (a .tdm, or a .csv in the measurement layout): their
+    /// places, masks, σ and biases (YAML; see examples/sites/).
+    #[arg(long, value_name = "SITES.yaml")]
+    pub sites: Option<std::path::PathBuf>,
 }
 
 /// The frame a `--frame` value names, or an error saying which are known.
@@ -45,6 +49,18 @@ pub fn frame_option(value: &str) -> Result<propagator::frames::Frame, CliError> 
 }
 
 impl ArcOptions {
+    /// `inputs` and the sites file, if given: every path the command reads.
+    pub fn inputs<'a>(
+        &'a self,
+        inputs: &[(&'a str, &'a std::path::Path)],
+    ) -> Vec<(&'a str, &'a std::path::Path)> {
+        let mut all = inputs.to_vec();
+        if let Some(s) = &self.sites {
+            all.push(("--sites", s.as_path()));
+        }
+        all
+    }
+
     /// The arc reader's defaults, or an error naming the bad option.
     pub fn defaults(&self) -> Result<ArcDefaults, CliError> {
         if !(self.sigma_km.is_finite() && self.sigma_km > 0.0) {
@@ -57,10 +73,22 @@ impl ArcOptions {
             propagator::text::check_name("--object", o).map_err(CliError::input)?;
         }
         let frame = frame_option(&self.frame)?;
+        let sites = match &self.sites {
+            Some(path) => {
+                let text = propagator::input::read_text(path, propagator::input::MAX_CONFIG_BYTES)
+                    .map_err(|e| CliError::input(format!("{}: {e}", path.display())))?;
+                Some(
+                    propagator::tracking::sites_file::parse(&text, path)
+                        .map_err(CliError::input)?,
+                )
+            }
+            None => None,
+        };
         Ok(ArcDefaults {
             sigma_km: self.sigma_km,
             object: self.object.clone(),
             csv_frame: frame,
+            sites,
             ..ArcDefaults::default()
         })
     }

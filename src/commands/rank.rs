@@ -49,11 +49,11 @@ pub struct Args {
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
     crate::paths::check_distinct(
-        &[
+        &a.arc_options.inputs(&[
             ("--arc", &a.arc),
             ("--forces", &a.forces),
             ("--hypotheses", &a.hypotheses),
-        ],
+        ]),
         &crate::paths::given(&[
             ("--report", a.report.as_deref()),
             ("--plot", a.plot.as_deref()),

@@ -1,18 +1,19 @@
 //! The anomaly verdict: χ² of the normalized residuals and Ljung–Box structure per
-//! component.
+//! series (RTN components, or each site's kind of measurement).
 
 use super::*;
 
-/// The verdict on the normalized residuals `z` with `dof` degrees of freedom.
+/// The verdict on the normalized residuals `z` with `dof` degrees of freedom and the
+/// normalized `series` (name, used residuals in time order) the structure is tested on.
 pub(super) fn verdict(
     z: &DVector<f64>,
     dof: usize,
-    residuals: &[Residual],
+    series: &[(String, Vec<f64>)],
     options: &FitOptions,
 ) -> Verdict {
     let chi2 = z.norm_squared();
     let p_value = stats::chi2_sf(chi2, dof.max(1) as f64);
-    let per_test = options.alpha / 4.0;
+    let per_test = options.alpha / (1 + series.len()) as f64;
     let mut reasons = Vec::new();
     if p_value < per_test {
         reasons.push(format!(
@@ -20,13 +21,8 @@ pub(super) fn verdict(
         ));
     }
     let mut structure = Vec::new();
-    for (c, name) in ["R", "T", "N"].iter().enumerate() {
-        let series: Vec<f64> = residuals
-            .iter()
-            .filter(|r| r.used)
-            .map(|r| r.rtn_km[c] / r.sigma_km)
-            .collect();
-        let (q, p) = stats::ljung_box(&series, options.ljung_box_lags);
+    for (name, series) in series {
+        let (q, p) = stats::ljung_box(series, options.ljung_box_lags);
         let rms_sigma =
             (series.iter().map(|v| v * v).sum::<f64>() / series.len().max(1) as f64).sqrt();
         let counted = rms_sigma >= options.structure_floor_sigma;
@@ -37,7 +33,7 @@ pub(super) fn verdict(
             ));
         }
         structure.push(StructureTest {
-            component: name,
+            component: name.clone(),
             q,
             lags: options.ljung_box_lags,
             p_value: p,

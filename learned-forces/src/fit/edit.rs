@@ -6,9 +6,10 @@ use super::*;
 /// Edits observations beyond `k` robust σ; returns how many were newly edited.
 ///
 /// An outlier is judged against its neighbours: each normalized residual component minus
-/// a straight line fitted to the 10 used observations around it (itself left out), so
-/// that a smooth systematic signal (an unmodelled force) is not mistaken for outliers
-/// and edited away.
+/// a straight line fitted to the 10 used observations around it in the same channel
+/// (position axis, or a site's kind of measurement; itself left out), so that a smooth
+/// systematic signal (an unmodelled force) is not mistaken for outliers and edited away,
+/// and a bad range does not take the angles with it.
 pub(super) fn edit(
     problem: &Problem,
     lin: &Linearized,
@@ -17,31 +18,47 @@ pub(super) fn edit(
     k: f64,
 ) -> usize {
     let n = used.len();
-    let z: Vec<[f64; 3]> = lin
+    // Each observation's normalized residuals by channel (positions: x, y, z; a
+    // measurement: its site and kind), so each kind is judged against its own series.
+    let mut rows = Vec::new();
+    let z: Vec<Vec<(usize, f64)>> = lin
         .samples
         .iter()
         .enumerate()
         .map(|(i, s)| {
-            let o = &problem.arc.observations[i];
-            let d = o.r_km - Vector3::new(s.state[0], s.state[1], s.state[2]);
-            [d[0] / o.sigma_km, d[1] / o.sigma_km, d[2] / o.sigma_km]
+            rows.clear();
+            // A measurement that cannot be modelled here was already refused by the
+            // linearization that produced these samples.
+            let _ = problem.observing.rows(i, &s.state, &mut rows);
+            rows.iter()
+                .filter_map(|r| r.channel.map(|c| (c, r.z)))
+                .collect()
         })
         .collect();
-    let idx: Vec<usize> = (0..n).filter(|&i| used[i]).collect();
-    let mut dev = vec![0.0f64; n];
-    let mut all = Vec::with_capacity(3 * idx.len());
-    const HALF: usize = 5;
-    for (p, &i) in idx.iter().enumerate() {
-        let lo = p.saturating_sub(HALF);
-        let hi = (p + HALF + 1).min(idx.len());
-        let others: Vec<usize> = idx[lo..hi].iter().copied().filter(|&j| j != i).collect();
-        let mut worst: f64 = 0.0;
-        for c in 0..3 {
-            let d = (z[i][c] - line_at(&others, &problem.t, |j| z[j][c], problem.t[i])).abs();
-            worst = worst.max(d);
-            all.push(d);
+    let mut by_channel: Vec<Vec<usize>> = vec![Vec::new(); problem.observing.channels()];
+    for i in (0..n).filter(|&i| used[i]) {
+        for (c, _) in &z[i] {
+            by_channel[*c].push(i);
         }
-        dev[i] = worst;
+    }
+    let mut dev = vec![0.0f64; n];
+    // The neighbourhood an observation is compared in (its first channel's).
+    let mut hood: Vec<(usize, usize, usize)> = vec![(0, 0, 0); n];
+    let mut all = Vec::with_capacity(3 * n);
+    const HALF: usize = 5;
+    for (c, idx) in by_channel.iter().enumerate() {
+        for (p, &i) in idx.iter().enumerate() {
+            let lo = p.saturating_sub(HALF);
+            let hi = (p + HALF + 1).min(idx.len());
+            let others: Vec<usize> = idx[lo..hi].iter().copied().filter(|&j| j != i).collect();
+            let value = |j: usize| z[j].iter().find(|(cj, _)| *cj == c).map_or(0.0, |v| v.1);
+            let d = (value(i) - line_at(&others, &problem.t, value, problem.t[i])).abs();
+            dev[i] = dev[i].max(d);
+            all.push(d);
+            if z[i].first().map(|v| v.0) == Some(c) {
+                hood[i] = (c, lo, hi);
+            }
+        }
     }
     all.sort_by(|a, b| a.total_cmp(b));
     // |x − line through 10 neighbours| of white noise has a median of about 0.71σ.
@@ -51,12 +68,14 @@ pub(super) fn edit(
     let mut new = 0;
     let max_edits = n / 5;
     let mut edited = used.iter().filter(|u| !**u).count();
-    for (p, &i) in idx.iter().enumerate() {
+    for i in 0..n {
+        if !used[i] || z[i].is_empty() {
+            continue;
+        }
         // Only the worst of a neighbourhood goes per pass: an outlier also pulls the
         // lines of its neighbours, which must not be edited with it.
-        let lo = p.saturating_sub(HALF);
-        let hi = (p + HALF + 1).min(idx.len());
-        let local_max = idx[lo..hi]
+        let (c, lo, hi) = hood[i];
+        let local_max = by_channel[c][lo..hi]
             .iter()
             .all(|&j| j == i || dev[j] < dev[i] || (dev[j] == dev[i] && j > i));
         if local_max && dev[i] > threshold && edited < max_edits {

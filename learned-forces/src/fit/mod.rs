@@ -8,9 +8,11 @@
 
 mod anomaly;
 mod edit;
+mod initial;
 mod lsq;
 pub mod model;
 mod result;
+mod rows;
 pub mod stats;
 
 use anomaly::verdict;
@@ -18,7 +20,7 @@ use edit::edit;
 use lsq::{covariance, Reduced};
 pub use result::*;
 
-use crate::arc::Arc;
+use crate::arc::{Arc, Observed};
 use crate::termination::Termination;
 use model::{FitModel, Parameter};
 use nalgebra::{DMatrix, DVector, Vector3};
@@ -27,6 +29,7 @@ use propagator::integrator::{Method, Settings};
 use propagator::propagation::{Options, Request, Silent};
 use propagator::variational::{propagate_with_partials, VariationalSample};
 use propagator::{Epoch, StateVector};
+pub(crate) use rows::Observing;
 
 /// Receives progress of a fit (for a progress display; the numerics ignore it).
 pub trait FitObserver {
@@ -111,6 +114,7 @@ struct Problem<'a> {
     arc: &'a Arc,
     t: Vec<f64>,
     options: &'a FitOptions,
+    observing: Observing<'a>,
 }
 
 impl Problem<'_> {
@@ -147,37 +151,32 @@ impl Problem<'_> {
         n_est: usize,
     ) -> Result<Linearized, FitError> {
         let samples = self.propagate(fm, x0, last)?;
-        let rows: usize = (0..=last)
+        let n_rows: usize = (0..=last)
             .filter(|&i| used[i])
-            .map(|i| {
-                if self.arc.observations[i].v_km_s.is_some() {
-                    6
-                } else {
-                    3
-                }
-            })
+            .map(|i| self.observing.count(i))
             .sum();
-        let mut jac = DMatrix::zeros(rows, n_est);
-        let mut z = DVector::zeros(rows);
+        let mut jac = DMatrix::zeros(n_rows, n_est);
+        let mut z = DVector::zeros(n_rows);
         let mut row = 0;
+        let mut rows = Vec::with_capacity(6);
         for (i, s) in samples.iter().enumerate() {
             if !used[i] {
                 continue;
             }
-            let o = &self.arc.observations[i];
-            let comps = if o.v_km_s.is_some() { 6 } else { 3 };
-            for c in 0..comps {
-                let (obs, sig) = if c < 3 {
-                    (o.r_km[c], o.sigma_km)
-                } else {
-                    (o.v_km_s.unwrap_or_default()[c - 3], o.sigma_km_s)
-                };
-                z[row] = (obs - s.state[c]) / sig;
+            rows.clear();
+            self.observing
+                .rows(i, &s.state, &mut rows)
+                .map_err(|e| self.measurement_error(i, e))?;
+            for r in &rows {
+                z[row] = r.z;
                 for j in 0..6 {
-                    jac[(row, j)] = s.phi[(c, j)] / sig;
+                    jac[(row, j)] = (0..6).map(|k| r.h[k] * s.phi[(k, j)]).sum::<f64>() / r.sigma;
                 }
-                for k in 6..n_est {
-                    jac[(row, k)] = s.sensitivity[(c, k - 6)] / sig;
+                for p in 6..n_est {
+                    jac[(row, p)] = (0..6)
+                        .map(|k| r.h[k] * s.sensitivity[(k, p - 6)])
+                        .sum::<f64>()
+                        / r.sigma;
                 }
                 row += 1;
             }
@@ -188,7 +187,7 @@ impl Problem<'_> {
         }
         // A NaN partial would stall the step's decomposition; the model is not
         // differentiable at this iterate (an overflowing learned term, say).
-        if jac.iter().any(|v| !v.is_finite()) {
+        if jac.iter().any(|v: &f64| !v.is_finite()) {
             return Err(FitError::Propagation(
                 "non-finite partials of the residuals (the model is not differentiable here)"
                     .into(),
@@ -201,46 +200,12 @@ impl Problem<'_> {
             samples,
         })
     }
-}
 
-/// A starting state from the data: the first observed velocity, or a polynomial fit
-/// of the first positions (at most 15, within 600 s).
-fn initial_guess(arc: &Arc, t: &[f64]) -> Result<StateVector, FitError> {
-    let o0 = &arc.observations[0];
-    if let Some(v) = o0.v_km_s {
-        return Ok(StateVector::new(
-            o0.r_km[0], o0.r_km[1], o0.r_km[2], v[0], v[1], v[2],
-        ));
+    /// A measurement that cannot be modelled, with its line.
+    fn measurement_error(&self, i: usize, e: String) -> FitError {
+        let o = &self.arc.observations[i];
+        FitError::Propagation(format!("observation at {} (line {}): {e}", o.epoch, o.line))
     }
-    let k = t
-        .iter()
-        .take(15)
-        .take_while(|&&ti| ti <= 600.0)
-        .count()
-        .max(3.min(t.len()));
-    if k < 3 {
-        return Err(FitError::Unfit(
-            "a position-only arc needs at least 3 observations to start the fit".into(),
-        ));
-    }
-    let deg = (k - 1).min(3);
-    let mut a = DMatrix::zeros(k, deg + 1);
-    for i in 0..k {
-        for d in 0..=deg {
-            a[(i, d)] = t[i].powi(d as i32);
-        }
-    }
-    let svd = a.svd(true, true);
-    let mut x = StateVector::zeros();
-    for c in 0..3 {
-        let b = DVector::from_iterator(k, (0..k).map(|i| arc.observations[i].r_km[c]));
-        let coef = svd
-            .solve(&b, 1e-14)
-            .map_err(|e| FitError::Unfit(e.to_string()))?;
-        x[c] = coef[0];
-        x[c + 3] = if deg >= 1 { coef[1] } else { 0.0 };
-    }
-    Ok(x)
 }
 
 /// Fits `arc` with `model` — the known forces (whose time axis must start at the arc's
@@ -262,11 +227,8 @@ pub fn fit(
     let parameters = model.parameters();
     let n_params = parameters.len();
     let n_est = 6 + n_params;
-    let n_meas: usize = arc
-        .observations
-        .iter()
-        .map(|o| if o.v_km_s.is_some() { 6 } else { 3 })
-        .sum();
+    let observing = Observing::new(arc, propagator::CentralBody::EARTH_EGM96.mu_km3_s2);
+    let n_meas: usize = (0..n_obs).map(|i| observing.count(i)).sum();
     if n_meas <= n_est {
         return Err(FitError::Unfit(format!(
             "the arc has {n_obs} observations ({n_meas} measurements), too few to estimate {n_est} quantities"
@@ -276,11 +238,12 @@ pub fn fit(
         arc,
         t: t.clone(),
         options,
+        observing,
     };
     let mut fm = model;
     let mut x0 = match options.initial_state {
         Some(x) => x,
-        None => initial_guess(arc, &t)?,
+        None => initial::initial_guess(arc, &t, problem.observing.mu_km3_s2())?,
     };
     let stage_ends = stage_ends(&t, options.initial_state.is_none());
     let mut editing = Editing {
@@ -302,9 +265,14 @@ pub fn fit(
             "the arc does not determine the orbit: rank {rank} of {n_est} (arc too short, too few observations, or a parameter with no effect)"
         )));
     }
-    let (residuals, rms_km) = residuals(arc, &t, &lin.samples, &used, &reasons);
+    let (residuals, rms_km) = residuals(&problem, &lin.samples, &used, &reasons)?;
     let dof = lin.z.len().saturating_sub(n_est);
-    let mut verdict = verdict(&lin.z, dof, &residuals, options);
+    let mut verdict = verdict(
+        &lin.z,
+        dof,
+        &structure_series(&problem, &residuals),
+        options,
+    );
     if !termination.converged() {
         // Say it first: every number after it describes the last iterate, not a
         // least-squares solution.
@@ -340,6 +308,7 @@ pub fn fit(
         covariance: cov,
         residuals,
         rms_km,
+        rms_sigma: (lin.cost / lin.z.len().max(1) as f64).sqrt(),
         edited: used.iter().filter(|u| !**u).count(),
         iterations,
         termination,
@@ -439,37 +408,100 @@ fn run_stages(
 }
 
 /// Residuals of every observation (edited ones too) from the final solution's samples,
-/// and the position RMS of the used ones, km.
+/// and, for a state arc, the position RMS of the used ones, km.
 fn residuals(
-    arc: &Arc,
-    t: &[f64],
+    problem: &Problem,
     samples: &[VariationalSample],
     used: &[bool],
     reasons: &[Option<String>],
-) -> (Vec<Residual>, f64) {
+) -> Result<(Vec<Residual>, Option<f64>), FitError> {
     let mut residuals = Vec::with_capacity(samples.len());
     let (mut sum_sq, mut n_used) = (0.0, 0usize);
+    let mut rows = Vec::new();
     for (i, s) in samples.iter().enumerate() {
-        let o = &arc.observations[i];
+        let o = &problem.arc.observations[i];
         let r = Vector3::new(s.state[0], s.state[1], s.state[2]);
         let v = Vector3::new(s.state[3], s.state[4], s.state[5]);
-        let d = o.r_km - r;
-        let rtn = eci_to_rtn(&r, &v).map(|m| m * d).unwrap_or(d);
-        if used[i] {
-            sum_sq += d.norm_squared();
-            n_used += 1;
-        }
+        let value = match &o.observed {
+            Observed::State(so) => {
+                let d = so.r_km - r;
+                if used[i] {
+                    sum_sq += d.norm_squared();
+                    n_used += 1;
+                }
+                ResidualValue::State {
+                    rtn_km: eci_to_rtn(&r, &v).map(|m| m * d).unwrap_or(d),
+                    velocity_km_s: so.v_km_s.map(|ov| ov - v),
+                    sigma_km: so.sigma_km,
+                }
+            }
+            Observed::Tracking(m) => {
+                rows.clear();
+                problem
+                    .observing
+                    .rows(i, &s.state, &mut rows)
+                    .map_err(|e| problem.measurement_error(i, e))?;
+                ResidualValue::Tracking {
+                    site: m.site,
+                    kind: m.kind,
+                    residual: rows.first().map_or(0.0, |r| r.z) * m.sigma,
+                    sigma: m.sigma,
+                }
+            }
+        };
         residuals.push(Residual {
             epoch: o.epoch,
-            t_s: t[i],
-            rtn_km: rtn,
-            velocity_km_s: o.v_km_s.map(|ov| ov - v),
-            sigma_km: o.sigma_km,
+            t_s: problem.t[i],
+            value,
             used: used[i],
             edit_reason: reasons[i].clone(),
         });
     }
-    (residuals, (sum_sq / n_used.max(1) as f64).sqrt())
+    let rms = (problem.arc.tracking.is_none()).then(|| (sum_sq / n_used.max(1) as f64).sqrt());
+    Ok((residuals, rms))
+}
+
+/// The series the structure tests run on: the RTN components of a state arc's
+/// normalized position residuals, or each tracking channel (site and kind) of a
+/// measurement arc, used observations only, in time order.
+fn structure_series(problem: &Problem, residuals: &[Residual]) -> Vec<(String, Vec<f64>)> {
+    if problem.arc.tracking.is_none() {
+        return ["R", "T", "N"]
+            .iter()
+            .enumerate()
+            .map(|(c, name)| {
+                let series = residuals
+                    .iter()
+                    .filter(|r| r.used)
+                    .filter_map(|r| match &r.value {
+                        ResidualValue::State {
+                            rtn_km, sigma_km, ..
+                        } => Some(rtn_km[c] / sigma_km),
+                        ResidualValue::Tracking { .. } => None,
+                    })
+                    .collect();
+                (name.to_string(), series)
+            })
+            .collect();
+    }
+    let mut series: Vec<Vec<f64>> = vec![Vec::new(); problem.observing.channels()];
+    for r in residuals.iter().filter(|r| r.used) {
+        if let ResidualValue::Tracking {
+            site,
+            kind,
+            residual,
+            sigma,
+        } = &r.value
+        {
+            series[rows::channel(*site, *kind)].push(residual / sigma);
+        }
+    }
+    series
+        .into_iter()
+        .enumerate()
+        .filter(|(_, s)| !s.is_empty())
+        .map(|(c, s)| (problem.observing.channel_name(c), s))
+        .collect()
 }
 
 #[allow(clippy::too_many_arguments)]

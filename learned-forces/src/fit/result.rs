@@ -10,16 +10,47 @@ pub struct Residual {
     pub epoch: Epoch,
     /// Seconds from the first observation.
     pub t_s: f64,
-    /// Position residual in RTN of the fitted state, km.
-    pub rtn_km: Vector3<f64>,
-    /// Velocity residual in ECI, km/s, when velocity was observed.
-    pub velocity_km_s: Option<Vector3<f64>>,
-    /// σ of the position, km.
-    pub sigma_km: f64,
+    /// The residual itself.
+    pub value: ResidualValue,
     /// Used in the fit (false: edited out).
     pub used: bool,
     /// Why it was edited.
     pub edit_reason: Option<String>,
+}
+
+/// The residual of a state or of a measurement.
+#[derive(Clone, Debug, PartialEq)]
+pub enum ResidualValue {
+    /// A state observation's.
+    State {
+        /// Position residual in RTN of the fitted state, km.
+        rtn_km: Vector3<f64>,
+        /// Velocity residual in ECI, km/s, when velocity was observed.
+        velocity_km_s: Option<Vector3<f64>>,
+        /// σ of the position, km.
+        sigma_km: f64,
+    },
+    /// A tracking measurement's (bias removed).
+    Tracking {
+        /// The site's index in the arc's sites.
+        site: usize,
+        /// What was measured.
+        kind: propagator::tracking::measurement::Kind,
+        /// Observed − modelled, model units (km, km/s, rad).
+        residual: f64,
+        /// Its σ, model units.
+        sigma: f64,
+    },
+}
+
+impl Residual {
+    /// The RTN position residual (km) of a state observation.
+    pub fn rtn_km(&self) -> Option<&Vector3<f64>> {
+        match &self.value {
+            ResidualValue::State { rtn_km, .. } => Some(rtn_km),
+            ResidualValue::Tracking { .. } => None,
+        }
+    }
 }
 
 /// A fitted parameter.
@@ -33,11 +64,12 @@ pub struct Estimate {
     pub sigma: f64,
 }
 
-/// The Ljung–Box test on one residual component.
+/// The Ljung–Box test on one residual series.
 #[derive(Clone, Debug, PartialEq)]
 pub struct StructureTest {
-    /// `R`, `T` or `N`.
-    pub component: &'static str,
+    /// `R`, `T` or `N` for a state arc; the site and kind (`ALPHA range_km`) for a
+    /// tracking arc.
+    pub component: String,
     /// Q statistic.
     pub q: f64,
     /// Lags (the χ² degrees of freedom of Q).
@@ -62,9 +94,10 @@ pub struct Verdict {
     pub dof: usize,
     /// P(χ² ≥ observed) under the noise model.
     pub p_value: f64,
-    /// Residual structure per RTN component.
+    /// Residual structure per RTN component (state arcs) or per site and kind (tracking).
     pub structure: Vec<StructureTest>,
-    /// Test size; each of the four tests is run at α/4 (Bonferroni).
+    /// Test size; each of the tests (χ² and one per structure series) is run at α over
+    /// their number (Bonferroni).
     pub alpha: f64,
     /// Sentences saying which tests failed.
     pub reasons: Vec<String>,
@@ -89,8 +122,11 @@ pub struct FitResult {
     pub covariance: DMatrix<f64>,
     /// Residuals of every observation.
     pub residuals: Vec<Residual>,
-    /// RMS of the 3-D position residuals of the used observations, km.
-    pub rms_km: f64,
+    /// RMS of the 3-D position residuals of the used observations, km (state arcs; a
+    /// tracking arc has no positions).
+    pub rms_km: Option<f64>,
+    /// RMS of the used normalized residuals (residual / σ), every row.
+    pub rms_sigma: f64,
     /// Observations edited out.
     pub edited: usize,
     /// Gauss–Newton iterations in all.
@@ -127,5 +163,77 @@ impl FitResult {
                 })
             })
             .collect()
+    }
+}
+
+/// The residuals of one site's kind of measurement (a tracking fit's summary line).
+#[derive(Clone, Debug, PartialEq)]
+pub struct ChannelSummary {
+    /// The site's name.
+    pub site: String,
+    /// What it measured.
+    pub kind: propagator::tracking::measurement::Kind,
+    /// Measurements in all.
+    pub count: usize,
+    /// Measurements used (not edited).
+    pub used: usize,
+    /// Mean of the used residuals, in the kind's file unit (km, km/s, deg).
+    pub mean: f64,
+    /// RMS of the used residuals, file unit.
+    pub rms: f64,
+    /// RMS of the used normalized residuals (residual / σ).
+    pub rms_sigma: f64,
+}
+
+impl FitResult {
+    /// Per site and kind, the residuals of a tracking fit of `arc` (empty for states).
+    pub fn channels(&self, arc: &Arc) -> Vec<ChannelSummary> {
+        let Some(t) = &arc.tracking else {
+            return vec![];
+        };
+        let mut out: Vec<ChannelSummary> = Vec::new();
+        let mut sums: Vec<(f64, f64, f64)> = Vec::new();
+        for r in &self.residuals {
+            let ResidualValue::Tracking {
+                site,
+                kind,
+                residual,
+                sigma,
+            } = &r.value
+            else {
+                continue;
+            };
+            let name = &t.sites[*site].site.name;
+            let k = match out.iter().position(|c| &c.site == name && c.kind == *kind) {
+                Some(k) => k,
+                None => {
+                    out.push(ChannelSummary {
+                        site: name.clone(),
+                        kind: *kind,
+                        count: 0,
+                        used: 0,
+                        mean: 0.0,
+                        rms: 0.0,
+                        rms_sigma: 0.0,
+                    });
+                    sums.push((0.0, 0.0, 0.0));
+                    out.len() - 1
+                }
+            };
+            out[k].count += 1;
+            if r.used {
+                let v = residual / kind.info().to_model;
+                out[k].used += 1;
+                sums[k].0 += v;
+                sums[k].1 += v * v;
+                sums[k].2 += (residual / sigma).powi(2);
+            }
+        }
+        for (c, (s, ss, zz)) in out.iter_mut().zip(sums) {
+            let n = c.used.max(1) as f64;
+            (c.mean, c.rms, c.rms_sigma) = (s / n, (ss / n).sqrt(), (zz / n).sqrt());
+        }
+        out.sort_by(|a, b| a.site.cmp(&b.site).then(a.kind.cmp(&b.kind)));
+        out
     }
 }

@@ -27,9 +27,11 @@ impl HoldOut {
             .partition(|o| o.epoch.seconds_since(&arc.start()) <= cut_s);
         let train = Arc {
             observations: train_obs.into_iter().copied().collect(),
+            tracking: arc.tracking.clone(),
         };
         let held = Arc {
             observations: held_obs.into_iter().copied().collect(),
+            tracking: arc.tracking.clone(),
         };
         if train.observations.len() < 10 || held.observations.is_empty() {
             return Err(LearnError::Unfit(

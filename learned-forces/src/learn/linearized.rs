@@ -22,14 +22,12 @@ type Track = Vec<Value<f64>>;
 pub struct ObsRow {
     /// Index in the grid.
     pub grid_index: usize,
-    /// Φ(t_i, t0).
-    pub phi: Matrix6<f64>,
     /// First row in the stacked residual.
     pub row: usize,
-    /// Measured components: 3 (position) or 6 (position and velocity).
-    pub comps: usize,
-    /// 1σ of each component.
-    pub sigma: [f64; 6],
+    /// Each of its rows' partials with respect to the initial state, (∂computed/∂x)·Φ(t_i,
+    /// t0) — a position component's Φ row, a measurement's partials through its model —
+    /// and the row's σ.
+    pub h_phi: Vec<([f64; 6], f64)>,
 }
 
 /// The precomputed linearized problem.
@@ -223,12 +221,12 @@ impl Problem {
         let mut col = DVector::zeros(self.rows());
         for o in &self.obs {
             let f = f_at(o.grid_index);
-            for c in 0..o.comps {
+            for (c, (h, sigma)) in o.h_phi.iter().enumerate() {
                 let mut s = 0.0;
-                for (j, fj) in f.iter().enumerate() {
-                    s += o.phi[(c, j)] * fj;
+                for (hj, fj) in h.iter().zip(&f) {
+                    s += hj * fj;
                 }
-                col[o.row + c] = s / o.sigma[c];
+                col[o.row + c] = s / sigma;
             }
         }
         col

@@ -196,6 +196,11 @@ pub fn learn(
     fit_observer: &mut dyn FitObserver,
     search_observer: &dyn SearchObserver,
 ) -> Result<Learned, LearnError> {
+    if arc.tracking.is_some() {
+        return Err(LearnError::Unfit(
+            "learning from tracking measurements is not available yet: fit them with `arcwise fit`, or learn from a position arc".into(),
+        ));
+    }
     let l = Learner {
         arc,
         make_model,

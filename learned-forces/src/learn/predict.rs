@@ -5,15 +5,16 @@ use super::LearnError;
 use crate::arc::Arc;
 use crate::expr::{Context, Node};
 use crate::fit::model::{ExtraTerms, FitModel, Parameter};
-use crate::fit::{FitOptions, FitResult};
+use crate::fit::{FitOptions, FitResult, Observing};
 use nalgebra::Vector3;
 use propagator::propagation::{Options, Request, Silent};
 use propagator::variational::propagate_with_partials;
 use propagator::ForceModel;
 
-/// Position RMS (km) of `target`'s observations as predicted from a fit: the fit's state
-/// at its first observation, its parameters, and `nodes` as extra terms (coefficients and
-/// constants from the fit's estimates), propagated under `model`.
+/// RMS of `target`'s observations as predicted from a fit — the 3-D position error, km,
+/// for a state arc; the normalized residual (σ units) for a tracking arc — the fit's
+/// state at its first observation, its parameters, and `nodes` as extra terms
+/// (coefficients and constants from the fit's estimates), propagated under `model`.
 pub fn prediction_rms(
     model: ForceModel,
     fitted: &FitResult,
@@ -28,9 +29,18 @@ pub fn prediction_rms(
         .map(|o| o.epoch.seconds_since(&fitted.epoch0))
         .collect();
     let states = trajectory(model, fitted, nodes, context, &times, fit_options)?;
+    let observing = Observing::new(target, propagator::CentralBody::EARTH_EGM96.mu_km3_s2);
     let mut ss = 0.0;
-    for (x, o) in states.iter().zip(&target.observations) {
-        ss += (o.r_km - Vector3::new(x[0], x[1], x[2])).norm_squared();
+    let mut rows = Vec::new();
+    for (i, (x, o)) in states.iter().zip(&target.observations).enumerate() {
+        match o.as_state() {
+            Some(s) => ss += (s.r_km - Vector3::new(x[0], x[1], x[2])).norm_squared(),
+            None => {
+                rows.clear();
+                observing.rows(i, x, &mut rows).map_err(LearnError::Unfit)?;
+                ss += rows.iter().map(|r| r.z * r.z).sum::<f64>();
+            }
+        }
     }
     Ok((ss / states.len().max(1) as f64).sqrt())
 }

@@ -49,7 +49,8 @@ pub fn predicts_as_well(rms: f64, best: f64, held: &Arc, tolerance: f64) -> bool
     let s2 = held
         .observations
         .iter()
-        .map(|o| o.sigma_km * o.sigma_km)
+        // A tracking arc's RMS is already in σ units.
+        .map(|o| o.as_state().map_or(1.0, |s| s.sigma_km * s.sigma_km))
         .sum::<f64>()
         / n;
     let chi2 = |x: f64| n * x * x / s2.max(1e-300);

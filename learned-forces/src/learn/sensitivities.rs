@@ -2,6 +2,7 @@
 //! problem every candidate is solved in without another integration.
 
 use super::*;
+use crate::fit::Observing;
 use linearized::ObsRow;
 use nalgebra::Matrix6;
 use propagator::propagation::{output_grid, Options, Request, Silent};
@@ -39,26 +40,34 @@ impl Learner<'_> {
             .map_err(|e| LearnError::Unfit(e.to_string()))?;
         let states: Vec<_> = samples.iter().map(|s| s.state).collect();
         let phis: Vec<Matrix6<f64>> = samples.iter().map(|s| s.phi).collect();
+        let observing = Observing::new(train, propagator::CentralBody::EARTH_EGM96.mu_km3_s2);
         let mut rows = Vec::new();
         let mut row = 0;
-        for (i, o) in train.observations.iter().enumerate() {
+        let mut scratch = Vec::new();
+        for i in 0..train.observations.len() {
             if !base.residuals[i].used {
                 continue;
             }
             let gi = grid.partition_point(|g| *g < t_obs[i] - 1e-6);
-            let comps = if o.v_km_s.is_some() { 6 } else { 3 };
-            let mut sigma = [o.sigma_km; 6];
-            for s in sigma.iter_mut().skip(3) {
-                *s = o.sigma_km_s;
-            }
+            scratch.clear();
+            observing
+                .rows(i, &states[gi], &mut scratch)
+                .map_err(LearnError::Unfit)?;
+            let h_phi: Vec<([f64; 6], f64)> = scratch
+                .iter()
+                .map(|r| {
+                    let hp =
+                        std::array::from_fn(|j| (0..6).map(|k| r.h[k] * phis[gi][(k, j)]).sum());
+                    (hp, r.sigma)
+                })
+                .collect();
+            let n = h_phi.len();
             rows.push(ObsRow {
                 grid_index: gi,
-                phi: phis[gi],
                 row,
-                comps,
-                sigma,
+                h_phi,
             });
-            row += comps;
+            row += n;
         }
         if row != base.weighted_residual.len() {
             return Err(LearnError::Unfit(

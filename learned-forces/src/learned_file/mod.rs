@@ -259,7 +259,12 @@ impl LearnedFile {
     ) -> Self {
         let l = learned;
         let r = context.radius_km;
-        let heights: Vec<f64> = arc.observations.iter().map(|o| o.r_km.norm() - r).collect();
+        // `learn` refuses tracking arcs, so every observation here is a position.
+        let heights: Vec<f64> = arc
+            .observations
+            .iter()
+            .filter_map(|o| o.as_state().map(|s| s.r_km.norm() - r))
+            .collect();
         let span = arc.end().seconds_since(&arc.start());
         let observations = arc.observations.len();
         let (terms, constants) = l
@@ -270,8 +275,8 @@ impl LearnedFile {
             Some(c) => (
                 FitEntry {
                     observations,
-                    rms_km_before: l.base.rms_km,
-                    rms_km_after: c.fit.rms_km,
+                    rms_km_before: l.base.rms_km.unwrap_or(f64::NAN),
+                    rms_km_after: c.fit.rms_km.unwrap_or(f64::NAN),
                     held_out_rms_km: c.held_out_rms_km,
                     chi2: c.fit.verdict.chi2,
                     dof: c.fit.verdict.dof,
@@ -281,8 +286,8 @@ impl LearnedFile {
             None => (
                 FitEntry {
                     observations,
-                    rms_km_before: l.base.rms_km,
-                    rms_km_after: l.base.rms_km,
+                    rms_km_before: l.base.rms_km.unwrap_or(f64::NAN),
+                    rms_km_after: l.base.rms_km.unwrap_or(f64::NAN),
                     held_out_rms_km: l.held_out_rms_base_km.unwrap_or(f64::NAN).max(0.0),
                     chi2: l.base.verdict.chi2,
                     dof: l.base.verdict.dof,

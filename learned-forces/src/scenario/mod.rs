@@ -17,6 +17,7 @@ use rand_core::{Rng, SeedableRng};
 use serde::Deserialize;
 use std::path::Path;
 
+mod sensing;
 mod truth;
 pub use truth::*;
 
@@ -362,6 +363,17 @@ impl ScenarioSpec {
 
     /// Runs the scenario: truth propagation, sampling, noise.
     pub fn simulate(&self, path: &Path) -> Result<Simulated, ScenarioError> {
+        self.simulate_with(path, None)
+    }
+
+    /// Runs the scenario; with `sensors`, the arcs are what those sites measure at each
+    /// sampling epoch they see the object (`sensing.rs`; the pass schedule and the
+    /// position σ are then unused) instead of noisy positions.
+    pub fn simulate_with(
+        &self,
+        path: &Path,
+        sensors: Option<&std::sync::Arc<crate::arc::Tracking>>,
+    ) -> Result<Simulated, ScenarioError> {
         let err = |m: String| ScenarioError {
             file: path.display().to_string(),
             message: m,
@@ -399,8 +411,37 @@ impl ScenarioSpec {
             let u2 = (rng.next_u64() >> 11) as f64 / (1u64 << 53) as f64;
             (-2.0 * u1.ln()).sqrt() * (std::f64::consts::TAU * u2).cos()
         };
-        let tracked = |ts: f64| t.pass_s <= 0.0 || ts.rem_euclid(t.pass_s + t.gap_s) < t.pass_s;
+        let tracked = |ts: f64| {
+            sensors.is_none() && (t.pass_s <= 0.0 || ts.rem_euclid(t.pass_s + t.gap_s) < t.pass_s)
+        };
         let (mut train, mut next) = (Arc::default(), Arc::default());
+        if let Some(sites) = sensors {
+            let seen = sensing::measure(
+                &p.samples,
+                &axis,
+                sites,
+                m.known.central_body.mu_km3_s2,
+                &mut gauss,
+            )
+            .map_err(|e| err(format!("simulated tracking: {e}")))?;
+            for o in seen {
+                let arc = if o.epoch.seconds_since(&axis.epoch(train_end)) <= 0.0 {
+                    &mut train
+                } else {
+                    &mut next
+                };
+                arc.observations.push(o);
+            }
+            train.tracking = Some(sites.clone());
+            next.tracking = Some(sites.clone());
+            // The same checks a reader makes (the Earth-orientation table's span above all).
+            for arc in [&train, &next] {
+                if !arc.observations.is_empty() {
+                    arc.validate(path, &m.known.central_body)
+                        .map_err(|e| err(format!("simulated tracking: {e}")))?;
+                }
+            }
+        }
         let mut truth = Ephemeris {
             object_name: self.object_name.clone(),
             object_id: String::new(),
@@ -426,14 +467,14 @@ impl ScenarioSpec {
             } else {
                 None
             };
-            let o = Observation {
-                epoch: axis.epoch(*ts),
-                r_km: r,
-                v_km_s: v,
-                sigma_km: t.sigma_km.max(1e-9),
-                sigma_km_s: t.sigma_km_s.max(1e-12),
-                line: 0,
-            };
+            let o = Observation::state(
+                axis.epoch(*ts),
+                r,
+                v,
+                t.sigma_km.max(1e-9),
+                t.sigma_km_s.max(1e-12),
+                0,
+            );
             if *ts <= train_end {
                 train.observations.push(o);
             } else {

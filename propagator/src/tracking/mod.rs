@@ -3,6 +3,7 @@
 //! sites on the Earth ([`site`]).
 
 pub mod light_time;
+pub mod measurement;
 pub mod site;
 pub mod sites_file;
 pub mod tdm;

@@ -110,6 +110,11 @@ impl Site {
         Ok(site)
     }
 
+    /// Local east, north, up → ITRF (columns: the local axes in ITRF).
+    pub fn enu_to_itrf(&self) -> Matrix3<f64> {
+        self.enu.transpose()
+    }
+
     /// The object at `r_itrf_km` as seen from the site.
     pub fn look(&self, r_itrf_km: &Vector3<f64>) -> Look {
         let rho = r_itrf_km - self.itrf_km;
