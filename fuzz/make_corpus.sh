@@ -22,6 +22,7 @@ write 11 "$tmp/orbit.sp3"
 write 12 examples/space_weather/storm_ap200.csv
 write 13 tests/data/ccsds/ccsds_tdm_503_b2_figE9.tdm
 write 14 examples/sites/three_sites.yaml
+write 15 examples/tracking/radar_pass.csv
 # Hostile seeds: a YAML alias fan-out, deep nesting, a control character in a name.
 {
     printf 'gravity: { zonal_degree: 2 }\na0: &a0 [x, x, x, x, x, x, x, x, x, x]\n'

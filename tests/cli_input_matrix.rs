@@ -19,6 +19,9 @@ enum Role {
     Scenario,
     Hypotheses,
     Secondaries,
+    /// Tracking measurements (a TDM), read with the sites file.
+    Tracking,
+    Sites,
 }
 
 /// The inputs of one run: a path per role.
@@ -31,6 +34,8 @@ struct Inputs {
     scenario: PathBuf,
     hypotheses: PathBuf,
     secondaries: PathBuf,
+    tracking: PathBuf,
+    sites: PathBuf,
 }
 
 impl Inputs {
@@ -45,6 +50,8 @@ impl Inputs {
             Role::Scenario => i.scenario = p,
             Role::Hypotheses => i.hypotheses = p,
             Role::Secondaries => i.secondaries = p,
+            Role::Tracking => i.tracking = p,
+            Role::Sites => i.sites = p,
         }
         i
     }
@@ -62,6 +69,8 @@ fn commands() -> Vec<(&'static str, Vec<Role>)> {
         ("check", vec![Learned, Forces, Arc]),
         ("screen", vec![State, Secondaries, Forces]),
         ("rank", vec![Arc, Forces, Hypotheses]),
+        // `fit` of a tracking arc: measurements and the sites that made them.
+        ("fit-tracking", vec![Tracking, Sites]),
     ]
 }
 
@@ -145,6 +154,23 @@ fn args(command: &str, i: &Inputs, out: &Path) -> Vec<String> {
             "--report".into(),
             o("r.json"),
         ],
+        "fit-tracking" => {
+            return [
+                "fit",
+                "--arc",
+                &s(&i.tracking),
+                "--sites",
+                &s(&i.sites),
+                "--forces",
+                &s(&i.forces),
+                "--report",
+                &o("t.json"),
+                "--plot",
+                &o("t.svg"),
+            ]
+            .map(String::from)
+            .to_vec()
+        }
         _ => unreachable!(),
     };
     std::iter::once(command.to_string()).chain(v).collect()
@@ -199,6 +225,20 @@ fn good_inputs(d: &Path) -> Inputs {
         "hyp.yaml",
         "hypotheses:\n  - no_maneuver\n  - continuous_along_track\n",
     );
+    // A radar day (three sites, 2026: inside the shipped Earth-orientation table).
+    let sites = root.join("examples/sites/radar_campaign.yaml");
+    let trk = d.join("trk");
+    let (code, _, err) = arcwise(&[
+        "simulate",
+        root.join("examples/scenarios/radar_quiet.yaml")
+            .to_str()
+            .unwrap(),
+        "--sites",
+        sites.to_str().unwrap(),
+        "--out",
+        trk.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{err}");
     Inputs {
         arc,
         forces,
@@ -207,6 +247,8 @@ fn good_inputs(d: &Path) -> Inputs {
         scenario: root.join("examples/scenarios/quiet.yaml"),
         hypotheses,
         secondaries,
+        tracking: trk.join("train.tdm"),
+        sites,
     }
 }
 
@@ -1051,7 +1093,82 @@ fn bad_inputs(d: &Path, good: &Inputs) -> Vec<Bad> {
             f.to_yaml()
         }),
     );
+    tracking_bad_inputs(&mut bad, d, good);
     bad
+}
+
+/// Bad measurement files and sites files.
+fn tracking_bad_inputs(bad: &mut Vec<Bad>, d: &Path, good: &Inputs) {
+    use Role::*;
+    let tdm = std::fs::read_to_string(&good.tracking).unwrap();
+    let sites = std::fs::read_to_string(&good.sites).unwrap();
+    // The n-th data line with `keyword`, its value replaced.
+    let set = |keyword: &str, n: usize, value: &str| {
+        let mut k = 0;
+        tdm.lines()
+            .map(|l| {
+                if l.starts_with(&format!("{keyword} = ")) {
+                    k += 1;
+                    if k == n {
+                        let epoch = l.split_whitespace().nth(2).unwrap();
+                        return format!("{keyword} = {epoch} {value}\n");
+                    }
+                }
+                format!("{l}\n")
+            })
+            .collect::<String>()
+    };
+    for (what, name, text) in [
+        ("missing", "no-such.tdm", None),
+        ("empty", "empty.tdm", Some(String::new())),
+        (
+            "unknown TDM keyword",
+            "keyword.tdm",
+            Some(tdm.replacen("RANGE_UNITS = km", "RANGE_UNITS = km\nFREQ_OFFSET = 0.0", 1)),
+        ),
+        ("angle out of range", "angle.tdm", Some(set("ANGLE_2", 5, "95.0"))),
+        ("elevation below the mask", "mask.tdm", Some(set("ANGLE_2", 7, "2.0"))),
+        ("range in metres", "metres.tdm", Some(set("RANGE", 3, "1801712.6"))),
+        ("NaN range", "nan.tdm", Some(set("RANGE", 4, "NaN"))),
+        (
+            "site not in the sites file",
+            "site.tdm",
+            Some(tdm.replacen("PARTICIPANT_2 = MIDSEA-RADAR", "PARTICIPANT_2 = NOWHERE-RADAR", 1)),
+        ),
+        (
+            "after the Earth-orientation table",
+            "eop.tdm",
+            Some(tdm.replace("2026-03-04T", "2031-03-04T")),
+        ),
+        (
+            "measurement CSV with an unknown kind",
+            "kind.csv",
+            Some("epoch_utc,site,measurement,value\n2026-03-04T06:13:50Z,MIDSEA-RADAR,range_m,1801712.6\n".into()),
+        ),
+    ] {
+        add(bad, d, Tracking, what, name, text);
+    }
+    for (what, name, text) in [
+        ("missing", "no-such-sites.yaml", None),
+        ("empty", "empty-sites.yaml", Some(String::new())),
+        (
+            "latitude out of range",
+            "lat-sites.yaml",
+            Some(sites.replacen("lat_deg: 69.3", "lat_deg: 169.3", 1)),
+        ),
+        (
+            "unknown field",
+            "field-sites.yaml",
+            Some(sites.replacen("sigma_km: 0.020", "sigma_m: 20", 1)),
+        ),
+        (
+            "σ in metres",
+            "sigma-sites.yaml",
+            Some(sites.replacen("sigma_km: 0.020", "sigma_km: 200.0", 1)),
+        ),
+    ] {
+        add(bad, d, Sites, what, name, text);
+    }
 }
 
 /// Writes `text` (or nothing, for a missing file) as `d/name` and lists it as bad input.

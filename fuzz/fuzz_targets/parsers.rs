@@ -1,6 +1,7 @@
 //! One target for every input parser: the first byte picks the kind of input (arc CSV,
 //! OEM, ephemeris CSV, forces.yaml, STATE.yaml, scenario, learned file, resealed learned
-//! file, formula, rank hypotheses, Earth-orientation file, SP3 orbit), the rest is its text. A crash is a parser that panicked, an error that
+//! file, formula, rank hypotheses, Earth-orientation file, SP3 orbit, space weather, TDM,
+//! sites, measurement CSV), the rest is its text. A crash is a parser that panicked, an error that
 //! does not name the file, or a formula that does not print and parse back to itself
 //! (the checks of `tests/common/parsers.rs`, shared with the proptest suite).
 #![no_main]

@@ -83,6 +83,49 @@ fn one_radar_day_recovers_the_orbit() {
     );
     assert!(dr < 0.05, "{dr} km");
     assert!(!r.verdict.anomaly);
+    // Nothing to edit in clean data: a lone measurement after a gap of hours once was
+    // (the neighbours' line extrapolated across the gap).
+    assert_eq!(r.edited, 0);
+}
+
+#[test]
+fn a_bad_range_is_edited_without_the_angles_of_its_epoch() {
+    let path = example("scenarios/radar_quiet.yaml");
+    let spec = ScenarioSpec::load(&path).unwrap();
+    let mut sim = spec.simulate_with(&path, Some(&radar_sites())).unwrap();
+    // 2 km (100σ) on one range in the middle of a pass.
+    let i = sim.train.observations.len() / 2;
+    let i = (i..)
+        .find(|&k| {
+            sim.train.observations[k]
+                .as_tracked()
+                .is_some_and(|m| m.kind == propagator::tracking::measurement::Kind::Range)
+        })
+        .unwrap();
+    let epoch = sim.train.observations[i].epoch;
+    if let learned_forces::arc::Observed::Tracking(m) = &mut sim.train.observations[i].observed {
+        m.value += 2.0;
+    }
+    let forces = spec
+        .models(&path)
+        .unwrap()
+        .known
+        .build(Path::new("forces"), sim.train.start())
+        .unwrap();
+    let r = fit(
+        &sim.train,
+        forces.model.into(),
+        &FitOptions::default(),
+        &mut QuietFit,
+    )
+    .unwrap();
+    let edited: Vec<usize> = (0..r.residuals.len())
+        .filter(|&k| !r.residuals[k].used)
+        .collect();
+    assert_eq!(edited, vec![i], "{:?}", edited);
+    // The angles of that epoch stay.
+    assert!(r.residuals.iter().any(|x| x.epoch == epoch && x.used));
+    assert!(!r.verdict.anomaly, "{:?}", r.verdict.reasons);
 }
 
 #[test]

@@ -49,6 +49,8 @@ pub enum Input {
     Tdm,
     /// A sites file (tracking sensors).
     Sites,
+    /// Measurements in the measurement CSV layout, joined to the radar campaign's sites.
+    Measurements,
 }
 
 /// The epoch of the examples.
@@ -56,7 +58,7 @@ pub const EPOCH: &str = "2031-05-04T00:00:00Z";
 
 impl Input {
     /// Every kind.
-    pub const ALL: [Input; 15] = [
+    pub const ALL: [Input; 16] = [
         Input::ArcCsv,
         Input::ArcOem,
         Input::EphemerisCsv,
@@ -72,6 +74,7 @@ impl Input {
         Input::SpaceWeather,
         Input::Tdm,
         Input::Sites,
+        Input::Measurements,
     ];
 
     /// The file name errors must carry.
@@ -91,6 +94,7 @@ impl Input {
             Input::SpaceWeather => "space_weather.csv",
             Input::Tdm => "tracking.tdm",
             Input::Sites => "sites.yaml",
+            Input::Measurements => "tracking.csv",
         }
     }
 
@@ -125,6 +129,7 @@ impl Input {
             Input::Eop => include_str!("../data/eop/finals2000A_2021-04.txt").into(),
             Input::Tdm => include_str!("../data/ccsds/ccsds_tdm_503_b2_figE9.tdm").into(),
             Input::Sites => include_str!("../../examples/sites/three_sites.yaml").into(),
+            Input::Measurements => include_str!("../../examples/tracking/radar_pass.csv").into(),
             Input::SpaceWeather => {
                 include_str!("../../examples/space_weather/storm_ap200.csv").into()
             }
@@ -176,6 +181,19 @@ impl Input {
             }
             Input::Eop => propagator::earth::EopTable::parse(text, self.file_name()).map(|_| ()),
             Input::Sites => propagator::tracking::sites_file::parse(text, path).map(|_| ()),
+            Input::Measurements => {
+                let sites = propagator::tracking::sites_file::parse(
+                    include_str!("../../examples/sites/radar_campaign.yaml"),
+                    Path::new("radar_campaign.yaml"),
+                )?;
+                let defaults = ArcDefaults {
+                    sites: Some(sites),
+                    ..ArcDefaults::default()
+                };
+                Arc::parse(text, path, defaults, &body)
+                    .map(|_| ())
+                    .map_err(|e| s(&e))
+            }
             Input::Tdm => propagator::tracking::tdm::read(text, path)
                 .map(|_| ())
                 .map_err(|e| e.to_string()),

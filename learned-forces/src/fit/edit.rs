@@ -104,5 +104,14 @@ fn line_at(js: &[usize], t: &[f64], y: impl Fn(usize) -> f64, at: f64) -> f64 {
         return ym;
     }
     let sty: f64 = js.iter().map(|&j| (t[j] - tm) * (y(j) - ym)).sum();
-    ym + sty / stt * (at - tm)
+    // At most one mean spacing beyond the neighbours: across a gap between passes the
+    // line's noisy slope would be extrapolated over hours (a lone measurement after a
+    // gap was once "118σ from its neighbours").
+    let (lo, hi) = js
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &j| {
+            (a.min(t[j]), b.max(t[j]))
+        });
+    let step = (hi - lo) / (n - 1.0).max(1.0);
+    ym + sty / stt * (at.clamp(lo - step, hi + step) - tm)
 }

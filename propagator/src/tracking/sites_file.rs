@@ -142,6 +142,12 @@ pub fn parse(text: &str, path: &Path) -> Result<Vec<SiteEntry>, String> {
                 crate::text::sanitized(&s.name)
             ))
         };
+        // Names are fields of measurement CSV rows and values of TDM keyword lines.
+        if s.name.trim() != s.name || s.name.is_empty() || s.name.contains([',', '=', '"']) {
+            return Err(at(
+                "a site name may not be empty, start or end with a space, or contain `,`, `=` or `\"` (it is a field of measurement files)".into(),
+            ));
+        }
         if out.iter().any(|e| e.site.name == s.name) {
             return Err(at("the name is given to two sites".into()));
         }
@@ -229,6 +235,7 @@ mod tests {
             (one("    geodetic: { lat_deg: 45, lon_deg: 0, h_km: 0 }\n    elevation_mask_deg: 10\n    range: { sigma_km: .nan }\n"), "range: σ"),
             (one("    geodetic: { lat_deg: 45, lon_deg: 0, h_km: 0 }\n    elevation_mask_deg: 10\n"), "no measurement kind"),
             (one("    geodetic: { lat_deg: 45, lon_deg: 0, h_km: 0 }\n    elevation_mask_deg: 10\n    range: { sigma_m: 20 }\n"), "unknown field"),
+            ("sites:\n  - name: \"A,B\"\n    geodetic: { lat_deg: 45, lon_deg: 0, h_km: 0 }\n    elevation_mask_deg: 10\n    range: { sigma_km: 0.02 }\n".to_string(), "may not"),
             (format!("{}  - name: A\n    geodetic: {{ lat_deg: 1, lon_deg: 0, h_km: 0 }}\n    elevation_mask_deg: 10\n    azel: {{ sigma_deg: 0.1 }}\n", one("    geodetic: { lat_deg: 45, lon_deg: 0, h_km: 0 }\n    elevation_mask_deg: 10\n    azel: { sigma_deg: 0.1 }\n")), "two sites"),
         ] {
             let e = parse(&text, Path::new("s.yaml")).unwrap_err();
