@@ -22,20 +22,22 @@ pub(super) fn verdict(
     }
     let mut structure = Vec::new();
     for (name, series) in series {
-        let (q, p) = stats::ljung_box(series, options.ljung_box_lags);
+        // Q's χ² law needs lags well below the series' length: a short series (one
+        // telescope's few night passes) uses n/5 (common practice), long ones the option.
+        let lags = options.ljung_box_lags.min(series.len() / 5).max(1);
+        let (q, p) = stats::ljung_box(series, lags);
         let rms_sigma =
             (series.iter().map(|v| v * v).sum::<f64>() / series.len().max(1) as f64).sqrt();
         let counted = rms_sigma >= options.structure_floor_sigma;
         if p < per_test && counted {
             reasons.push(format!(
-                "{name} residuals are correlated in time (Ljung–Box Q = {q:.1} on {} lags, p = {p:.2e}; RMS {rms_sigma:.2} σ)",
-                options.ljung_box_lags
+                "{name} residuals are correlated in time (Ljung–Box Q = {q:.1} on {lags} lags, p = {p:.2e}; RMS {rms_sigma:.2} σ)"
             ));
         }
         structure.push(StructureTest {
             component: name.clone(),
             q,
-            lags: options.ljung_box_lags,
+            lags,
             p_value: p,
             rms_sigma,
             counted,

@@ -6,9 +6,11 @@
 //!   positions (site + range along the line of sight, light time neglected: ~25 m in
 //!   LEO, far inside what the fit corrects); the same polynomial through them gives a
 //!   state, carried to the arc's start on a Kepler orbit.
-//! - Angles only: Gauss's method on three right ascension/declination pairs of one site
-//!   (`gauss.rs`), carried to the start the same way.
+//! - Angles only: Gauss's method (`gauss.rs`) on the first, middle and last right
+//!   ascension/declination pair of one site's first pass, the root that best predicts
+//!   the sights of the next hours kept, carried to the start the same way.
 
+use super::gauss::{self, Sight};
 use super::FitError;
 use crate::arc::{Arc, Observed};
 use nalgebra::{DMatrix, DVector, Vector3};
@@ -21,11 +23,12 @@ pub(super) fn initial_guess(arc: &Arc, t: &[f64], mu: f64) -> Result<StateVector
     if arc.tracking.is_some() {
         let (t_k, x_k) = match radar_positions(arc, t) {
             Some(points) => (points[0].0, polynomial_state(&points)?),
-            None => {
-                return Err(FitError::Unfit(
-                    "no starting orbit from these measurements: the initial orbit needs one pass with range, azimuth and elevation at the same epochs (3 or more); give --initial STATE.yaml".into(),
-                ))
-            }
+            None => match angles_only(arc, t, mu) {
+                Some(found) => found,
+                None => return Err(FitError::Unfit(
+                    "no starting orbit from these measurements: the initial orbit needs one pass with range, azimuth and elevation at the same epochs (3 or more), or one with right ascension and declination spanning a minute or more; give --initial STATE.yaml".into(),
+                )),
+            },
         };
         return kepler_shift(&x_k, -t_k, mu);
     }
@@ -164,4 +167,103 @@ pub(super) fn kepler_shift(x: &StateVector, dt: f64, mu: f64) -> Result<StateVec
     }
     el.true_anomaly_rad = 2.0 * (((1.0 + e) / (1.0 - e)).sqrt() * (big_e / 2.0).tan()).atan();
     el.to_state(mu).map_err(bad)
+}
+
+/// The lines of sight of every right ascension/declination pair (same site and epoch):
+/// (observation index of the pair's first, site index, sight).
+fn sights(arc: &Arc, t: &[f64]) -> Vec<(usize, Sight)> {
+    let Some(tracking) = arc.tracking.as_ref() else {
+        return vec![];
+    };
+    let obs = &arc.observations;
+    let mut out = Vec::new();
+    for (i, o) in obs.iter().enumerate() {
+        let Some(ra) = o.as_tracked().filter(|m| m.kind == Kind::RightAscension) else {
+            continue;
+        };
+        let dec = obs[i..]
+            .iter()
+            .take_while(|p| p.epoch == o.epoch)
+            .find_map(|p| {
+                p.as_tracked()
+                    .filter(|m| m.kind == Kind::Declination && m.site == ra.site)
+            });
+        let Some(dec) = dec else { continue };
+        let (a, d) = (ra.value - ra.bias, dec.value - dec.bias);
+        let rot = tracking.earth.at(o.epoch.tt_seconds_since_j2000());
+        let site = rot.gcrf_to_itrf().transpose() * tracking.sites[ra.site].site.itrf_km;
+        let unit = Vector3::new(d.cos() * a.cos(), d.cos() * a.sin(), d.sin());
+        out.push((
+            ra.site,
+            Sight {
+                t_s: t[i],
+                site_km: site,
+                unit,
+            },
+        ));
+    }
+    out
+}
+
+/// A starting state (s from the start, state) from right ascension and declination only:
+/// Gauss's method on the first, middle and last sight of each of the first passes (each
+/// site's, spanning a minute or more); among every pass's roots the one that best
+/// predicts (on a Kepler orbit) every sight within 6 hours. One pass alone can mislead:
+/// a short or low one gives a poor velocity, whose Kepler orbit then misses the rest.
+fn angles_only(arc: &Arc, t: &[f64], mu: f64) -> Option<(f64, StateVector)> {
+    const PASSES_PER_SITE: usize = 4;
+    let all = sights(arc, t);
+    let n_sites = arc.tracking.as_ref()?.sites.len();
+    let mut best: Option<(f64, f64, StateVector)> = None;
+    for site in 0..n_sites {
+        let mine: Vec<Sight> = all
+            .iter()
+            .filter(|(s, _)| *s == site)
+            .map(|(_, s)| *s)
+            .collect();
+        for pass in passes(&mine).into_iter().take(PASSES_PER_SITE) {
+            let trio = [pass[0], pass[pass.len() / 2], pass[pass.len() - 1]];
+            for x in gauss::gauss(trio, mu) {
+                let score = sight_misfit(&all, trio[1].t_s, &x, mu);
+                if best.as_ref().is_none_or(|b| score < b.0) {
+                    best = Some((score, trio[1].t_s, x));
+                }
+            }
+        }
+    }
+    best.map(|(_, t2, x)| (t2, x))
+}
+
+/// The runs of sights without a gap over 600 s that span at least 60 s, in time order.
+fn passes(sights: &[Sight]) -> Vec<&[Sight]> {
+    let mut out = Vec::new();
+    let mut start = 0;
+    for i in 1..=sights.len() {
+        if i == sights.len() || sights[i].t_s - sights[i - 1].t_s > 600.0 {
+            let pass = &sights[start..i];
+            if pass.len() >= 3 && pass[pass.len() - 1].t_s - pass[0].t_s >= 60.0 {
+                out.push(pass);
+            }
+            start = i;
+        }
+    }
+    out
+}
+
+/// RMS angle (rad) between the sights within 6 hours of `t_x` and where the Kepler orbit
+/// of `x` (at `t_x`) puts the object.
+fn sight_misfit(all: &[(usize, Sight)], t_x: f64, x: &StateVector, mu: f64) -> f64 {
+    let (mut ss, mut n) = (0.0, 0usize);
+    for (_, s) in all
+        .iter()
+        .filter(|(_, s)| (s.t_s - t_x).abs() <= 6.0 * 3600.0)
+    {
+        let Ok(y) = kepler_shift(x, s.t_s - t_x, mu) else {
+            return f64::INFINITY;
+        };
+        let seen = (Vector3::new(y[0], y[1], y[2]) - s.site_km).normalize();
+        ss += seen.angle(&s.unit).powi(2);
+        n += 1;
+    }
+    (ss / n.max(1) as f64).sqrt()
 }

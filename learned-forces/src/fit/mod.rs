@@ -8,6 +8,7 @@
 
 mod anomaly;
 mod edit;
+mod gauss;
 mod initial;
 mod lsq;
 pub mod model;
@@ -441,11 +442,12 @@ fn residuals(
                     .observing
                     .rows(i, &s.state, &mut rows)
                     .map_err(|e| problem.measurement_error(i, e))?;
+                let (z, sigma) = rows.first().map_or((0.0, m.sigma), |r| (r.z, r.sigma));
                 ResidualValue::Tracking {
                     site: m.site,
                     kind: m.kind,
-                    residual: rows.first().map_or(0.0, |r| r.z) * m.sigma,
-                    sigma: m.sigma,
+                    residual: z * sigma,
+                    sigma,
                 }
             }
         };

@@ -38,7 +38,7 @@ pub enum ResidualValue {
         kind: propagator::tracking::measurement::Kind,
         /// Observed − modelled, model units (km, km/s, rad).
         residual: f64,
-        /// Its σ, model units.
+        /// Its σ, model units (a right ascension's: the site's σ on the sky / cos δ).
         sigma: f64,
     },
 }

@@ -103,10 +103,11 @@ impl<'a> Observing<'a> {
                 let site = &t.sites[m.site].site;
                 let model = measurement::model(m.kind, m.tag, site, x, self.mu_km3_s2, rot)?;
                 let d = measurement::residual(m.kind, m.value - m.bias, model.value);
+                let sigma = m.sigma * model.sigma_scale;
                 out.push(Row {
-                    z: d / m.sigma,
+                    z: d / sigma,
                     h: model.partials,
-                    sigma: m.sigma,
+                    sigma,
                     channel: Some(channel(m.site, m.kind)),
                 });
             }

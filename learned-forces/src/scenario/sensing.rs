@@ -86,7 +86,7 @@ pub fn measure(
                     continue;
                 };
                 let m = measurement::model(kind, Tag::Receive, &entry.site, x, mu, &rotation)?;
-                let mut value = m.value + noise.bias + noise.sigma * gauss();
+                let mut value = m.value + noise.bias + noise.sigma * m.sigma_scale * gauss();
                 if kind.wraps() {
                     value = value.rem_euclid(std::f64::consts::TAU);
                 }

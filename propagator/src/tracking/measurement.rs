@@ -138,6 +138,10 @@ pub struct Modelled {
     pub partials: [f64; 6],
     /// Elevation of the object at the site when the signal met it, rad.
     pub elevation_rad: f64,
+    /// The factor on a site's σ for this measurement: 1/cos δ for right ascension (a
+    /// telescope's σ is an angle on the sky, a right-ascension difference shrinks by
+    /// cos δ on it; capped at 1000 near the poles), 1 otherwise.
+    pub sigma_scale: f64,
 }
 
 /// The object's track near the tag: its GCRF state at the tag and the central body's
@@ -213,6 +217,7 @@ pub fn model(
     let r_itrf = gcrf_to_itrf * r_obj;
     let look = site.look(&r_itrf);
     let mut partials = [0.0; 6];
+    let mut sigma_scale = 1.0;
     let mut put = |d_pos: Vector3<f64>, d_vel: Vector3<f64>| {
         // The position at `met` moves with the tag state's velocity by `met` seconds.
         for j in 0..3 {
@@ -247,6 +252,9 @@ pub fn model(
         }
         Kind::RightAscension | Kind::Declination => {
             let (ra, dec, _) = site.radec(&r_obj, rotation);
+            if kind == Kind::RightAscension {
+                sigma_scale = 1.0 / dec.cos().max(1e-3);
+            }
             let p = site.radec_partials(&r_obj, rotation);
             let row = if kind == Kind::RightAscension { 0 } else { 1 };
             put(p.row(row).transpose(), Vector3::zeros());
@@ -268,6 +276,7 @@ pub fn model(
         value,
         partials,
         elevation_rad: look.el_rad,
+        sigma_scale,
     })
 }
 
