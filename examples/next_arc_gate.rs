@@ -33,11 +33,7 @@ fn run(args: &[String]) -> Result<bool, String> {
     };
     let host = Some((&spec, Path::new(forces)));
     let checked = check(&file, &known_forces, host, &arc, &rule).map_err(|e| e.to_string())?;
-    let (rl, rb, gate) = (
-        checked.learned.rms_km,
-        checked.known.rms_km,
-        checked.outcome,
-    );
+    let (rl, rb, gate) = (checked.learned.rms, checked.known.rms, checked.outcome);
     println!(
         "next arc RMS: {:.2} m with the learned force, {:.2} m with the known forces only",
         rl * 1e3,

@@ -8,38 +8,80 @@
 //! instead of the known forces' real 1041 m).
 
 use crate::arc::Arc;
+use crate::fit::Observing;
 use nalgebra::Vector3;
 use propagator::frames::eci_to_rtn;
 use propagator::propagation::{propagate, Options, Request, Silent};
 use propagator::{Epoch, ForceModel, StateVector, TimeAxis};
+
+/// What a prediction's errors are measured in.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Unit {
+    /// Position error, km (an arc of positions).
+    Km,
+    /// Normalized residual, σ (an arc of tracking measurements).
+    Sigma,
+}
+
+impl Unit {
+    /// The unit of `arc`'s errors.
+    pub fn of(arc: &Arc) -> Unit {
+        if arc.tracking.is_some() {
+            Unit::Sigma
+        } else {
+            Unit::Km
+        }
+    }
+
+    /// A value in this unit as text (km shown in metres).
+    pub fn text(self, v: f64) -> String {
+        match self {
+            Unit::Km => format!("{:.2} m", v * 1e3),
+            Unit::Sigma => format!("{v:.2} σ"),
+        }
+    }
+
+    /// The unit's word in report keys.
+    pub fn key(self) -> &'static str {
+        match self {
+            Unit::Km => "km",
+            Unit::Sigma => "sigma",
+        }
+    }
+}
 
 /// A prediction of an arc compared with its observations.
 #[derive(Clone, Debug)]
 pub struct Prediction {
     /// Seconds of each observation from the prediction's start epoch.
     pub times_s: Vec<f64>,
-    /// Observed − predicted position of each observation, RTN of the prediction, km.
+    /// Observed − predicted position of each observation, RTN of the prediction, km (a
+    /// position arc; empty for a tracking arc).
     pub errors_rtn_km: Vec<Vector3<f64>>,
-    /// RMS of the 3-D position errors, km.
-    pub rms_km: f64,
-    /// Largest 3-D position error, km.
-    pub max_km: f64,
+    /// Each observation's error in `unit`: the 3-D position error, or |residual| / σ.
+    pub errors: Vec<f64>,
+    /// What the errors are in.
+    pub unit: Unit,
+    /// RMS of the errors.
+    pub rms: f64,
+    /// Largest error.
+    pub max: f64,
 }
 
 impl Prediction {
-    /// RMS of one RTN component (0 = R, 1 = T, 2 = N), km.
+    /// RMS of one RTN component (0 = R, 1 = T, 2 = N), km (a position arc).
     pub fn rms_component_km(&self, c: usize) -> f64 {
         let n = self.errors_rtn_km.len().max(1) as f64;
         (self.errors_rtn_km.iter().map(|e| e[c] * e[c]).sum::<f64>() / n).sqrt()
     }
 
-    /// RMS of the 3-D error in each quarter of the arc (how the error grows), km.
-    pub fn rms_by_quarter_km(&self) -> [f64; 4] {
-        let n = self.errors_rtn_km.len();
+    /// RMS of the errors in each quarter of the arc (how the error grows).
+    pub fn rms_by_quarter(&self) -> [f64; 4] {
+        let n = self.errors.len();
         std::array::from_fn(|q| {
             let (lo, hi) = (q * n / 4, ((q + 1) * n / 4).max(q * n / 4 + 1).min(n));
-            let e = &self.errors_rtn_km[lo.min(hi)..hi];
-            (e.iter().map(|v| v.norm_squared()).sum::<f64>() / e.len().max(1) as f64).sqrt()
+            let e = &self.errors[lo.min(hi)..hi];
+            (e.iter().map(|v| v * v).sum::<f64>() / e.len().max(1) as f64).sqrt()
         })
     }
 }
@@ -54,9 +96,6 @@ pub fn predict(
     x0: StateVector,
     arc: &Arc,
 ) -> Result<Prediction, String> {
-    if arc.tracking.is_some() {
-        return Err("the next-arc check compares positions: a tracking arc (measurements) is not supported by it yet".into());
-    }
     let axis = TimeAxis::new(*start);
     let times: Vec<f64> = arc
         .observations
@@ -84,27 +123,41 @@ pub fn predict(
     if p.samples.len() != times.len() {
         return Err("the prediction decays before the end of the arc".into());
     }
-    let mut errors = Vec::with_capacity(times.len());
-    let (mut ss, mut mx) = (0.0, 0.0f64);
-    for ((_, x), o) in p.samples.iter().zip(&arc.observations) {
+    let observing = Observing::new(arc, propagator::CentralBody::EARTH_EGM96.mu_km3_s2);
+    let (mut rtn, mut errors, mut rows) = (Vec::new(), Vec::with_capacity(times.len()), Vec::new());
+    for (i, ((_, x), o)) in p.samples.iter().zip(&arc.observations).enumerate() {
         let r = Vector3::new(x[0], x[1], x[2]);
         let v = Vector3::new(x[3], x[4], x[5]);
-        let Some(s) = o.as_state() else { continue };
-        let d = s.r_km - r;
-        ss += d.norm_squared();
-        mx = mx.max(d.norm());
-        errors.push(eci_to_rtn(&r, &v).map(|m| m * d).unwrap_or(d));
+        match o.as_state() {
+            Some(s) => {
+                let d = s.r_km - r;
+                errors.push(d.norm());
+                rtn.push(eci_to_rtn(&r, &v).map(|m| m * d).unwrap_or(d));
+            }
+            None => {
+                rows.clear();
+                observing.rows(i, x, &mut rows)?;
+                errors.extend(rows.iter().map(|row| row.z.abs()));
+            }
+        }
     }
+    let n = errors.len().max(1) as f64;
     Ok(Prediction {
-        rms_km: (ss / times.len() as f64).sqrt(),
-        max_km: mx,
+        rms: (errors.iter().map(|e| e * e).sum::<f64>() / n).sqrt(),
+        max: errors.iter().copied().fold(0.0, f64::max),
         times_s: times,
-        errors_rtn_km: errors,
+        errors_rtn_km: rtn,
+        errors,
+        unit: Unit::of(arc),
     })
 }
 
-/// The 3-D RMS that observation noise alone gives: √(mean 3σ²), km.
-pub fn noise_rms_km(arc: &Arc) -> f64 {
+/// The RMS that observation noise alone gives: √(mean 3σ²) km for positions, 1 σ for
+/// measurements (normalized residuals of pure noise).
+pub fn noise_rms(arc: &Arc) -> f64 {
+    if arc.tracking.is_some() {
+        return 1.0;
+    }
     let n = arc.observations.len().max(1) as f64;
     (arc.observations
         .iter()
@@ -163,49 +216,50 @@ impl GateRule {
         s
     }
 
-    /// Judges RMS values in km: the learned and known-forces predictions, and the noise.
-    pub fn judge(&self, learned_km: f64, known_km: f64, noise_km: f64) -> GateOutcome {
-        let m = |x: f64| x * 1e3;
+    /// Judges RMS values in `unit`: the learned and known-forces predictions, and the
+    /// noise. The km cap applies to position arcs only (`check` refuses it otherwise).
+    pub fn judge(&self, learned: f64, known: f64, noise: f64, unit: Unit) -> GateOutcome {
+        let m = |x: f64| unit.text(x);
         let mut reasons = Vec::new();
-        let at_noise = learned_km <= self.noise_factor * noise_km;
-        let better = learned_km * self.improvement <= known_km;
+        let at_noise = learned <= self.noise_factor * noise;
+        let better = learned * self.improvement <= known;
         let mut passed = at_noise || better;
         reasons.push(if at_noise {
             format!(
-                "learned RMS {:.2} m is at the noise level (≤ {}× the noise RMS {:.2} m)",
-                m(learned_km),
+                "learned RMS {} is at the noise level (≤ {}× the noise RMS {})",
+                m(learned),
                 self.noise_factor,
-                m(noise_km)
+                m(noise)
             )
         } else if better {
             format!(
-                "learned RMS {:.2} m is {:.1}× smaller than the known forces' {:.2} m (need {}×)",
-                m(learned_km),
-                known_km / learned_km.max(f64::MIN_POSITIVE),
-                m(known_km),
+                "learned RMS {} is {:.1}× smaller than the known forces' {} (need {}×)",
+                m(learned),
+                known / learned.max(f64::MIN_POSITIVE),
+                m(known),
                 self.improvement
             )
         } else {
             format!(
-                "learned RMS {:.2} m is above the noise level ({}× {:.2} m) and not {}× smaller than the known forces' {:.2} m",
-                m(learned_km),
+                "learned RMS {} is above the noise level ({}× {}) and not {}× smaller than the known forces' {}",
+                m(learned),
                 self.noise_factor,
-                m(noise_km),
+                m(noise),
                 self.improvement,
-                m(known_km)
+                m(known)
             )
         });
-        if let Some(cap) = self.max_rms_km {
-            if learned_km > cap || !learned_km.is_finite() {
+        if let (Some(cap), Unit::Km) = (self.max_rms_km, unit) {
+            if learned > cap || !learned.is_finite() {
                 passed = false;
                 reasons.push(format!(
-                    "learned RMS {:.2} m exceeds --max-rms-km ({:.2} m)",
-                    m(learned_km),
+                    "learned RMS {} exceeds --max-rms-km ({})",
+                    m(learned),
                     m(cap)
                 ));
             }
         }
-        if !learned_km.is_finite() {
+        if !learned.is_finite() {
             passed = false;
         }
         GateOutcome { passed, reasons }
@@ -236,8 +290,8 @@ pub struct NextArcCheck {
     pub learned: Prediction,
     /// With the known forces only, from the known-forces fit's end state.
     pub known: Prediction,
-    /// The arc's noise RMS, km.
-    pub noise_km: f64,
+    /// The arc's noise RMS (in the predictions' unit).
+    pub noise: f64,
     /// The verdict of `rule`.
     pub outcome: GateOutcome,
 }
@@ -283,15 +337,22 @@ pub fn check(
     learned_model.push(Box::new(
         file.force_in(&epoch, host).map_err(CheckError::Learned)?,
     ));
+    let unit = Unit::of(arc);
+    if unit == Unit::Sigma && rule.max_rms_km.is_some() {
+        return Err(CheckError::Arc(
+            "--max-rms-km caps a position error; a tracking arc's prediction is judged in σ units"
+                .into(),
+        ));
+    }
     let known = predict(&known_model, &known_epoch, known_x0, arc).map_err(CheckError::Arc)?;
     let learned = predict(&learned_model, &epoch, x0, arc).map_err(CheckError::Arc)?;
-    let noise_km = noise_rms_km(arc);
-    let outcome = rule.judge(learned.rms_km, known.rms_km, noise_km);
+    let noise = noise_rms(arc);
+    let outcome = rule.judge(learned.rms, known.rms, noise, unit);
     Ok(NextArcCheck {
         epoch,
         learned,
         known,
-        noise_km,
+        noise,
         outcome,
     })
 }
@@ -304,22 +365,27 @@ mod tests {
     fn the_gate_fails_what_it_must_and_passes_what_it_should() {
         let rule = GateRule::default();
         // Demo-like: 8.8 m learned, 1041 m known, noise 8.7 m: passes.
-        assert!(rule.judge(0.0088, 1.041, 0.0087).passed);
+        let judge = |l, k, n| rule.judge(l, k, n, Unit::Km);
+        assert!(judge(0.0088, 1.041, 0.0087).passed);
         // A prediction 1.4 km off that shaves 8 m off the known forces: fails.
-        assert!(!rule.judge(1.400, 1.408, 0.0087).passed);
+        assert!(!judge(1.400, 1.408, 0.0087).passed);
         // A learned force that stopped being true (known forces at the noise, learned
         // far off): fails.
-        assert!(!rule.judge(0.200, 0.009, 0.0087).passed);
+        assert!(!judge(0.200, 0.009, 0.0087).passed);
         // 3.3× better than the known forces but above the noise: passes.
-        assert!(rule.judge(0.300, 0.990, 0.0087).passed);
+        assert!(judge(0.300, 0.990, 0.0087).passed);
         // An absolute cap fails an otherwise good prediction.
         let capped = GateRule {
             max_rms_km: Some(0.005),
             ..rule
         };
-        let o = capped.judge(0.0088, 1.041, 0.0087);
+        let o = capped.judge(0.0088, 1.041, 0.0087, Unit::Km);
         assert!(!o.passed && o.reasons.len() == 2, "{o:?}");
         // NaN never passes.
-        assert!(!rule.judge(f64::NAN, 1.0, 0.01).passed);
+        assert!(!judge(f64::NAN, 1.0, 0.01).passed);
+        // In σ units (a tracking arc): 1.3 σ against noise 1 passes, 5 σ against the
+        // known forces' 6 σ fails.
+        assert!(rule.judge(1.3, 40.0, 1.0, Unit::Sigma).passed);
+        assert!(!rule.judge(5.0, 6.0, 1.0, Unit::Sigma).passed);
     }
 }

@@ -287,7 +287,7 @@ fn a_small_once_per_rev_radial_signal_is_explained() {
         "radial: {text:?} c = {:?} ± {:?}; held-out {:.2} m; notes {:?}",
         c.terms.coefficients,
         c.terms.sigmas,
-        c.held_out_rms_km * 1e3,
+        c.held_out_rms * 1e3,
         r.learned.notes
     );
     assert!(text.len() >= 2, "the small signal was dropped: {text:?}");
@@ -309,7 +309,7 @@ fn a_small_once_per_rev_radial_signal_is_explained() {
         r.learned.notes
     );
     // 3-D RMS of pure noise is √3 σ = 1.7 m.
-    assert!(c.held_out_rms_km < 2.5e-3, "{}", c.held_out_rms_km);
+    assert!(c.held_out_rms < 2.5e-3, "{}", c.held_out_rms);
     let (base, learned) = next_arc(&r);
     eprintln!(
         "radial next arc: base {:.1} m, learned {:.2} m",

@@ -247,3 +247,127 @@ fn angles_only_over_two_nights_start_from_gauss_and_converge_without_a_guess() {
         assert!(!r.verdict.anomaly, "seed {seed}: {:?}", r.verdict.reasons);
     }
 }
+
+#[test]
+fn venting_seen_by_radar_only_is_learned() {
+    use learned_forces::expr::Context;
+    use learned_forces::learn::search::QuietSearch;
+    use learned_forces::learn::{learn, LearnOptions};
+    let path = example("scenarios/radar_venting.yaml");
+    let spec = ScenarioSpec::load(&path).unwrap();
+    let sim = spec.simulate_with(&path, Some(&radar_sites())).unwrap();
+    let models = spec.models(&path).unwrap();
+    let context = Context::of_model(&models.known, &path, &sim.train.start()).unwrap();
+    let (spec2, path2) = (spec.clone(), path.clone());
+    let make = move |e: propagator::Epoch| {
+        Ok(spec2
+            .models(&path2)
+            .unwrap()
+            .known
+            .build(&path2, e)
+            .unwrap()
+            .model)
+    };
+    let learned = learn(
+        &sim.train,
+        &make,
+        context,
+        &LearnOptions::default(),
+        &mut QuietFit,
+        &QuietSearch,
+    )
+    .unwrap();
+    let chosen = learned.chosen.as_ref().expect("a learned model");
+    eprintln!("{} | {:?}", chosen.terms.text(), learned.notes);
+    assert!(learned.outcome().is_explained());
+    // One decaying term; its time constant within 10 % of the scenario's (the issue's
+    // must-show), read from the scenario file rather than restated.
+    let tau_true = spec
+        .truth
+        .iter()
+        .find_map(|t| match t {
+            learned_forces::scenario::TruthTerm::DecayingPush {
+                time_constant_s, ..
+            } => Some(*time_constant_s),
+            _ => None,
+        })
+        .unwrap();
+    assert_eq!(chosen.terms.nodes.len(), 1, "{}", chosen.terms.text());
+    let text = chosen.terms.text();
+    assert!(text.contains("exp(") && text.contains("t / k0"), "{text}");
+    let tau = chosen.terms.constants[0].abs();
+    assert!(
+        (tau / tau_true - 1.0).abs() < 0.10,
+        "τ {tau} s vs {tau_true} s"
+    );
+}
+
+#[test]
+fn an_impulsive_burn_seen_by_radar_ranks_first_and_a_quiet_radar_day_ranks_no_maneuver() {
+    use learned_forces::expr::Context;
+    use learned_forces::learn::rank::{rank, Hypothesis};
+    use learned_forces::learn::{linearize, LearnOptions};
+    use learned_forces::scenario::TruthTerm;
+    use propagator::config::{ImpulsiveSpec, ManeuverSpec};
+    let path = example("scenarios/radar_quiet.yaml");
+    let ranked = |truth: Vec<TruthTerm>| {
+        let mut spec = ScenarioSpec::load(&path).unwrap();
+        spec.truth = truth;
+        let sim = spec.simulate_with(&path, Some(&radar_sites())).unwrap();
+        let models = spec.models(&path).unwrap();
+        let ctx = Context::of_model(&models.known, &path, &sim.train.start()).unwrap();
+        let known = models.known.clone();
+        let make = move |e: propagator::Epoch| {
+            known
+                .build(Path::new("forces"), e)
+                .map(|l| l.model)
+                .map_err(|e| e.to_string())
+        };
+        let (_, problem) = linearize(
+            &sim.train,
+            &make,
+            ctx,
+            &LearnOptions::default(),
+            &mut QuietFit,
+        )
+        .unwrap();
+        let span = sim.train.end().seconds_since(&sim.train.start());
+        let hyps = [
+            Hypothesis::NoManeuver,
+            Hypothesis::Impulsive {
+                from_s: 3600.0,
+                to_s: span - 3600.0,
+            },
+            Hypothesis::ContinuousAlongTrack,
+        ];
+        (rank(&problem, &hyps), sim.train.start())
+    };
+    // 0.3 m/s along-track at 10:00:30 (between passes: the epoch is bracketed by them).
+    let (r, start) = ranked(vec![TruthTerm::Maneuver(ManeuverSpec::Impulsive(
+        ImpulsiveSpec {
+            epoch_utc: "2026-03-04T10:00:30Z".into(),
+            dv_rtn_km_s: Some([0.0, 0.0003, 0.0]),
+            dv_eci_km_s: None,
+        },
+    ))]);
+    assert_eq!(
+        r[0].name,
+        "impulsive",
+        "{:?}",
+        r.iter().map(|h| &h.name).collect::<Vec<_>>()
+    );
+    let truth_s = propagator::Epoch::parse_utc("2026-03-04T10:00:30Z")
+        .unwrap()
+        .seconds_since(&start);
+    let dvt = r[0].params.iter().find(|p| p.name == "dv_t_km_s").unwrap();
+    eprintln!(
+        "radar impulsive: {:?} (truth epoch {truth_s} s)",
+        r[0].params
+    );
+    assert!(
+        (dvt.value - 3e-4).abs() < 3.0 * dvt.sigma + 0.05 * 3e-4,
+        "{dvt:?}"
+    );
+    let (quiet, _) = ranked(vec![]);
+    assert_eq!(quiet[0].name, "no_maneuver");
+}

@@ -7,7 +7,7 @@ use crate::report::write_report;
 use clap::Args as ClapArgs;
 use learned_forces::arc::Arc;
 use learned_forces::learned_file::{LearnedFile, LearnedResolver};
-use learned_forces::next_arc::{check, CheckError, GateRule, NextArcCheck, Prediction};
+use learned_forces::next_arc::{check, CheckError, GateRule, NextArcCheck, Prediction, Unit};
 use propagator::config::ForcesFile;
 use propagator::Epoch;
 use std::path::{Path, PathBuf};
@@ -21,7 +21,8 @@ pub struct Args {
     /// The known force model the file was learned with.
     #[arg(long, value_name = "FORCES.yaml")]
     forces: PathBuf,
-    /// The next arc (observations after the training arc).
+    /// The next arc (observations after the training arc): positions, or tracking
+    /// measurements (.tdm or measurement CSV, with --sites), judged in σ units.
     #[arg(long, value_name = "NEXT.csv")]
     arc: PathBuf,
     /// Also fail (exit 1) when the learned prediction's RMS exceeds this, km. The check
@@ -65,61 +66,69 @@ pub fn run(a: Args) -> Result<(), CliError> {
         epoch,
         learned,
         known: base,
-        noise_km,
+        noise,
         outcome: gate,
     } = checked;
     let passed = gate.passed;
-    let quarters = learned.rms_by_quarter_km();
+    let unit = learned.unit;
+    let quarters = learned.rms_by_quarter();
     let times = &learned.times_s;
     println!(
-        "next arc ({} observations, {} → {}): RMS {:.2} m with the learned force, {:.2} m with the known forces only; max {:.2} m",
+        "next arc ({} observations, {} → {}): RMS {} with the learned force, {} with the known forces only; max {}",
         times.len(),
         arc.start(),
         arc.end(),
-        learned.rms_km * 1e3,
-        base.rms_km * 1e3,
-        learned.max_km * 1e3
+        unit.text(learned.rms),
+        unit.text(base.rms),
+        unit.text(learned.max)
     );
-    println!(
-        "  learned RTN RMS: R {:.2} m, T {:.2} m, N {:.2} m; by quarter: {}",
-        learned.rms_component_km(0) * 1e3,
-        learned.rms_component_km(1) * 1e3,
-        learned.rms_component_km(2) * 1e3,
-        quarters
-            .iter()
-            .map(|q| format!("{:.2} m", q * 1e3))
-            .collect::<Vec<_>>()
-            .join(", ")
-    );
+    let by_quarter = quarters.map(|q| unit.text(q)).join(", ");
+    if unit == Unit::Km {
+        println!(
+            "  learned RTN RMS: R {:.2} m, T {:.2} m, N {:.2} m; by quarter: {by_quarter}",
+            learned.rms_component_km(0) * 1e3,
+            learned.rms_component_km(1) * 1e3,
+            learned.rms_component_km(2) * 1e3,
+        );
+    } else {
+        println!("  learned RMS by quarter: {by_quarter} (normalized residuals)");
+    }
     for r in &gate.reasons {
         println!("  {r}");
     }
     println!("check {}", if passed { "passed" } else { "FAILED" });
     if let Some(p) = &a.plot {
-        plot(p, &epoch, (&learned, &base), noise_km)?;
+        plot(p, &epoch, (&learned, &base), noise)?;
     }
     if let Some(path) = &a.report {
-        let report = serde_json::json!({
+        let k = unit.key();
+        let mut report = serde_json::json!({
             "command": "check",
             "arcwise_version": env!("CARGO_PKG_VERSION"),
             "learned_file": a.learned.display().to_string(),
             "learned_checksum": file.checksum,
             "arc_file": a.arc.display().to_string(),
             "observations": times.len(),
-            "rms_km_learned": learned.rms_km,
-            "rms_km_base": base.rms_km,
-            "max_error_km_learned": learned.max_km,
-            "max_error_km_base": base.max_km,
-            "rms_rtn_km_learned": [learned.rms_component_km(0), learned.rms_component_km(1), learned.rms_component_km(2)],
-            "noise_rms_km": noise_km,
+            format!("rms_{k}_learned"): learned.rms,
+            format!("rms_{k}_base"): base.rms,
+            format!("max_error_{k}_learned"): learned.max,
+            format!("max_error_{k}_base"): base.max,
+            format!("noise_rms_{k}"): noise,
             "baseline": "the known forces fitted to the same training arc, from that fit's end state",
             "pass_rule": rule.describe(),
             "pass_reasons": gate.reasons,
-            "rms_km_by_quarter_learned": quarters,
+            format!("rms_{k}_by_quarter_learned"): quarters,
             "max_rms_km": a.max_rms_km,
             "passed": passed,
             "note": "covariance-free prediction check: a screening aid; operational decisions follow the operator's own procedures",
         });
+        if unit == Unit::Km {
+            report["rms_rtn_km_learned"] = serde_json::json!([
+                learned.rms_component_km(0),
+                learned.rms_component_km(1),
+                learned.rms_component_km(2)
+            ]);
+        }
         write_report(path, &report)?;
     }
     if passed {
@@ -174,31 +183,36 @@ fn plot(
     p: &Path,
     epoch: &Epoch,
     (learned, base): (&Prediction, &Prediction),
-    noise_km: f64,
+    noise: f64,
 ) -> Result<(), CliError> {
+    // Positions in metres; measurements as |residual| / σ.
+    let (scale, y_label, points_only) = match learned.unit {
+        Unit::Km => (1e3, "position error (m)", false),
+        Unit::Sigma => (1.0, "|residual| / σ", true),
+    };
     let series = |name: &str, pr: &Prediction| Series {
         name: name.into(),
         points: learned
             .times_s
             .iter()
-            .zip(&pr.errors_rtn_km)
-            .map(|(t, e)| (t / 3600.0, e.norm() * 1e3))
+            .zip(&pr.errors)
+            .map(|(t, e)| (t / 3600.0, e * scale))
             .collect(),
-        points_only: false,
+        points_only,
     };
     write_panels(
         p,
         "Next-arc prediction error",
         &format!("hours since {epoch}"),
         &[Panel {
-            y_label: "position error (m)".into(),
+            y_label: y_label.into(),
             series: vec![
                 series("with the learned force", learned),
                 series("known forces only", base),
             ],
             levels: vec![(
-                format!("2× noise RMS ({:.2} m)", 2e3 * noise_km),
-                2e3 * noise_km,
+                format!("2× noise RMS ({})", learned.unit.text(2.0 * noise)),
+                2.0 * noise * scale,
             )],
             ..Panel::default()
         }],

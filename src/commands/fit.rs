@@ -132,13 +132,30 @@ pub fn tracking_json(r: &FitResult, arc: &Arc) -> serde_json::Value {
     })
 }
 
-/// Draws a tracking fit's normalized residuals (residual / σ): one panel per kind of
-/// measurement, one series per site.
-pub fn plot_tracking_residuals(
+/// Draws a fit's residuals: R, T, N of a position arc, or each kind of measurement of a
+/// tracking arc; with a line where the held-out part begins (`learn`).
+pub fn plot_fit_residuals(
     path: &Path,
     title: &str,
     r: &FitResult,
     arc: &Arc,
+    held_out_from_s: Option<f64>,
+) -> Result<(), CliError> {
+    if arc.tracking.is_some() {
+        plot_tracking_residuals(path, title, r, arc, held_out_from_s)
+    } else {
+        plot_residuals(path, title, r, held_out_from_s)
+    }
+}
+
+/// Draws a tracking fit's normalized residuals (residual / σ): one panel per kind of
+/// measurement, one series per site.
+fn plot_tracking_residuals(
+    path: &Path,
+    title: &str,
+    r: &FitResult,
+    arc: &Arc,
+    held_out_from_s: Option<f64>,
 ) -> Result<(), CliError> {
     use learned_forces::fit::ResidualValue;
     let Some(t) = &arc.tracking else {
@@ -181,7 +198,10 @@ pub fn plot_tracking_residuals(
             y_label: format!("{} residual / σ", info.word),
             series,
             levels: vec![("±1σ".to_string(), 1.0), ("±1σ".to_string(), -1.0)],
-            marks: vec![],
+            marks: held_out_from_s
+                .map(|t| ("held-out part begins".to_string(), t / 3600.0))
+                .into_iter()
+                .collect(),
         });
     }
     write_panels(path, title, &format!("hours since {}", r.epoch0), &panels)
@@ -191,7 +211,7 @@ pub fn plot_tracking_residuals(
 /// The R, T, N residuals against time, with the ±1σ band of the observations' stated
 /// noise and, for `learn`, a line where the held-out part begins (`held_out_from_s`,
 /// seconds from the fit's first observation).
-pub fn plot_residuals(
+fn plot_residuals(
     path: &Path,
     title: &str,
     r: &FitResult,
@@ -316,11 +336,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
     }
     if let Some(p) = &a.plot {
         let title = format!("Fit residuals, {}", a.arc.display());
-        if arc.tracking.is_some() {
-            plot_tracking_residuals(p, &title, &r, &arc)?;
-        } else {
-            plot_residuals(p, &title, &r, None)?;
-        }
+        plot_fit_residuals(p, &title, &r, &arc, None)?;
     }
     if let Some(path) = &a.report {
         let mut j = fit_json(&r);

@@ -1,7 +1,7 @@
 //! `arcwise learn`: an arc + forces → a learned-force file, the Pareto front, a report,
 //! plots.
 
-use crate::commands::fit::{fit_json, parse_estimate, plot_residuals};
+use crate::commands::fit::{fit_json, parse_estimate, plot_fit_residuals};
 use crate::error::{CliError, EXIT_CHECK_FAILED};
 use crate::plot::{write_panels, Panel, Series};
 use crate::progress::{FitProgress, SearchProgress};
@@ -151,12 +151,17 @@ pub fn run(a: Args) -> Result<(), CliError> {
     let name = file_name(&a);
     let mut file = learned_file(&a, &arc, &context, &learned, &name, outside)?;
     write_atomically(&a.out, file.to_yaml().as_bytes()).map_err(CliError::input)?;
-    summarize(&learned, &a.out);
+    let scale = RmsScale::of(&arc);
+    summarize(&learned, &a.out, scale);
     if let Some(dir) = &a.plot {
-        plots(dir, &learned, &make, context, &options)?;
+        plots(dir, &learned, &arc, &make, context, &options)?;
     }
     if let Some(path) = &a.report {
         let mut j = report(&a, &learned, &file);
+        if scale == RmsScale::Sigma {
+            to_sigma_keys(&mut j, &learned);
+            j["tracking"] = super::fit::tracking_json(&learned.base, &arc);
+        }
         j["model_error"] = super::model_error_json(&model_error);
         write_report(path, &j)?;
     }
@@ -268,11 +273,76 @@ fn learned_file(
 /// Most search seeds one learn may run.
 const MAX_SEEDS: usize = 64;
 
-fn summarize(l: &Learned, out: &Path) {
+/// The unit of the learner's RMS: metres of position for a position arc, σ units
+/// (normalized residuals) for a tracking arc.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum RmsScale {
+    Metres,
+    Sigma,
+}
+
+impl RmsScale {
+    fn of(arc: &learned_forces::arc::Arc) -> RmsScale {
+        if arc.tracking.is_some() {
+            RmsScale::Sigma
+        } else {
+            RmsScale::Metres
+        }
+    }
+
+    /// A learner RMS (km for positions, σ for measurements) as text with its unit.
+    fn text(self, v: f64) -> String {
+        match self {
+            RmsScale::Metres => format!("{:.2} m", v * 1e3),
+            RmsScale::Sigma => format!("{v:.2} σ"),
+        }
+    }
+
+    /// A fit's overall RMS as text.
+    fn fit(self, r: &learned_forces::fit::FitResult) -> String {
+        match (self, r.rms_km) {
+            (RmsScale::Metres, Some(km)) => self.text(km),
+            _ => RmsScale::Sigma.text(r.rms_sigma),
+        }
+    }
+}
+
+/// A tracking arc's report: the RMS in σ units under `_sigma` keys (the `_km` keys are
+/// positions, which measurements do not give).
+fn to_sigma_keys(j: &mut serde_json::Value, l: &Learned) {
+    fn rename(v: &mut serde_json::Value) {
+        match v {
+            serde_json::Value::Object(o) => {
+                if let Some(x) = o.remove("held_out_rms_km") {
+                    o.insert("held_out_rms_sigma".into(), x);
+                }
+                if let Some(x) = o.remove("held_out_rms_km_known_forces") {
+                    o.insert("held_out_rms_sigma_known_forces".into(), x);
+                }
+                o.values_mut().for_each(rename);
+            }
+            serde_json::Value::Array(a) => a.iter_mut().for_each(rename),
+            _ => {}
+        }
+    }
+    rename(j);
+    if let Some(o) = j.as_object_mut() {
+        o.remove("rms_km_before");
+        o.remove("rms_km_after");
+        o.insert("rms_sigma_before".into(), l.base.rms_sigma.into());
+        let after = l
+            .chosen
+            .as_ref()
+            .map_or(l.base.rms_sigma, |c| c.fit.rms_sigma);
+        o.insert("rms_sigma_after".into(), after.into());
+    }
+}
+
+fn summarize(l: &Learned, out: &Path, scale: RmsScale) {
     let v = &l.base.verdict;
     println!(
-        "base fit: RMS {:.2} m, χ² {:.1} on {} dof, verdict {}",
-        l.base.rms_km.unwrap_or(f64::NAN) * 1e3,
+        "base fit: RMS {}, χ² {:.1} on {} dof, verdict {}",
+        scale.fit(&l.base),
         v.chi2,
         v.dof,
         if v.anomaly { "anomaly" } else { "no_anomaly" }
@@ -309,8 +379,8 @@ fn summarize(l: &Learned, out: &Path) {
     }
     for f in &l.front {
         let held = f
-            .held_out_rms_km
-            .map(|h| format!(", held-out {:.2} m", h * 1e3))
+            .held_out_rms
+            .map(|h| format!(", held-out {}", scale.text(h)))
             .unwrap_or_default();
         println!(
             "  front [{}] cost {:.1}{held}: {}",
@@ -320,12 +390,13 @@ fn summarize(l: &Learned, out: &Path) {
     match &l.chosen {
         Some(c) => {
             println!(
-                "learned: {}\n  RMS {:.2} m → {:.2} m; held-out {:.2} m (known forces: {:.2} m)",
+                "learned: {}\n  RMS {} → {}; held-out {} (known forces: {})",
                 c.terms.text(),
-                l.base.rms_km.unwrap_or(f64::NAN) * 1e3,
-                c.fit.rms_km.unwrap_or(f64::NAN) * 1e3,
-                c.held_out_rms_km * 1e3,
-                l.held_out_rms_base_km.unwrap_or(f64::NAN) * 1e3
+                scale.fit(&l.base),
+                scale.fit(&c.fit),
+                scale.text(c.held_out_rms),
+                l.held_out_rms_base
+                    .map_or("n/a".to_string(), |h| scale.text(h))
             );
             for (n, (v, s)) in c
                 .terms
@@ -404,10 +475,10 @@ fn report(a: &Args, l: &Learned, file: &LearnedFile) -> serde_json::Value {
         "constants": file.constants.iter().map(|c| serde_json::json!({"name": c.name, "value": c.value, "sigma": c.sigma, "unit": c.unit})).collect::<Vec<_>>(),
         "rms_km_before": l.base.rms_km,
         "rms_km_after": chosen.map(|c| c.fit.rms_km).unwrap_or(l.base.rms_km),
-        "held_out_rms_km": chosen.map(|c| c.held_out_rms_km),
-        "held_out_rms_km_known_forces": l.held_out_rms_base_km,
+        "held_out_rms_km": chosen.map(|c| c.held_out_rms),
+        "held_out_rms_km_known_forces": l.held_out_rms_base,
         "pareto_front": l.front.iter().map(|f| serde_json::json!({
-            "complexity": f.complexity, "cost": f.cost, "formula": f.formula, "held_out_rms_km": f.held_out_rms_km,
+            "complexity": f.complexity, "cost": f.cost, "formula": f.formula, "held_out_rms_km": f.held_out_rms,
         })).collect::<Vec<_>>(),
         "search": l.search_stats.map(|s| serde_json::json!({
             "candidates": s.evaluations,
@@ -421,7 +492,7 @@ fn report(a: &Args, l: &Learned, file: &LearnedFile) -> serde_json::Value {
             "runs": l.seed_runs.len(),
             "agreeing": l.seed_runs.iter().filter(|r| r.agrees).count(),
             "per_seed": l.seed_runs.iter().map(|r| serde_json::json!({
-                "seed": r.seed, "formula": r.formula, "held_out_rms_km": r.held_out_rms_km,
+                "seed": r.seed, "formula": r.formula, "held_out_rms_km": r.held_out_rms,
                 "agrees": r.agrees,
             })).collect::<Vec<_>>(),
         },
@@ -481,6 +552,7 @@ fn plot_scans(dir: &Path, timing: &Timing, base_cost: f64) -> Result<(), CliErro
 fn plots(
     dir: &Path,
     l: &Learned,
+    arc: &learned_forces::arc::Arc,
     make: &(dyn Fn(propagator::Epoch) -> Result<propagator::ForceModel, String> + Sync),
     context: Context,
     options: &LearnOptions,
@@ -489,20 +561,22 @@ fn plots(
     // Where selection's held-out tail begins (the same cut as the learner's).
     let last = l.base.residuals.last().map(|r| r.t_s).unwrap_or(0.0);
     let held_out_from = Some((1.0 - options.holdout_fraction) * last);
-    plot_residuals(
+    plot_fit_residuals(
         &dir.join(PLOT_FILES[0]),
         "Residuals with the known forces",
         &l.base,
+        arc,
         held_out_from,
     )?;
     if let Some((timing, base_cost)) = &l.timing {
         plot_scans(dir, timing, *base_cost)?;
     }
     let Some(c) = &l.chosen else { return Ok(()) };
-    plot_residuals(
+    plot_fit_residuals(
         &dir.join(PLOT_FILES[1]),
         "Residuals with the learned force",
         &c.fit,
+        arc,
         held_out_from,
     )?;
     let times: Vec<f64> = c.fit.residuals.iter().map(|r| r.t_s).collect();

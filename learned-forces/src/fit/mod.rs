@@ -317,6 +317,13 @@ pub fn fit(
         jacobian: lin.jac.clone(),
         weighted_residual: lin.z.clone(),
         values: fm.values.clone(),
+        radius_range_km: lin
+            .samples
+            .iter()
+            .fold((f64::INFINITY, 0.0f64), |(lo, hi), s| {
+                let r = propagator::state::position(&s.state).norm();
+                (lo.min(r), hi.max(r))
+            }),
     })
 }
 

@@ -142,6 +142,9 @@ pub struct FitResult {
     pub weighted_residual: DVector<f64>,
     /// Final values of the estimated parameters (same order as `estimates`).
     pub values: Vec<f64>,
+    /// Smallest and largest geocentric distance of the fitted trajectory at the
+    /// observations' epochs, km (where a tracking arc's object was: it gives no positions).
+    pub radius_range_km: (f64, f64),
 }
 
 impl FitResult {

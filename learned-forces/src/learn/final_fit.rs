@@ -19,7 +19,7 @@ impl Learner<'_> {
         problem: &Problem,
         sol: Solution,
         train_fit: &FitResult,
-        held_out_rms_km: f64,
+        held_out_rms: f64,
         notes: &mut Vec<String>,
         observer: &mut dyn FitObserver,
     ) -> Result<Chosen, LearnError> {
@@ -110,7 +110,7 @@ impl Learner<'_> {
                 constant_sigmas,
             },
             fit: full,
-            held_out_rms_km,
+            held_out_rms,
             absorbed,
         })
     }

@@ -196,11 +196,6 @@ pub fn learn(
     fit_observer: &mut dyn FitObserver,
     search_observer: &dyn SearchObserver,
 ) -> Result<Learned, LearnError> {
-    if arc.tracking.is_some() {
-        return Err(LearnError::Unfit(
-            "learning from tracking measurements is not available yet: fit them with `arcwise fit`, or learn from a position arc".into(),
-        ));
-    }
     let l = Learner {
         arc,
         make_model,
@@ -220,11 +215,11 @@ pub fn learn(
         ));
     }
     let nothing =
-        |base, front, held_out_rms_base_km, notes, search_stats, seed_runs, timing| Learned {
+        |base, front, held_out_rms_base, notes, search_stats, seed_runs, timing| Learned {
             base,
             chosen: None,
             front,
-            held_out_rms_base_km,
+            held_out_rms_base,
             notes,
             search_stats,
             seed_runs,
@@ -262,9 +257,9 @@ pub fn learn(
     let timing = Some((seeded.timing, problem.base_cost()));
     let declined = match &seeded.chosen {
         None => Some("no candidate survived refinement with significant terms".to_string()),
-        Some(c) if c.held_out_rms_km >= held_out_base => Some(format!(
+        Some(c) if c.held_out_rms >= held_out_base => Some(format!(
             "the best model predicts the held-out tail no better than the known forces ({:.1} m vs {:.1} m): nothing learned",
-            c.held_out_rms_km * 1e3,
+            c.held_out_rms * 1e3,
             held_out_base * 1e3
         )),
         Some(_) => None,
@@ -279,7 +274,7 @@ pub fn learn(
     let (sol, train_fit, rms) = l.canonical_equivalent(
         &problem,
         (&split.train, &base_train, &split.held),
-        (chosen.solution, chosen.fit, chosen.held_out_rms_km),
+        (chosen.solution, chosen.fit, chosen.held_out_rms),
         best,
         &mut notes,
         fit_observer,
@@ -298,7 +293,7 @@ pub fn learn(
         base,
         chosen: Some(chosen),
         front,
-        held_out_rms_base_km: Some(held_out_base),
+        held_out_rms_base: Some(held_out_base),
         notes,
         search_stats: stats,
         seed_runs: runs,
@@ -319,16 +314,16 @@ fn front_entries(seeded: &seeds::Seeded) -> Vec<FrontEntry> {
         .iter()
         .map(|s| {
             let formula = s.terms.text();
-            let held_out_rms_km = seeded
+            let held_out_rms = seeded
                 .refined
                 .iter()
                 .find(|r| r.member == formula)
-                .map(|r| r.held_out_rms_km);
+                .map(|r| r.held_out_rms);
             FrontEntry {
                 complexity: s.complexity,
                 formula,
                 cost: s.cost,
-                held_out_rms_km,
+                held_out_rms,
             }
         })
         .collect()
@@ -370,7 +365,7 @@ mod tests {
         let run = |seed, formula: Option<&str>, agrees| SeedRun {
             seed,
             formula: formula.map(str::to_string),
-            held_out_rms_km: None,
+            held_out_rms: None,
             agrees,
         };
         let all = [run(1, Some("a"), true), run(2, Some("a"), true)];

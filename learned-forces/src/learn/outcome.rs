@@ -13,7 +13,7 @@ pub struct FrontEntry {
     /// Weighted cost left on the training arc, linearized.
     pub cost: f64,
     /// Held-out position RMS after refinement, km (refined candidates only).
-    pub held_out_rms_km: Option<f64>,
+    pub held_out_rms: Option<f64>,
 }
 
 /// The chosen model, fitted on the whole arc.
@@ -24,7 +24,7 @@ pub struct Chosen {
     /// The fit of the whole arc with the learned force in the dynamics.
     pub fit: FitResult,
     /// Held-out RMS of this model (trained on the early part), km.
-    pub held_out_rms_km: f64,
+    pub held_out_rms: f64,
     /// Fraction of each term's signature absorbed by the initial-state directions.
     pub absorbed: Vec<f64>,
 }
@@ -39,7 +39,7 @@ pub struct Learned {
     /// The front, simplest first.
     pub front: Vec<FrontEntry>,
     /// Held-out RMS of the base model, km.
-    pub held_out_rms_base_km: Option<f64>,
+    pub held_out_rms_base: Option<f64>,
     /// Sentences for the report.
     pub notes: Vec<String>,
     /// Candidate evaluations, generations, seconds of the search.

@@ -19,7 +19,7 @@ pub(super) struct Refined {
     /// The training arc fitted with them.
     pub(super) fit: FitResult,
     /// Their prediction of the held-out tail, km.
-    pub(super) held_out_rms_km: f64,
+    pub(super) held_out_rms: f64,
 }
 
 impl Learner<'_> {
@@ -48,7 +48,7 @@ impl Learner<'_> {
                 Some((solution, fit)) => Some(Refined {
                     complexity: front[idx].complexity,
                     member: front[idx].terms.text(),
-                    held_out_rms_km: self.predict_rms(&fit, &solution.terms.nodes, &split.held)?,
+                    held_out_rms: self.predict_rms(&fit, &solution.terms.nodes, &split.held)?,
                     solution,
                     fit,
                 }),

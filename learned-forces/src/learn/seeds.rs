@@ -27,7 +27,7 @@ pub struct SeedRun {
     /// The model its search, refinement and selection chose (`None`: none survived).
     pub formula: Option<String>,
     /// Its held-out position RMS, km.
-    pub held_out_rms_km: Option<f64>,
+    pub held_out_rms: Option<f64>,
     /// Whether it is equivalent to the model finally chosen.
     pub agrees: bool,
 }
@@ -116,7 +116,7 @@ impl Learner<'_> {
         let group = groups(&predictions);
         let held: Vec<Option<f64>> = choices
             .iter()
-            .map(|c| c.as_ref().map(|c| c.held_out_rms_km))
+            .map(|c| c.as_ref().map(|c| c.held_out_rms))
             .collect();
         let chosen_group = most_agreed(&held, &group);
         let chosen = chosen_group
@@ -129,7 +129,7 @@ impl Learner<'_> {
             .map(|((&seed, c), g)| SeedRun {
                 seed,
                 formula: c.as_ref().map(|c| c.solution.terms.text()),
-                held_out_rms_km: c.as_ref().map(|c| c.held_out_rms_km),
+                held_out_rms: c.as_ref().map(|c| c.held_out_rms),
                 agrees: g.is_some() && *g == chosen_group,
             })
             .collect();
@@ -137,7 +137,7 @@ impl Learner<'_> {
         refined.sort_by(|a, b| {
             a.complexity
                 .cmp(&b.complexity)
-                .then(a.held_out_rms_km.total_cmp(&b.held_out_rms_km))
+                .then(a.held_out_rms.total_cmp(&b.held_out_rms))
         });
         Ok(Seeded {
             searches,

@@ -9,7 +9,7 @@ use crate::arc::Arc;
 pub(super) fn best_held_out(refined: &[Refined]) -> f64 {
     refined
         .iter()
-        .map(|r| r.held_out_rms_km)
+        .map(|r| r.held_out_rms)
         .fold(f64::INFINITY, f64::min)
 }
 
@@ -23,7 +23,7 @@ pub(super) fn simplest_as_good(
 ) -> Option<Refined> {
     refined
         .iter()
-        .filter(|r| predicts_as_well(r.held_out_rms_km, best, held, options.selection_tolerance))
+        .filter(|r| predicts_as_well(r.held_out_rms, best, held, options.selection_tolerance))
         .min_by_key(|r| {
             r.solution
                 .terms

@@ -70,12 +70,24 @@ pub enum OutsidePolicy {
 pub struct FitEntry {
     /// Observations in the training arc.
     pub observations: usize,
-    /// Position RMS with the known forces only, km.
-    pub rms_km_before: f64,
-    /// Position RMS with the learned force, km.
-    pub rms_km_after: f64,
-    /// Position RMS on the held-out tail, km.
-    pub held_out_rms_km: f64,
+    /// Position RMS with the known forces only, km (a position arc).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rms_km_before: Option<f64>,
+    /// Position RMS with the learned force, km (a position arc).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rms_km_after: Option<f64>,
+    /// Position RMS on the held-out tail, km (a position arc).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub held_out_rms_km: Option<f64>,
+    /// RMS of the normalized residuals with the known forces only (a tracking arc).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rms_sigma_before: Option<f64>,
+    /// RMS of the normalized residuals with the learned force (a tracking arc).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rms_sigma_after: Option<f64>,
+    /// RMS of the normalized residuals on the held-out tail (a tracking arc).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub held_out_rms_sigma: Option<f64>,
     /// χ² after.
     pub chi2: f64,
     /// Degrees of freedom after.

@@ -259,41 +259,38 @@ impl LearnedFile {
     ) -> Self {
         let l = learned;
         let r = context.radius_km;
-        // `learn` refuses tracking arcs, so every observation here is a position.
-        let heights: Vec<f64> = arc
-            .observations
-            .iter()
-            .filter_map(|o| o.as_state().map(|s| s.r_km.norm() - r))
-            .collect();
+        let heights = validity_heights(arc, &l.base, r);
         let span = arc.end().seconds_since(&arc.start());
         let observations = arc.observations.len();
         let (terms, constants) = l
             .chosen
             .as_ref()
             .map_or((vec![], vec![]), |c| entries(&c.terms));
-        let (fit, end) = match &l.chosen {
+        let (after, held_out, end) = match &l.chosen {
             Some(c) => (
-                FitEntry {
-                    observations,
-                    rms_km_before: l.base.rms_km.unwrap_or(f64::NAN),
-                    rms_km_after: c.fit.rms_km.unwrap_or(f64::NAN),
-                    held_out_rms_km: c.held_out_rms_km,
-                    chi2: c.fit.verdict.chi2,
-                    dof: c.fit.verdict.dof,
-                },
+                &c.fit,
+                Some(c.held_out_rms),
                 StateEntry::new(&c.fit.epoch_last, &c.fit.x_last),
             ),
             None => (
-                FitEntry {
-                    observations,
-                    rms_km_before: l.base.rms_km.unwrap_or(f64::NAN),
-                    rms_km_after: l.base.rms_km.unwrap_or(f64::NAN),
-                    held_out_rms_km: l.held_out_rms_base_km.unwrap_or(f64::NAN).max(0.0),
-                    chi2: l.base.verdict.chi2,
-                    dof: l.base.verdict.dof,
-                },
+                &l.base,
+                l.held_out_rms_base,
                 StateEntry::new(&l.base.epoch_last, &l.base.x_last),
             ),
+        };
+        // A tracking arc's RMS are in σ units, a position arc's in km.
+        let held_out = held_out.filter(|v| v.is_finite()).unwrap_or(0.0).max(0.0);
+        let (km, sigma) = (arc.tracking.is_none(), arc.tracking.is_some());
+        let fit = FitEntry {
+            observations,
+            rms_km_before: l.base.rms_km,
+            rms_km_after: after.rms_km,
+            held_out_rms_km: km.then_some(held_out),
+            rms_sigma_before: sigma.then_some(l.base.rms_sigma),
+            rms_sigma_after: sigma.then_some(after.rms_sigma),
+            held_out_rms_sigma: sigma.then_some(held_out),
+            chi2: after.verdict.chi2,
+            dof: after.verdict.dof,
         };
         // The classical parameters of the fit the terms came with (the base fit's when
         // nothing was learned), and a note to use them with the file.
@@ -310,14 +307,6 @@ impl LearnedFile {
                     .join(", ")
             ));
         }
-        let fit = FitEntry {
-            held_out_rms_km: if fit.held_out_rms_km.is_finite() {
-                fit.held_out_rms_km
-            } else {
-                0.0
-            },
-            ..fit
-        };
         Self {
             format_version: FORMAT_VERSION,
             name: name.to_string(),
@@ -470,4 +459,23 @@ fn known_parameters(fit: &crate::fit::FitResult) -> Vec<ConstantEntry> {
             sigma: e.sigma,
         })
         .collect()
+}
+
+/// The altitudes (km) the learned force's validity covers: the observed positions' of a
+/// position arc; of a tracking arc, the fitted trajectory's at the measurements' epochs
+/// (the measurements give no positions).
+fn validity_heights(
+    arc: &crate::arc::Arc,
+    base: &crate::fit::FitResult,
+    radius_km: f64,
+) -> Vec<f64> {
+    if arc.tracking.is_none() {
+        return arc
+            .observations
+            .iter()
+            .filter_map(|o| o.as_state().map(|s| s.r_km.norm() - radius_km))
+            .collect();
+    }
+    let (lo, hi) = base.radius_range_km;
+    vec![lo - radius_km, hi - radius_km]
 }
