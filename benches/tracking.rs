@@ -1,11 +1,15 @@
 //! The cost of one tracking measurement and its partials: topocentric az/el/range (ITRF),
 //! RA/Dec (GCRF, the Earth's rotation given), a two-way range with light time (the object
-//! on a closed-form circular orbit, the site turning with the Earth).
+//! on a closed-form circular orbit, the site turning with the Earth), the whole
+//! measurement model the fit calls; and of a whole 1-day radar fit.
 
 use criterion::{criterion_group, criterion_main, Criterion};
+use learned_forces::fit::{fit, FitOptions, QuietFit};
+use learned_forces::scenario::ScenarioSpec;
 use nalgebra::Vector3;
 use propagator::earth::EarthOrientation;
 use propagator::tracking::light_time::{two_way, Tag};
+use propagator::tracking::measurement::{model, Kind};
 use propagator::tracking::site::Site;
 use std::hint::black_box;
 
@@ -42,8 +46,51 @@ fn bench(c: &mut Criterion) {
     g.bench_function("two-way range with light time", |b| {
         b.iter(|| two_way(black_box(100.0), Tag::Receive, &station, &object))
     });
+    // What the fit calls per measurement: the model with light time and its partials.
+    let x = propagator::StateVector::new(5200.0, -400.0, 4400.0, -3.0, 6.0, 2.5);
+    let mu = 398_600.441_8;
+    for kind in [Kind::Range, Kind::Azimuth, Kind::RightAscension] {
+        g.bench_function(format!("{} model with partials", kind.info().word), |b| {
+            b.iter(|| model(kind, Tag::Receive, &site, black_box(&x), mu, &rotation))
+        });
+    }
     g.finish();
 }
 
-criterion_group!(benches, bench);
+/// A whole fit of a simulated 1-day radar campaign (3 sites, range and az/el every 10 s
+/// while visible: 1686 measurements), from the initial orbit it determines itself.
+fn radar_fit(c: &mut Criterion) {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let path = root.join("examples/scenarios/radar_quiet.yaml");
+    let sites_path = root.join("examples/sites/radar_campaign.yaml");
+    let sites = propagator::tracking::sites_file::parse(
+        &std::fs::read_to_string(&sites_path).unwrap(),
+        &sites_path,
+    )
+    .unwrap();
+    let tracking = std::sync::Arc::new(learned_forces::arc::Tracking {
+        sites,
+        earth: EarthOrientation::shipped().unwrap(),
+    });
+    let spec = ScenarioSpec::load(&path).unwrap();
+    let sim = spec.simulate_with(&path, Some(&tracking)).unwrap();
+    let known = spec.models(&path).unwrap().known;
+    let mut g = c.benchmark_group("tracking fit");
+    g.sample_size(10);
+    g.bench_function("1-day radar campaign", |b| {
+        b.iter(|| {
+            let model = known.build(&path, sim.train.start()).unwrap().model;
+            fit(
+                &sim.train,
+                model.into(),
+                &FitOptions::default(),
+                &mut QuietFit,
+            )
+            .unwrap()
+        })
+    });
+    g.finish();
+}
+
+criterion_group!(benches, bench, radar_fit);
 criterion_main!(benches);

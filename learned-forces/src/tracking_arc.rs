@@ -331,7 +331,9 @@ pub fn to_tdm(arc: &Arc, t: &Tracking, object: &str) -> String {
                 path: if two_way { vec![2, 1, 2] } else { vec![1, 2] },
                 timetag_ref: TimetagRef::Receive,
                 angle_type,
-                reference_frame: (angle_type == Some(AngleType::RaDec)).then(|| "GCRF".into()),
+                // The registry's name for the axes GCRF directions are given in (GCRF
+                // is the ICRF's axes at the geocentre; `GCRF` itself is not a TDM value).
+                reference_frame: (angle_type == Some(AngleType::RaDec)).then(|| "ICRF".into()),
                 range_modulus_km: None,
                 corrections: vec![],
                 corrections_applied: false,

@@ -35,6 +35,10 @@ pub struct Args {
     /// Size of the anomaly test (false-alarm probability).
     #[arg(long, default_value = "1e-3")]
     alpha: f64,
+    /// Start the fit from this state (STATE.yaml, carried to the arc's first epoch with
+    /// the known forces) instead of the initial orbit determined from the data.
+    #[arg(long, value_name = "STATE.yaml")]
+    initial: Option<PathBuf>,
     /// Write a JSON report here.
     #[arg(long, value_name = "R.json")]
     report: Option<PathBuf>,
@@ -62,16 +66,56 @@ pub fn parse_estimate(items: &[String]) -> Result<Vec<Parameter>, CliError> {
     Ok(out)
 }
 
+/// The state of `path` carried to `start` under `model` (whose `t_s = 0` is `start`).
+fn initial_at(
+    path: &Path,
+    spec: &ForcesFile,
+    model: &propagator::ForceModel,
+    start: &propagator::Epoch,
+) -> Result<propagator::StateVector, CliError> {
+    use propagator::propagation::{propagate, Options, Request, Silent};
+    let given =
+        propagator::config::StateFile::load(path, &spec.central_body).map_err(CliError::input)?;
+    let t0 = given.epoch.seconds_since(start);
+    if t0.abs() < 1e-6 {
+        return Ok(given.state);
+    }
+    let request = Request {
+        x0: given.state,
+        t0_s: t0,
+        t_end_s: 0.0,
+        output_times_s: &[0.0],
+        stop_times_s: &[],
+    };
+    let p = propagate(model, &request, &Options::default(), &mut Silent).map_err(|e| {
+        CliError::input(format!(
+            "{}: carrying the state to {start}: {e}",
+            path.display()
+        ))
+    })?;
+    p.samples.last().map(|(_, x)| *x).ok_or_else(|| {
+        CliError::input(format!(
+            "{}: the state does not reach {start}",
+            path.display()
+        ))
+    })
+}
+
 /// Loads an arc and a force model on the arc's time axis, and fits it with the
-/// `estimate` parameters.
+/// `estimate` parameters, from `initial` (a state file) when given.
 pub fn load_and_fit(
     arc_path: &Path,
     forces_path: &Path,
     arc_options: &super::ArcOptions,
-    (estimate, options): (&[Parameter], &FitOptions),
+    (estimate, options, initial): (&[Parameter], &FitOptions, Option<&Path>),
 ) -> Result<(Arc, ForcesFile, FitResult, ModelError), CliError> {
     let spec = ForcesFile::load(forces_path).map_err(CliError::input)?;
     let (arc, loaded, model_error) = arc_options.load(arc_path, &spec, forces_path)?;
+    let mut options = options.clone();
+    if let Some(path) = initial {
+        options.initial_state = Some(initial_at(path, &spec, &loaded.model, &arc.start())?);
+    }
+    let options = &options;
     let model = FitModel::new(loaded.model, estimate, None)
         .map_err(|e| CliError::input(format!("{}: {e}", forces_path.display())))?;
     let mut progress = FitProgress::new("fit");
@@ -277,8 +321,12 @@ pub fn run(a: Args) -> Result<(), CliError> {
     if !(a.alpha > 0.0 && a.alpha < 0.5) {
         return Err(CliError::input("--alpha must be between 0 and 0.5"));
     }
-    let (arc, _, r, model_error) =
-        load_and_fit(&a.arc, &a.forces, &a.arc_options, (&estimate, &options))?;
+    let (arc, _, r, model_error) = load_and_fit(
+        &a.arc,
+        &a.forces,
+        &a.arc_options,
+        (&estimate, &options, a.initial.as_deref()),
+    )?;
     let v = &r.verdict;
     if model_error.floor_km > 0.0 {
         println!(
