@@ -4,8 +4,9 @@
 //!   positions (at most 15, within 600 s).
 //! - A radar arc: the first pass with range, azimuth and elevation at one epoch gives
 //!   positions (site + range along the line of sight, light time neglected: ~25 m in
-//!   LEO, far inside what the fit corrects); the same polynomial through them gives a
-//!   state, carried to the arc's start on a Kepler orbit.
+//!   LEO, far inside what the fit corrects); smoothed by the same polynomial, three of
+//!   them give the velocity by Herrick–Gibbs; the state is carried to the arc's start on
+//!   a Kepler orbit.
 //! - Angles only: Gauss's method (`gauss.rs`) on the first, middle and last right
 //!   ascension/declination pair of one site's first pass, the root that best predicts
 //!   the sights of the next hours kept, carried to the start the same way.
@@ -22,7 +23,7 @@ use propagator::StateVector;
 pub(super) fn initial_guess(arc: &Arc, t: &[f64], mu: f64) -> Result<StateVector, FitError> {
     if arc.tracking.is_some() {
         let (t_k, x_k) = match radar_positions(arc, t) {
-            Some(points) => (points[0].0, polynomial_state(&points)?),
+            Some(points) => radar_state(&points, mu)?,
             None => match angles_only(arc, t, mu) {
                 Some(found) => found,
                 None => return Err(FitError::Unfit(
@@ -93,6 +94,54 @@ fn polynomial_state(points: &[(f64, Vector3<f64>)]) -> Result<StateVector, FitEr
         x[c + 3] = coef[1];
     }
     Ok(x)
+}
+
+/// A state (s from the start, state) from a pass of radar positions: the positions
+/// smoothed by a least-squares polynomial (the radar's cross-range noise is hundreds of
+/// metres), taken at the first, middle and last epoch, and Herrick–Gibbs's velocity at
+/// the middle one.
+fn radar_state(points: &[(f64, Vector3<f64>)], mu: f64) -> Result<(f64, StateVector), FitError> {
+    // The smoothed position at t: the polynomial refitted with its origin at t.
+    let smooth = |t: f64| {
+        let shifted: Vec<(f64, Vector3<f64>)> = points.iter().map(|(ti, r)| (ti - t, *r)).collect();
+        polynomial_value_at_zero(&shifted)
+            .ok_or_else(|| FitError::Unfit("the first radar pass gives no usable positions".into()))
+    };
+    let (t1, t3) = (points[0].0, points[points.len() - 1].0);
+    let t2 = 0.5 * (t1 + t3);
+    let (r1, r2, r3) = (smooth(t1)?, smooth(t2)?, smooth(t3)?);
+    let v = herrick_gibbs([(t1, r1), (t2, r2), (t3, r3)], mu);
+    Ok((t2, StateVector::new(r2[0], r2[1], r2[2], v[0], v[1], v[2])))
+}
+
+/// The value at 0 of the least-squares polynomial (degree ≤ 3) through `points`.
+fn polynomial_value_at_zero(points: &[(f64, Vector3<f64>)]) -> Option<Vector3<f64>> {
+    let k = points.len();
+    let deg = k.checked_sub(1)?.min(3);
+    let mut a = DMatrix::zeros(k, deg + 1);
+    for (i, (ti, _)) in points.iter().enumerate() {
+        for d in 0..=deg {
+            a[(i, d)] = ti.powi(d as i32);
+        }
+    }
+    let svd = a.svd(true, true);
+    let mut out = Vector3::zeros();
+    for c in 0..3 {
+        let b = DVector::from_iterator(k, points.iter().map(|(_, r)| r[c]));
+        out[c] = svd.solve(&b, 1e-14).ok()?[0];
+    }
+    Some(out)
+}
+
+/// Herrick–Gibbs: the velocity at the middle of three closely spaced positions
+/// (s, GCRF km), a Taylor series with the central body's gravity (from memory, as in
+/// astrodynamics textbooks).
+pub(super) fn herrick_gibbs(p: [(f64, Vector3<f64>); 3], mu: f64) -> Vector3<f64> {
+    let (t21, t32, t31) = (p[1].0 - p[0].0, p[2].0 - p[1].0, p[2].0 - p[0].0);
+    let g = |r: &Vector3<f64>| mu / (12.0 * r.norm().powi(3));
+    -t32 * (1.0 / (t21 * t31) + g(&p[0].1)) * p[0].1
+        + (t32 - t21) * (1.0 / (t21 * t32) + g(&p[1].1)) * p[1].1
+        + t21 * (1.0 / (t32 * t31) + g(&p[2].1)) * p[2].1
 }
 
 /// Positions (s from the start, GCRF km) of the first pass that has range, azimuth and
@@ -266,4 +315,32 @@ fn sight_misfit(all: &[(usize, Sight)], t_x: f64, x: &StateVector, mu: f64) -> f
         n += 1;
     }
     (ss / n.max(1) as f64).sqrt()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn herrick_gibbs_recovers_a_kepler_velocity_from_positions_a_minute_apart() {
+        // Exact positions of a 550-km orbit 60 s apart (about 4° of arc): the series'
+        // truncation leaves 2.8 mm/s (measured), far inside what the batch fit corrects.
+        let mu = 398_600.441_8;
+        let el = Elements {
+            sma_km: 6928.0,
+            ecc: 0.001,
+            inc_rad: 1.7,
+            raan_rad: 1.0,
+            argp_rad: 0.5,
+            true_anomaly_rad: 0.3,
+        };
+        let x = el.to_state(mu).unwrap();
+        let at = |dt: f64| {
+            let y = kepler_shift(&x, dt, mu).unwrap();
+            Vector3::new(y[0], y[1], y[2])
+        };
+        let v = herrick_gibbs([(-60.0, at(-60.0)), (0.0, at(0.0)), (60.0, at(60.0))], mu);
+        let err = (v - Vector3::new(x[3], x[4], x[5])).norm();
+        assert!(err < 1e-5, "{err} km/s");
+    }
 }
