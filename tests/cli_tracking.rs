@@ -10,12 +10,13 @@ fn root() -> &'static Path {
     Path::new(env!("CARGO_MANIFEST_DIR"))
 }
 
-fn simulate(out: &Path, format: &str) {
+/// `arcwise simulate` of a shipped scenario with shipped sites, into `out`.
+fn simulate_with(scenario: &str, sites: &str, out: &Path, format: &str) {
     let (code, stdout, err) = arcwise(&[
         "simulate",
-        s(&root().join("examples/scenarios/radar_quiet.yaml")),
+        s(&root().join("examples/scenarios").join(scenario)),
         "--sites",
-        s(&root().join("examples/sites/radar_campaign.yaml")),
+        s(&root().join("examples/sites").join(sites)),
         "--format",
         format,
         "--out",
@@ -23,6 +24,10 @@ fn simulate(out: &Path, format: &str) {
     ]);
     assert_eq!(code, 0, "{err}");
     assert!(stdout.contains("measured by the sites"), "{stdout}");
+}
+
+fn simulate(out: &Path, format: &str) {
+    simulate_with("radar_quiet.yaml", "radar_campaign.yaml", out, format);
 }
 
 fn fit(arc: &Path, forces: &Path, report: &Path) -> serde_json::Value {
@@ -105,15 +110,7 @@ fn venting_seen_by_radar_is_learned_and_the_next_passes_check() {
     let d = tempfile::tempdir().unwrap();
     let out = d.path().join("sim");
     let sites = root().join("examples/sites/radar_campaign.yaml");
-    let (code, _, err) = arcwise(&[
-        "simulate",
-        s(&root().join("examples/scenarios/radar_venting.yaml")),
-        "--sites",
-        s(&sites),
-        "--out",
-        s(&out),
-    ]);
-    assert_eq!(code, 0, "{err}");
+    simulate_with("radar_venting.yaml", "radar_campaign.yaml", &out, "tdm");
     let (learned, report) = (d.path().join("l.yaml"), d.path().join("l.json"));
     let (code, stdout, err) = arcwise(&[
         "learn",
@@ -199,15 +196,7 @@ fn angles_only_fits_from_gauss_and_from_a_given_state_agree() {
     let d = tempfile::tempdir().unwrap();
     let out = d.path().join("sim");
     let sites = root().join("examples/sites/optical_pair.yaml");
-    let (code, _, err) = arcwise(&[
-        "simulate",
-        s(&root().join("examples/scenarios/optical_quiet.yaml")),
-        "--sites",
-        s(&sites),
-        "--out",
-        s(&out),
-    ]);
-    assert_eq!(code, 0, "{err}");
+    simulate_with("optical_quiet.yaml", "optical_pair.yaml", &out, "tdm");
     let oem = std::fs::read_to_string(out.join("truth.oem")).unwrap();
     let first: Vec<&str> = oem
         .lines()

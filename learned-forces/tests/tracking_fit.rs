@@ -24,34 +24,43 @@ fn radar_sites() -> std::sync::Arc<Tracking> {
     })
 }
 
+/// Fits `train` with the scenario's known forces, from the initial orbit it determines.
+fn fit_train(spec: &ScenarioSpec, path: &Path, train: &Arc) -> FitResult {
+    let forces = spec
+        .models(path)
+        .unwrap()
+        .known
+        .build(Path::new("forces"), train.start())
+        .unwrap();
+    fit(
+        train,
+        forces.model.into(),
+        &FitOptions::default(),
+        &mut QuietFit,
+    )
+    .unwrap()
+}
+
+/// The truth at the training arc's first measurement (the fit's epoch, a sampling
+/// epoch of the truth ephemeris).
+fn truth_at_start(sim: &learned_forces::scenario::Simulated) -> StateVector {
+    let start = sim.train.start();
+    sim.truth
+        .points
+        .iter()
+        .find(|p| p.epoch.seconds_since(&start).abs() < 1e-6)
+        .unwrap()
+        .state
+}
+
 /// Simulates the radar campaign with `seed` and fits its training arc.
 fn radar_fit(seed: u64) -> (FitResult, StateVector, Arc) {
     let path = example("scenarios/radar_quiet.yaml");
     let mut spec = ScenarioSpec::load(&path).unwrap();
     spec.tracking.seed = seed;
     let sim = spec.simulate_with(&path, Some(&radar_sites())).unwrap();
-    let forces = spec
-        .models(&path)
-        .unwrap()
-        .known
-        .build(Path::new("forces"), sim.train.start())
-        .unwrap();
-    let r = fit(
-        &sim.train,
-        forces.model.into(),
-        &FitOptions::default(),
-        &mut QuietFit,
-    )
-    .unwrap();
-    // The truth at the arc's first measurement (the fit's epoch), a sampling epoch.
-    let start = sim.train.start();
-    let truth = sim
-        .truth
-        .points
-        .iter()
-        .find(|p| p.epoch.seconds_since(&start).abs() < 1e-6)
-        .unwrap()
-        .state;
+    let r = fit_train(&spec, &path, &sim.train);
+    let truth = truth_at_start(&sim);
     (r, truth, sim.train)
 }
 
@@ -106,19 +115,7 @@ fn a_bad_range_is_edited_without_the_angles_of_its_epoch() {
     if let learned_forces::arc::Observed::Tracking(m) = &mut sim.train.observations[i].observed {
         m.value += 2.0;
     }
-    let forces = spec
-        .models(&path)
-        .unwrap()
-        .known
-        .build(Path::new("forces"), sim.train.start())
-        .unwrap();
-    let r = fit(
-        &sim.train,
-        forces.model.into(),
-        &FitOptions::default(),
-        &mut QuietFit,
-    )
-    .unwrap();
+    let r = fit_train(&spec, &path, &sim.train);
     let edited: Vec<usize> = (0..r.residuals.len())
         .filter(|&k| !r.residuals[k].used)
         .collect();
@@ -167,19 +164,7 @@ fn an_unmodelled_push_seen_by_radar_is_an_anomaly() {
         }
     }
     let sim = spec.simulate_with(&path, Some(&radar_sites())).unwrap();
-    let forces = spec
-        .models(&path)
-        .unwrap()
-        .known
-        .build(Path::new("forces"), sim.train.start())
-        .unwrap();
-    let r = fit(
-        &sim.train,
-        forces.model.into(),
-        &FitOptions::default(),
-        &mut QuietFit,
-    )
-    .unwrap();
+    let r = fit_train(&spec, &path, &sim.train);
     eprintln!("venting by radar: {:?}", r.verdict.reasons);
     assert!(r.verdict.anomaly);
 }
@@ -212,27 +197,8 @@ fn angles_only_over_two_nights_start_from_gauss_and_converge_without_a_guess() {
                 propagator::tracking::measurement::Kind::RightAscension
                     | propagator::tracking::measurement::Kind::Declination
             ))));
-        let forces = spec
-            .models(&path)
-            .unwrap()
-            .known
-            .build(Path::new("forces"), sim.train.start())
-            .unwrap();
-        let r = fit(
-            &sim.train,
-            forces.model.into(),
-            &FitOptions::default(),
-            &mut QuietFit,
-        )
-        .unwrap();
-        let start = sim.train.start();
-        let truth = sim
-            .truth
-            .points
-            .iter()
-            .find(|p| p.epoch.seconds_since(&start).abs() < 1e-6)
-            .unwrap()
-            .state;
+        let r = fit_train(&spec, &path, &sim.train);
+        let truth = truth_at_start(&sim);
         let worst = (0..6)
             .map(|c| ((r.x0[c] - truth[c]) / r.x0_sigma[c]).abs())
             .fold(0.0, f64::max);
