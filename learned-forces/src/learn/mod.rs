@@ -185,6 +185,15 @@ pub fn linearize(
     Ok((base, problem))
 }
 
+/// A learner RMS with its unit: metres for a position arc, σ units for a tracking arc.
+fn rms_text(arc: &Arc, v: f64) -> String {
+    if arc.tracking.is_some() {
+        format!("{v:.2} σ")
+    } else {
+        format!("{:.1} m", v * 1e3)
+    }
+}
+
 /// Learns the missing force of `arc` under the known forces `make_model(epoch)` builds.
 /// On an arc shorter than one revolution only a quiet verdict is given (with a note); an
 /// anomalous one is refused.
@@ -258,9 +267,9 @@ pub fn learn(
     let declined = match &seeded.chosen {
         None => Some("no candidate survived refinement with significant terms".to_string()),
         Some(c) if c.held_out_rms >= held_out_base => Some(format!(
-            "the best model predicts the held-out tail no better than the known forces ({:.1} m vs {:.1} m): nothing learned",
-            c.held_out_rms * 1e3,
-            held_out_base * 1e3
+            "the best model predicts the held-out tail no better than the known forces ({} vs {}): nothing learned",
+            rms_text(arc, c.held_out_rms),
+            rms_text(arc, held_out_base)
         )),
         Some(_) => None,
     };
@@ -279,8 +288,10 @@ pub fn learn(
         &mut notes,
         fit_observer,
     )?;
-    // 8. Final fit on the whole arc.
-    let chosen = l.final_fit(
+    // 8. Final fit on the whole arc. A model the whole arc cannot determine (a constant
+    // with no effect there) is reported as such, not as a failed learn.
+    let text = sol.terms.text();
+    let chosen = match l.final_fit(
         &base,
         &problem,
         sol,
@@ -288,7 +299,17 @@ pub fn learn(
         rms,
         &mut notes,
         fit_observer,
-    )?;
+    ) {
+        Ok(c) => c,
+        Err(LearnError::Fit(e)) => {
+            notes.push(format!(
+                "the chosen model `{text}` could not be fitted on the whole arc ({e}): nothing learned"
+            ));
+            let held = Some(held_out_base);
+            return Ok(nothing(base, front, held, notes, stats, runs, timing));
+        }
+        Err(e) => return Err(e),
+    };
     Ok(Learned {
         base,
         chosen: Some(chosen),
