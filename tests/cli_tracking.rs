@@ -244,3 +244,68 @@ fn angles_only_fits_from_gauss_and_from_a_given_state_agree() {
         assert!((a - b).abs() < 1e-3, "{a} vs {b} km");
     }
 }
+
+#[test]
+fn rank_and_learn_take_a_starting_state_and_refuse_a_missing_one() {
+    let d = tempfile::tempdir().unwrap();
+    let out = d.path().join("sim");
+    simulate(&out, "tdm");
+    let oem = std::fs::read_to_string(out.join("truth.oem")).unwrap();
+    let f: Vec<&str> = oem
+        .lines()
+        .find(|l| l.starts_with("2026-"))
+        .unwrap()
+        .split_whitespace()
+        .collect();
+    let state = d.path().join("state.yaml");
+    std::fs::write(
+        &state,
+        format!(
+            "epoch_utc: \"{}Z\"\nr_km: [{}, {}, {}]\nv_km_s: [{}, {}, {}]\n",
+            f[0], f[1], f[2], f[3], f[4], f[5], f[6]
+        ),
+    )
+    .unwrap();
+    let hyp = d.path().join("hyp.yaml");
+    std::fs::write(
+        &hyp,
+        "hypotheses:\n  - no_maneuver\n  - continuous_along_track\n",
+    )
+    .unwrap();
+    let sites = root().join("examples/sites/radar_campaign.yaml");
+    let (arc, forces) = (out.join("train.tdm"), out.join("forces.yaml"));
+    let (code, stdout, err) = arcwise(&[
+        "rank",
+        "--arc",
+        s(&arc),
+        "--forces",
+        s(&forces),
+        "--sites",
+        s(&sites),
+        "--hypotheses",
+        s(&hyp),
+        "--initial",
+        s(&state),
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{err}");
+    assert!(
+        stdout.contains("the best hypothesis (no_maneuver) explains the arc"),
+        "{stdout}"
+    );
+    let missing = d.path().join("no-state.yaml");
+    let (code, _, err) = arcwise(&[
+        "learn",
+        "--arc",
+        s(&arc),
+        "--forces",
+        s(&forces),
+        "--sites",
+        s(&sites),
+        "--initial",
+        s(&missing),
+        "--out",
+        s(&d.path().join("l.yaml")),
+    ]);
+    assert_eq!(code, 2);
+    assert!(err.contains("no-state.yaml"), "{err}");
+}

@@ -67,7 +67,7 @@ pub fn parse_estimate(items: &[String]) -> Result<Vec<Parameter>, CliError> {
 }
 
 /// The state of `path` carried to `start` under `model` (whose `t_s = 0` is `start`).
-fn initial_at(
+pub(crate) fn initial_at(
     path: &Path,
     spec: &ForcesFile,
     model: &propagator::ForceModel,

@@ -24,6 +24,10 @@ use std::time::Duration;
 /// Options of `arcwise learn`.
 #[derive(ClapArgs, Debug)]
 pub struct Args {
+    /// Start the base fit from this state (STATE.yaml, carried to the arc's first epoch
+    /// with the known forces) instead of the initial orbit determined from the data.
+    #[arg(long, value_name = "STATE.yaml")]
+    initial: Option<PathBuf>,
     /// Observation arc (.csv, .oem or .sp3).
     #[arg(long, value_name = "ARC.csv")]
     arc: PathBuf,
@@ -93,15 +97,25 @@ pub fn run(a: Args) -> Result<(), CliError> {
     outputs.extend(a.report.as_deref().map(|p| ("--report", p)));
     outputs.extend(plot_files.iter().map(|p| ("--plot", p.as_path())));
     crate::paths::check_distinct(
-        &a.arc_options
-            .inputs(&[("--arc", &a.arc), ("--forces", &a.forces)]),
+        &a.arc_options.inputs(&{
+            let mut ins: Vec<(&str, &Path)> = vec![("--arc", &a.arc), ("--forces", &a.forces)];
+            if let Some(p) = &a.initial {
+                ins.push(("--initial", p));
+            }
+            ins
+        }),
         &outputs,
     )?;
     let outside = checked_options(&a)?;
     let estimate = parse_estimate(&a.estimate)?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
     // Check the model builds before the long work.
-    let (arc, _, model_error) = a.arc_options.load(&a.arc, &spec, &a.forces)?;
+    let (arc, loaded, model_error) = a.arc_options.load(&a.arc, &spec, &a.forces)?;
+    let initial = a
+        .initial
+        .as_deref()
+        .map(|p| super::fit::initial_at(p, &spec, &loaded.model, &arc.start()))
+        .transpose()?;
     if model_error.floor_km > 0.0 {
         eprintln!(
             "model error: {:.3} m added in quadrature to each σ ({})",
@@ -119,7 +133,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
     };
     let context = Context::of_model(&spec, &a.forces, &arc.start())
         .map_err(|e| CliError::input(format!("{}: {e}", a.forces.display())))?;
-    let options = LearnOptions {
+    let mut options = LearnOptions {
         estimate,
         search: SearchOptions {
             population: a.population,
@@ -131,6 +145,7 @@ pub fn run(a: Args) -> Result<(), CliError> {
         seeds: a.seeds,
         ..LearnOptions::default()
     };
+    options.fit.initial_state = initial;
     let pool = thread_pool(a.threads)?;
     let mut fit_progress = FitProgress::new("learn: fit");
     let search_progress = SearchProgress::new("learn: search", a.generations * a.seeds);

@@ -23,6 +23,10 @@ pub const RANK_NOTICE: &str = "Maneuver hypotheses from a covariance-free linear
 /// Options of `arcwise rank`.
 #[derive(ClapArgs, Debug)]
 pub struct Args {
+    /// Start the base fit from this state (STATE.yaml, carried to the arc's first epoch
+    /// with the known forces) instead of the initial orbit determined from the data.
+    #[arg(long, value_name = "STATE.yaml")]
+    initial: Option<PathBuf>,
     /// Observation arc.
     #[arg(long, value_name = "ARC.csv")]
     arc: PathBuf,
@@ -49,11 +53,17 @@ pub struct Args {
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
     crate::paths::check_distinct(
-        &a.arc_options.inputs(&[
-            ("--arc", &a.arc),
-            ("--forces", &a.forces),
-            ("--hypotheses", &a.hypotheses),
-        ]),
+        &a.arc_options.inputs(&{
+            let mut ins: Vec<(&str, &Path)> = vec![
+                ("--arc", &a.arc),
+                ("--forces", &a.forces),
+                ("--hypotheses", &a.hypotheses),
+            ];
+            if let Some(p) = &a.initial {
+                ins.push(("--initial", p));
+            }
+            ins
+        }),
         &crate::paths::given(&[
             ("--report", a.report.as_deref()),
             ("--plot", a.plot.as_deref()),
@@ -137,8 +147,13 @@ fn linearized_arc(a: &Args) -> Result<(Epoch, Problem, Vec<Hypothesis>), CliErro
     let text = propagator::input::read_text(&a.hypotheses, propagator::input::MAX_CONFIG_BYTES)
         .map_err(|e| CliError::input(format!("{}: {e}", a.hypotheses.display())))?;
     let spec = ForcesFile::load(&a.forces).map_err(CliError::input)?;
-    let (arc, _, _) = a.arc_options.load(&a.arc, &spec, &a.forces)?;
+    let (arc, loaded, _) = a.arc_options.load(&a.arc, &spec, &a.forces)?;
     let t0 = arc.start();
+    let initial = a
+        .initial
+        .as_deref()
+        .map(|p| super::fit::initial_at(p, &spec, &loaded.model, &t0))
+        .transpose()?;
     let span_s = arc.end().seconds_since(&t0);
     let hyps = parse_hypotheses(&text, &a.hypotheses, &t0, span_s).map_err(CliError::input)?;
     let forces_path = a.forces.clone();
@@ -151,10 +166,11 @@ fn linearized_arc(a: &Args) -> Result<(Epoch, Problem, Vec<Hypothesis>), CliErro
     };
     let ctx = Context::of_model(&spec, &a.forces, &t0)
         .map_err(|e| CliError::input(format!("{}: {e}", a.forces.display())))?;
-    let options = LearnOptions {
+    let mut options = LearnOptions {
         estimate: parse_estimate(&a.estimate)?,
         ..LearnOptions::default()
     };
+    options.fit.initial_state = initial;
     let mut progress = FitProgress::new("rank: fit");
     let lin = linearize(&arc, &make, ctx, &options, &mut progress);
     progress.finish();
