@@ -30,6 +30,28 @@ fn simulate(out: &Path, format: &str) {
     simulate_with("radar_quiet.yaml", "radar_campaign.yaml", out, format);
 }
 
+/// A state file (in `dir`) holding the simulated truth's first state (the scenario epoch,
+/// before the first measurement), from the simulation in `out`.
+fn truth_state_file(out: &Path, dir: &Path) -> std::path::PathBuf {
+    let oem = std::fs::read_to_string(out.join("truth.oem")).unwrap();
+    let f: Vec<&str> = oem
+        .lines()
+        .find(|l| l.starts_with("2026-"))
+        .unwrap()
+        .split_whitespace()
+        .collect();
+    let state = dir.join("state.yaml");
+    std::fs::write(
+        &state,
+        format!(
+            "epoch_utc: \"{}Z\"\nr_km: [{}, {}, {}]\nv_km_s: [{}, {}, {}]\n",
+            f[0], f[1], f[2], f[3], f[4], f[5], f[6]
+        ),
+    )
+    .unwrap();
+    state
+}
+
 fn fit(arc: &Path, forces: &Path, report: &Path) -> serde_json::Value {
     let (code, stdout, err) = arcwise(&[
         "fit",
@@ -197,22 +219,7 @@ fn angles_only_fits_from_gauss_and_from_a_given_state_agree() {
     let out = d.path().join("sim");
     let sites = root().join("examples/sites/optical_pair.yaml");
     simulate_with("optical_quiet.yaml", "optical_pair.yaml", &out, "tdm");
-    let oem = std::fs::read_to_string(out.join("truth.oem")).unwrap();
-    let first: Vec<&str> = oem
-        .lines()
-        .find(|l| l.starts_with("2026-"))
-        .unwrap()
-        .split_whitespace()
-        .collect();
-    let state = d.path().join("state.yaml");
-    std::fs::write(
-        &state,
-        format!(
-            "epoch_utc: \"{}Z\"\nr_km: [{}, {}, {}]\nv_km_s: [{}, {}, {}]\n",
-            first[0], first[1], first[2], first[3], first[4], first[5], first[6]
-        ),
-    )
-    .unwrap();
+    let state = truth_state_file(&out, d.path());
     let (arc, forces) = (out.join("train.tdm"), out.join("forces.yaml"));
     let run = |extra: &[&str], report: &Path| {
         let mut a = vec![
@@ -250,22 +257,7 @@ fn rank_and_learn_take_a_starting_state_and_refuse_a_missing_one() {
     let d = tempfile::tempdir().unwrap();
     let out = d.path().join("sim");
     simulate(&out, "tdm");
-    let oem = std::fs::read_to_string(out.join("truth.oem")).unwrap();
-    let f: Vec<&str> = oem
-        .lines()
-        .find(|l| l.starts_with("2026-"))
-        .unwrap()
-        .split_whitespace()
-        .collect();
-    let state = d.path().join("state.yaml");
-    std::fs::write(
-        &state,
-        format!(
-            "epoch_utc: \"{}Z\"\nr_km: [{}, {}, {}]\nv_km_s: [{}, {}, {}]\n",
-            f[0], f[1], f[2], f[3], f[4], f[5], f[6]
-        ),
-    )
-    .unwrap();
+    let state = truth_state_file(&out, d.path());
     let hyp = d.path().join("hyp.yaml");
     std::fs::write(
         &hyp,
@@ -308,4 +300,34 @@ fn rank_and_learn_take_a_starting_state_and_refuse_a_missing_one() {
     ]);
     assert_eq!(code, 2);
     assert!(err.contains("no-state.yaml"), "{err}");
+    // The starting state is an input: no report may overwrite it (a first version of
+    // `fit --initial` left it out of the inputs checked).
+    let learned = d.path().join("l2.yaml");
+    for command in ["fit", "learn", "rank"] {
+        let mut a = vec![
+            command,
+            "--arc",
+            s(&arc),
+            "--forces",
+            s(&forces),
+            "--sites",
+            s(&sites),
+        ];
+        a.extend_from_slice(&["--initial", s(&state), "--report", s(&state)]);
+        if command == "learn" {
+            a.extend_from_slice(&["--out", s(&learned)]);
+        }
+        if command == "rank" {
+            a.extend_from_slice(&["--hypotheses", s(&hyp)]);
+        }
+        let (code, _, err) = arcwise(&a);
+        assert_eq!(code, 2, "{command}: {err}");
+        assert!(
+            err.contains("refusing to overwrite an input"),
+            "{command}: {err}"
+        );
+    }
+    assert!(std::fs::read_to_string(&state)
+        .unwrap()
+        .starts_with("epoch_utc"));
 }

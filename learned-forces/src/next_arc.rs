@@ -41,6 +41,15 @@ impl Unit {
         }
     }
 
+    /// A fit's overall RMS as text: its position RMS for a position arc, else the RMS of
+    /// its normalized residuals.
+    pub fn fit_rms(self, r: &crate::fit::FitResult) -> String {
+        match (self, r.rms_km) {
+            (Unit::Km, Some(km)) => self.text(km),
+            _ => Unit::Sigma.text(r.rms_sigma),
+        }
+    }
+
     /// The unit's word in report keys.
     pub fn key(self) -> &'static str {
         match self {
@@ -123,7 +132,7 @@ pub fn predict(
     if p.samples.len() != times.len() {
         return Err("the prediction decays before the end of the arc".into());
     }
-    let observing = Observing::new(arc, propagator::CentralBody::EARTH_EGM96.mu_km3_s2);
+    let observing = Observing::new(arc);
     let (mut rtn, mut errors, mut rows) = (Vec::new(), Vec::with_capacity(times.len()), Vec::new());
     for (i, ((_, x), o)) in p.samples.iter().zip(&arc.observations).enumerate() {
         let r = Vector3::new(x[0], x[1], x[2]);

@@ -44,11 +44,14 @@ pub struct Args {
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
     crate::paths::check_distinct(
-        &a.arc_options.inputs(&[
-            ("--learned", &a.learned),
-            ("--forces", &a.forces),
-            ("--arc", &a.arc),
-        ]),
+        &a.arc_options.inputs(
+            &[
+                ("--learned", &a.learned),
+                ("--forces", &a.forces),
+                ("--arc", &a.arc),
+            ],
+            &[],
+        ),
         &crate::paths::given(&[
             ("--report", a.report.as_deref()),
             ("--plot", a.plot.as_deref()),

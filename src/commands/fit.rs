@@ -302,8 +302,10 @@ fn plot_residuals(
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
     crate::paths::check_distinct(
-        &a.arc_options
-            .inputs(&[("--arc", &a.arc), ("--forces", &a.forces)]),
+        &a.arc_options.inputs(
+            &[("--arc", &a.arc), ("--forces", &a.forces)],
+            &[("--initial", a.initial.as_deref())],
+        ),
         &crate::paths::given(&[
             ("--report", a.report.as_deref()),
             ("--plot", a.plot.as_deref()),

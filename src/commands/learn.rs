@@ -15,6 +15,7 @@ use learned_forces::learn::{learn, trajectory, LearnOptions, Learned, Outcome};
 use learned_forces::learned_file::{
     sha256_hex, LearnedFile, LearnedResolver, OutsidePolicy, ProvenanceEntry,
 };
+use learned_forces::next_arc::Unit;
 use propagator::config::ForcesFile;
 use propagator::ephemeris::write_atomically;
 use propagator::frames::eci_to_rtn;
@@ -97,13 +98,10 @@ pub fn run(a: Args) -> Result<(), CliError> {
     outputs.extend(a.report.as_deref().map(|p| ("--report", p)));
     outputs.extend(plot_files.iter().map(|p| ("--plot", p.as_path())));
     crate::paths::check_distinct(
-        &a.arc_options.inputs(&{
-            let mut ins: Vec<(&str, &Path)> = vec![("--arc", &a.arc), ("--forces", &a.forces)];
-            if let Some(p) = &a.initial {
-                ins.push(("--initial", p));
-            }
-            ins
-        }),
+        &a.arc_options.inputs(
+            &[("--arc", &a.arc), ("--forces", &a.forces)],
+            &[("--initial", a.initial.as_deref())],
+        ),
         &outputs,
     )?;
     let outside = checked_options(&a)?;
@@ -166,14 +164,14 @@ pub fn run(a: Args) -> Result<(), CliError> {
     let name = file_name(&a);
     let mut file = learned_file(&a, &arc, &context, &learned, &name, outside)?;
     write_atomically(&a.out, file.to_yaml().as_bytes()).map_err(CliError::input)?;
-    let scale = RmsScale::of(&arc);
+    let scale = Unit::of(&arc);
     summarize(&learned, &a.out, scale);
     if let Some(dir) = &a.plot {
         plots(dir, &learned, &arc, &make, context, &options)?;
     }
     if let Some(path) = &a.report {
         let mut j = report(&a, &learned, &file);
-        if scale == RmsScale::Sigma {
+        if scale == Unit::Sigma {
             to_sigma_keys(&mut j, &learned);
             j["tracking"] = super::fit::tracking_json(&learned.base, &arc);
         }
@@ -288,40 +286,6 @@ fn learned_file(
 /// Most search seeds one learn may run.
 const MAX_SEEDS: usize = 64;
 
-/// The unit of the learner's RMS: metres of position for a position arc, σ units
-/// (normalized residuals) for a tracking arc.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-enum RmsScale {
-    Metres,
-    Sigma,
-}
-
-impl RmsScale {
-    fn of(arc: &learned_forces::arc::Arc) -> RmsScale {
-        if arc.tracking.is_some() {
-            RmsScale::Sigma
-        } else {
-            RmsScale::Metres
-        }
-    }
-
-    /// A learner RMS (km for positions, σ for measurements) as text with its unit.
-    fn text(self, v: f64) -> String {
-        match self {
-            RmsScale::Metres => format!("{:.2} m", v * 1e3),
-            RmsScale::Sigma => format!("{v:.2} σ"),
-        }
-    }
-
-    /// A fit's overall RMS as text.
-    fn fit(self, r: &learned_forces::fit::FitResult) -> String {
-        match (self, r.rms_km) {
-            (RmsScale::Metres, Some(km)) => self.text(km),
-            _ => RmsScale::Sigma.text(r.rms_sigma),
-        }
-    }
-}
-
 /// A tracking arc's report: the RMS in σ units under `_sigma` keys (the `_km` keys are
 /// positions, which measurements do not give).
 fn to_sigma_keys(j: &mut serde_json::Value, l: &Learned) {
@@ -353,11 +317,11 @@ fn to_sigma_keys(j: &mut serde_json::Value, l: &Learned) {
     }
 }
 
-fn summarize(l: &Learned, out: &Path, scale: RmsScale) {
+fn summarize(l: &Learned, out: &Path, scale: Unit) {
     let v = &l.base.verdict;
     println!(
         "base fit: RMS {}, χ² {:.1} on {} dof, verdict {}",
-        scale.fit(&l.base),
+        scale.fit_rms(&l.base),
         v.chi2,
         v.dof,
         if v.anomaly { "anomaly" } else { "no_anomaly" }
@@ -407,8 +371,8 @@ fn summarize(l: &Learned, out: &Path, scale: RmsScale) {
             println!(
                 "learned: {}\n  RMS {} → {}; held-out {} (known forces: {})",
                 c.terms.text(),
-                scale.fit(&l.base),
-                scale.fit(&c.fit),
+                scale.fit_rms(&l.base),
+                scale.fit_rms(&c.fit),
                 scale.text(c.held_out_rms),
                 l.held_out_rms_base
                     .map_or("n/a".to_string(), |h| scale.text(h))

@@ -38,6 +38,15 @@ pub struct ArcOptions {
     pub sites: Option<std::path::PathBuf>,
 }
 
+/// The sensors of a sites file (`--sites`).
+pub fn load_sites(
+    path: &std::path::Path,
+) -> Result<Vec<propagator::tracking::sites_file::SiteEntry>, CliError> {
+    let text = propagator::input::read_text(path, propagator::input::MAX_CONFIG_BYTES)
+        .map_err(|e| CliError::input(format!("{}: {e}", path.display())))?;
+    propagator::tracking::sites_file::parse(&text, path).map_err(CliError::input)
+}
+
 /// The frame a `--frame` value names, or an error saying which are known.
 pub fn frame_option(value: &str) -> Result<propagator::frames::Frame, CliError> {
     propagator::frames::Frame::from_keyword(value).ok_or_else(|| {
@@ -49,15 +58,16 @@ pub fn frame_option(value: &str) -> Result<propagator::frames::Frame, CliError> 
 }
 
 impl ArcOptions {
-    /// `inputs` and the sites file, if given: every path the command reads.
+    /// `inputs`, the `optional` ones given, and the sites file if given: every path the
+    /// command reads.
     pub fn inputs<'a>(
         &'a self,
         inputs: &[(&'a str, &'a std::path::Path)],
+        optional: &[(&'a str, Option<&'a std::path::Path>)],
     ) -> Vec<(&'a str, &'a std::path::Path)> {
         let mut all = inputs.to_vec();
-        if let Some(s) = &self.sites {
-            all.push(("--sites", s.as_path()));
-        }
+        all.extend(crate::paths::given(optional));
+        all.extend(crate::paths::given(&[("--sites", self.sites.as_deref())]));
         all
     }
 
@@ -73,17 +83,7 @@ impl ArcOptions {
             propagator::text::check_name("--object", o).map_err(CliError::input)?;
         }
         let frame = frame_option(&self.frame)?;
-        let sites = match &self.sites {
-            Some(path) => {
-                let text = propagator::input::read_text(path, propagator::input::MAX_CONFIG_BYTES)
-                    .map_err(|e| CliError::input(format!("{}: {e}", path.display())))?;
-                Some(
-                    propagator::tracking::sites_file::parse(&text, path)
-                        .map_err(CliError::input)?,
-                )
-            }
-            None => None,
-        };
+        let sites = self.sites.as_deref().map(load_sites).transpose()?;
         Ok(ArcDefaults {
             sigma_km: self.sigma_km,
             object: self.object.clone(),

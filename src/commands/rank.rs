@@ -53,17 +53,14 @@ pub struct Args {
 /// Runs the command.
 pub fn run(a: Args) -> Result<(), CliError> {
     crate::paths::check_distinct(
-        &a.arc_options.inputs(&{
-            let mut ins: Vec<(&str, &Path)> = vec![
+        &a.arc_options.inputs(
+            &[
                 ("--arc", &a.arc),
                 ("--forces", &a.forces),
                 ("--hypotheses", &a.hypotheses),
-            ];
-            if let Some(p) = &a.initial {
-                ins.push(("--initial", p));
-            }
-            ins
-        }),
+            ],
+            &[("--initial", a.initial.as_deref())],
+        ),
         &crate::paths::given(&[
             ("--report", a.report.as_deref()),
             ("--plot", a.plot.as_deref()),

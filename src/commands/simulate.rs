@@ -46,9 +46,7 @@ fn output_files(arc_ext: &str) -> [String; 4] {
 
 /// The sensors of `--sites`, on the shipped Earth orientation.
 fn sensors(path: &Path) -> Result<std::sync::Arc<learned_forces::arc::Tracking>, CliError> {
-    let text = propagator::input::read_text(path, propagator::input::MAX_CONFIG_BYTES)
-        .map_err(|e| CliError::input(format!("{}: {e}", path.display())))?;
-    let sites = propagator::tracking::sites_file::parse(&text, path).map_err(CliError::input)?;
+    let sites = super::load_sites(path)?;
     let earth = propagator::earth::EarthOrientation::shipped().map_err(CliError::input)?;
     Ok(std::sync::Arc::new(learned_forces::arc::Tracking {
         sites,

@@ -33,67 +33,65 @@ pub(super) fn initial_guess(arc: &Arc, t: &[f64], mu: f64) -> Result<StateVector
         };
         return kepler_shift(&x_k, -t_k, mu);
     }
-    let o0 = &arc.observations[0];
-    if let Observed::State(s) = &o0.observed {
+    if let Observed::State(s) = &arc.observations[0].observed {
         if let Some(v) = s.v_km_s {
             return Ok(StateVector::new(
                 s.r_km[0], s.r_km[1], s.r_km[2], v[0], v[1], v[2],
             ));
         }
     }
+    // The first positions within 600 s (at most 15, at least 3).
+    let k = t
+        .iter()
+        .take(15)
+        .take_while(|&&ti| ti <= 600.0)
+        .count()
+        .max(3);
     let points: Vec<(f64, Vector3<f64>)> = arc
         .observations
         .iter()
         .zip(t)
+        .take(k)
         .filter_map(|(o, &ti)| o.as_state().map(|s| (ti, s.r_km)))
-        .take(15)
-        .take_while(|(ti, _)| *ti <= 600.0)
         .collect();
     if points.len() < 3 {
-        if arc.observations.len() < 3 {
-            return Err(FitError::Unfit(
-                "a position-only arc needs at least 3 observations to start the fit".into(),
-            ));
-        }
-        let first: Vec<_> = arc
-            .observations
-            .iter()
-            .zip(t)
-            .take(3)
-            .filter_map(|(o, &ti)| o.as_state().map(|s| (ti, s.r_km)))
-            .collect();
-        return polynomial_state(&first);
+        return Err(FitError::Unfit(
+            "a position-only arc needs at least 3 observations to start the fit".into(),
+        ));
     }
-    polynomial_state(&points)
+    let (r, v) = polynomial_at(&points, points[0].0)?;
+    Ok(StateVector::new(r[0], r[1], r[2], v[0], v[1], v[2]))
 }
 
-/// The state at the first of `points` from a polynomial (degree ≤ 3) through them.
-fn polynomial_state(points: &[(f64, Vector3<f64>)]) -> Result<StateVector, FitError> {
+/// The value and first derivative at `at` (s) of the least-squares polynomial (degree
+/// ≤ 3) through `points` (s, km).
+fn polynomial_at(
+    points: &[(f64, Vector3<f64>)],
+    at: f64,
+) -> Result<(Vector3<f64>, Vector3<f64>), FitError> {
     let k = points.len();
     if k < 3 {
         return Err(FitError::Unfit(
             "at least 3 positions are needed to start the fit".into(),
         ));
     }
-    let t0 = points[0].0;
     let deg = (k - 1).min(3);
     let mut a = DMatrix::zeros(k, deg + 1);
     for (i, (ti, _)) in points.iter().enumerate() {
         for d in 0..=deg {
-            a[(i, d)] = (ti - t0).powi(d as i32);
+            a[(i, d)] = (ti - at).powi(d as i32);
         }
     }
     let svd = a.svd(true, true);
-    let mut x = StateVector::zeros();
+    let (mut r, mut v) = (Vector3::zeros(), Vector3::zeros());
     for c in 0..3 {
-        let b = DVector::from_iterator(k, points.iter().map(|(_, r)| r[c]));
+        let b = DVector::from_iterator(k, points.iter().map(|(_, p)| p[c]));
         let coef = svd
             .solve(&b, 1e-14)
             .map_err(|e| FitError::Unfit(e.to_string()))?;
-        x[c] = coef[0];
-        x[c + 3] = coef[1];
+        (r[c], v[c]) = (coef[0], coef[1]);
     }
-    Ok(x)
+    Ok((r, v))
 }
 
 /// A state (s from the start, state) from a pass of radar positions: the positions
@@ -101,36 +99,12 @@ fn polynomial_state(points: &[(f64, Vector3<f64>)]) -> Result<StateVector, FitEr
 /// metres), taken at the first, middle and last epoch, and Herrick–Gibbs's velocity at
 /// the middle one.
 fn radar_state(points: &[(f64, Vector3<f64>)], mu: f64) -> Result<(f64, StateVector), FitError> {
-    // The smoothed position at t: the polynomial refitted with its origin at t.
-    let smooth = |t: f64| {
-        let shifted: Vec<(f64, Vector3<f64>)> = points.iter().map(|(ti, r)| (ti - t, *r)).collect();
-        polynomial_value_at_zero(&shifted)
-            .ok_or_else(|| FitError::Unfit("the first radar pass gives no usable positions".into()))
-    };
+    let smooth = |t: f64| polynomial_at(points, t).map(|(r, _)| r);
     let (t1, t3) = (points[0].0, points[points.len() - 1].0);
     let t2 = 0.5 * (t1 + t3);
     let (r1, r2, r3) = (smooth(t1)?, smooth(t2)?, smooth(t3)?);
     let v = herrick_gibbs([(t1, r1), (t2, r2), (t3, r3)], mu);
     Ok((t2, StateVector::new(r2[0], r2[1], r2[2], v[0], v[1], v[2])))
-}
-
-/// The value at 0 of the least-squares polynomial (degree ≤ 3) through `points`.
-fn polynomial_value_at_zero(points: &[(f64, Vector3<f64>)]) -> Option<Vector3<f64>> {
-    let k = points.len();
-    let deg = k.checked_sub(1)?.min(3);
-    let mut a = DMatrix::zeros(k, deg + 1);
-    for (i, (ti, _)) in points.iter().enumerate() {
-        for d in 0..=deg {
-            a[(i, d)] = ti.powi(d as i32);
-        }
-    }
-    let svd = a.svd(true, true);
-    let mut out = Vector3::zeros();
-    for c in 0..3 {
-        let b = DVector::from_iterator(k, points.iter().map(|(_, r)| r[c]));
-        out[c] = svd.solve(&b, 1e-14).ok()?[0];
-    }
-    Some(out)
 }
 
 /// Herrick–Gibbs: the velocity at the middle of three closely spaced positions

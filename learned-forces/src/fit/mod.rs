@@ -228,7 +228,7 @@ pub fn fit(
     let parameters = model.parameters();
     let n_params = parameters.len();
     let n_est = 6 + n_params;
-    let observing = Observing::new(arc, propagator::CentralBody::EARTH_EGM96.mu_km3_s2);
+    let observing = Observing::new(arc);
     let n_meas: usize = (0..n_obs).map(|i| observing.count(i)).sum();
     if n_meas <= n_est {
         return Err(FitError::Unfit(format!(
@@ -244,7 +244,7 @@ pub fn fit(
     let mut fm = model;
     let mut x0 = match options.initial_state {
         Some(x) => x,
-        None => initial::initial_guess(arc, &t, problem.observing.mu_km3_s2())?,
+        None => initial::initial_guess(arc, &t, rows::MU_KM3_S2)?,
     };
     let stage_ends = stage_ends(&t, options.initial_state.is_none());
     let mut editing = Editing {

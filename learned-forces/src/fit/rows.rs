@@ -23,39 +23,40 @@ pub struct Row {
     pub channel: Option<usize>,
 }
 
+/// The Earth's μ (km³/s²) of the measurements' light-time track and of the initial orbit:
+/// both need the central body's gravity only to second order over seconds or as a start.
+pub(crate) const MU_KM3_S2: f64 = propagator::CentralBody::EARTH_EGM96.mu_km3_s2;
+
 /// The observation model of an arc: what the rows need besides the states.
 pub(crate) struct Observing<'a> {
     arc: &'a Arc,
     /// The Earth's rotation at each tracking observation's epoch.
     rotations: Vec<Option<EarthRotation>>,
-    mu_km3_s2: f64,
 }
 
 /// Channels of a state arc: the position axes (x, y, z).
 const STATE_CHANNELS: usize = 3;
 
 impl<'a> Observing<'a> {
-    /// The model of `arc`, the central body's `mu_km3_s2` for the light-time track.
-    pub(crate) fn new(arc: &'a Arc, mu_km3_s2: f64) -> Observing<'a> {
+    /// The model of `arc`.
+    pub(crate) fn new(arc: &'a Arc) -> Observing<'a> {
+        // Measurements that share an epoch (a radar's range and angles) share its rotation.
+        let mut last: Option<(propagator::Epoch, EarthRotation)> = None;
         let rotations = arc
             .observations
             .iter()
             .map(|o| {
                 let t = arc.tracking.as_ref()?;
                 o.as_tracked()?;
-                Some(t.earth.at(o.epoch.tt_seconds_since_j2000()))
+                let rotation = match last {
+                    Some((e, r)) if e == o.epoch => r,
+                    _ => t.earth.at(o.epoch.tt_seconds_since_j2000()),
+                };
+                last = Some((o.epoch, rotation));
+                Some(rotation)
             })
             .collect();
-        Observing {
-            arc,
-            rotations,
-            mu_km3_s2,
-        }
-    }
-
-    /// The central body's μ the light-time track uses, km³/s².
-    pub(crate) fn mu_km3_s2(&self) -> f64 {
-        self.mu_km3_s2
+        Observing { arc, rotations }
     }
 
     /// How many rows observation `i` gives.
@@ -101,7 +102,7 @@ impl<'a> Observing<'a> {
                     return Err("internal: a measurement without its sites".into());
                 };
                 let site = &t.sites[m.site].site;
-                let model = measurement::model(m.kind, m.tag, site, x, self.mu_km3_s2, rot)?;
+                let model = measurement::model(m.kind, m.tag, site, x, MU_KM3_S2, rot)?;
                 let d = measurement::residual(m.kind, m.value - m.bias, model.value);
                 let sigma = m.sigma * model.sigma_scale;
                 out.push(Row {

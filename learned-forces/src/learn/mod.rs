@@ -26,6 +26,7 @@ use crate::arc::Arc;
 use crate::expr::{Context, Node};
 use crate::fit::model::{ExtraTerms, FitModel, Parameter};
 use crate::fit::{fit, FitError, FitObserver, FitOptions, FitResult};
+use crate::next_arc::Unit;
 use crate::terms::Terms;
 use linearized::{Problem, Solution};
 use propagator::{Epoch, ForceModel};
@@ -185,15 +186,6 @@ pub fn linearize(
     Ok((base, problem))
 }
 
-/// A learner RMS with its unit: metres for a position arc, σ units for a tracking arc.
-fn rms_text(arc: &Arc, v: f64) -> String {
-    if arc.tracking.is_some() {
-        format!("{v:.2} σ")
-    } else {
-        format!("{:.1} m", v * 1e3)
-    }
-}
-
 /// Learns the missing force of `arc` under the known forces `make_model(epoch)` builds.
 /// On an arc shorter than one revolution only a quiet verdict is given (with a note); an
 /// anomalous one is refused.
@@ -268,8 +260,8 @@ pub fn learn(
         None => Some("no candidate survived refinement with significant terms".to_string()),
         Some(c) if c.held_out_rms >= held_out_base => Some(format!(
             "the best model predicts the held-out tail no better than the known forces ({} vs {}): nothing learned",
-            rms_text(arc, c.held_out_rms),
-            rms_text(arc, held_out_base)
+            Unit::of(arc).text(c.held_out_rms),
+            Unit::of(arc).text(held_out_base)
         )),
         Some(_) => None,
     };

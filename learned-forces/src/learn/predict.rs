@@ -29,7 +29,7 @@ pub fn prediction_rms(
         .map(|o| o.epoch.seconds_since(&fitted.epoch0))
         .collect();
     let states = trajectory(model, fitted, nodes, context, &times, fit_options)?;
-    let observing = Observing::new(target, propagator::CentralBody::EARTH_EGM96.mu_km3_s2);
+    let observing = Observing::new(target);
     let mut ss = 0.0;
     let mut rows = Vec::new();
     for (i, (x, o)) in states.iter().zip(&target.observations).enumerate() {

@@ -40,7 +40,7 @@ impl Learner<'_> {
             .map_err(|e| LearnError::Unfit(e.to_string()))?;
         let states: Vec<_> = samples.iter().map(|s| s.state).collect();
         let phis: Vec<Matrix6<f64>> = samples.iter().map(|s| s.phi).collect();
-        let observing = Observing::new(train, propagator::CentralBody::EARTH_EGM96.mu_km3_s2);
+        let observing = Observing::new(train);
         let mut rows = Vec::new();
         let mut row = 0;
         let mut scratch = Vec::new();
